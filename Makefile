@@ -1,0 +1,102 @@
+# sillwatch — hydrostatic screening of hinged flap gates.
+# Targets: all (default), check, bench, install, uninstall, clean,
+#          check-sanitize, check-valgrind.  See DEVELOPERS.md.
+
+VERSION   := 0.1.0
+PREFIX    ?= /usr/local
+DESTDIR   ?=
+BUILD     ?= build
+CC        ?= cc
+
+# Warnings are errors in CI (CI=true) and when asked for (WERROR=1).
+ifneq ($(filter true 1,$(CI) $(WERROR)),)
+WERROR_FLAG := -Werror
+endif
+
+PKGS      := gsl inih
+WARN      := -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wstrict-prototypes \
+             -Wmissing-prototypes -Wformat=2
+CFLAGS    ?= -O2 -g
+ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
+             -Iinclude -DSW_VERSION=\"$(VERSION)\" $(CFLAGS) $(EXTRA_CFLAGS) \
+             $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
+# Recursive (=) so that pkg-config runs after tools/check-deps.sh has
+# installed it on a new machine; the fallbacks are Debian's link lines.
+LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih) \
+             -lcsv -lm $(EXTRA_LDFLAGS)
+TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka)
+
+# The library: every src/*.c except the program's own files.
+CLI_SRC   := src/main.c $(wildcard src/cmd_*.c)
+LIB_SRC   := $(filter-out $(CLI_SRC),$(wildcard src/*.c))
+LIB_OBJ   := $(LIB_SRC:src/%.c=$(BUILD)/obj/%.o)
+CLI_OBJ   := $(CLI_SRC:src/%.c=$(BUILD)/obj/%.o)
+LIB       := $(BUILD)/libsillwatch.a
+PROG      := $(BUILD)/sillwatch
+
+UNIT_SRC  := $(wildcard tests/unit/test_*.c)
+UNIT_BIN  := $(UNIT_SRC:tests/unit/%.c=$(BUILD)/tests/%)
+BENCH_SRC := $(wildcard tests/bench/bench_*.c)
+BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
+DEPS_OK   := $(BUILD)/.deps-ok
+
+.PHONY: all check bench install uninstall clean check-sanitize check-valgrind deps
+
+all: $(PROG)
+
+# Install missing Debian packages before the first compile (tools/).
+$(DEPS_OK): tools/check-deps.sh tools/install-deps.sh
+	@mkdir -p $(@D)
+	@CC="$(CC)" tools/check-deps.sh
+	@touch $@
+
+deps: $(DEPS_OK)
+
+$(BUILD)/obj/%.o: src/%.c | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -MMD -MP -c $< -o $@
+
+$(LIB): $(LIB_OBJ)
+	@rm -f $@
+	$(AR) rcs $@ $^
+
+$(PROG): $(CLI_OBJ) $(LIB)
+	$(CC) $(ALL_CFLAGS) -o $@ $(CLI_OBJ) $(LIB) $(LDLIBS_ALL)
+
+$(BUILD)/tests/%: tests/unit/%.c tests/unit/testutil.h $(LIB) | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -Itests/unit -o $@ $< $(LIB) $(TEST_LIBS) $(LDLIBS_ALL)
+
+$(BUILD)/bench/%: tests/bench/%.c $(LIB) | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -O2 -o $@ $< $(LIB) $(LDLIBS_ALL)
+
+check: $(PROG) $(UNIT_BIN)
+	@tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+
+bench: $(BENCH_BIN) $(PROG)
+	@for b in $(BENCH_BIN); do echo "== $$b"; $$b || exit 1; done
+
+# The whole suite under AddressSanitizer and UndefinedBehaviorSanitizer.
+check-sanitize:
+	$(MAKE) BUILD=$(BUILD)/san CFLAGS="-O1 -g" \
+	  EXTRA_CFLAGS="-fsanitize=address,undefined -fno-sanitize-recover=all -fno-omit-frame-pointer" \
+	  EXTRA_LDFLAGS="-fsanitize=address,undefined" check
+
+# The CLI tests with every program run under valgrind memcheck.
+check-valgrind: $(PROG) $(UNIT_BIN)
+	@SW_WRAPPER="valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all" \
+	  tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+
+install: $(PROG)
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
+	install -m 755 $(PROG) $(DESTDIR)$(PREFIX)/bin/sillwatch
+	install -m 644 src/sillwatch.1 $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+
+uninstall:
+	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+
+clean:
+	rm -rf $(BUILD)
+
+-include $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d)

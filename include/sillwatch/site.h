@@ -1,0 +1,71 @@
+/* sillwatch: the site file.
+ *
+ * A site file is INI text read with libinih.  Sections and keys are those
+ * of the model document:
+ *
+ *   [site]             name, gravity | latitude (+ elevation),
+ *                      required_fs, min_sill_reaction
+ *   [water upstream]   density | temperature (+ salinity)
+ *   [water downstream] density | temperature (+ salinity)
+ *   [gate NAME]        shape, hinge_level, inclination, seal_top,
+ *                      seal_height, seal_width, diameter, leaf_length, mass,
+ *                      cg_along, cg_offset, volume, extra_moment,
+ *                      required_fs, min_sill_reaction, headwater, tailwater
+ *
+ * Every value is checked on load; the first problem found is reported with
+ * the file, line and column where it stands (or, for a missing key, the
+ * line of the section that lacks it).
+ */
+#ifndef SILLWATCH_SITE_H
+#define SILLWATCH_SITE_H
+
+#include <stddef.h>
+
+#include "sillwatch/error.h"
+#include "sillwatch/gate.h"
+
+#define SW_SITE_NAME_MAX 64
+
+/* How a water's density was given. */
+typedef struct sw_site_water {
+    int from_temperature;   /* 1: temperature (+ salinity); 0: density */
+    double temperature_C;   /* valid when from_temperature */
+    double salinity;        /* valid when from_temperature; default 0 */
+    double rho_kgm3;        /* the density in use, either way */
+} sw_site_water;
+
+/* One gate as the site file gives it. */
+typedef struct sw_site_gate {
+    sw_gate gate;                       /* validated and prepared */
+    long line;                          /* line of its [gate NAME] header */
+    char headwater[SW_SITE_NAME_MAX];   /* series name, "" if not given */
+    char tailwater[SW_SITE_NAME_MAX];   /* series name, "" if not given */
+} sw_site_gate;
+
+typedef struct sw_site {
+    char path[SW_ERROR_PATH_MAX];
+    char name[SW_SITE_NAME_MAX * 2];
+    int gravity_from_latitude;      /* 1: latitude + elevation were given */
+    double latitude_deg, elevation_m;
+    double g_ms2;                   /* the gravity in use */
+    double required_fs;             /* site-wide; NAN when not given */
+    double min_sill_reaction_N;     /* site-wide; 0 when not given */
+    sw_site_water water[2];         /* indexed by sw_side */
+    size_t n_gates;
+    sw_site_gate *gates;            /* in file order; owned by the site */
+} sw_site;
+
+/* Read, check and prepare the site file at `path`.  On success returns
+ * SW_OK and fills *site, which the caller releases with sw_site_fini().
+ * On failure returns SW_ESITE (or SW_ENOMEM) with file, line, column and a
+ * message in *err, and leaves *site empty (sw_site_fini() is still safe). */
+int sw_site_load(sw_site *site, const char *path, sw_error *err);
+
+/* Release what sw_site_load() allocated.  Safe on an empty or failed site
+ * and on NULL. */
+void sw_site_fini(sw_site *site);
+
+/* The gate named `name`, or NULL if the site has none by that name. */
+const sw_site_gate *sw_site_find_gate(const sw_site *site, const char *name);
+
+#endif

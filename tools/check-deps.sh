@@ -1,0 +1,24 @@
+#!/bin/sh
+# Check that the build and test dependencies are present; install the missing
+# ones from Debian's packages through tools/install-deps.sh.
+# Called by the Makefile before the first compile.
+set -eu
+here=$(dirname "$0")
+missing=
+
+have_header() { printf '#include <%s>\n' "$1" | ${CC:-cc} -E -x c - >/dev/null 2>&1; }
+
+command -v ${CC:-cc} >/dev/null 2>&1 || missing="$missing build-essential"
+command -v pkg-config >/dev/null 2>&1 || missing="$missing pkg-config"
+have_header csv.h || missing="$missing libcsv-dev"
+have_header gsl/gsl_roots.h || missing="$missing libgsl-dev"
+# cmocka.h needs these three first.
+printf '#include <stdarg.h>\n#include <stddef.h>\n#include <setjmp.h>\n#include <cmocka.h>\n' \
+    | ${CC:-cc} -E -x c - >/dev/null 2>&1 || missing="$missing libcmocka-dev"
+have_header ini.h || missing="$missing libinih-dev"
+
+if [ -n "$missing" ]; then
+    echo "check-deps: missing:$missing"
+    # shellcheck disable=SC2086
+    "$here/install-deps.sh" $missing
+fi

@@ -1,0 +1,35 @@
+#!/bin/sh
+# Run every unit test program and every CLI case; print one closing line
+# "N passed, N failed".  Usage: tools/run-tests.sh BUILD_DIR UNIT_BINARY...
+# SW_WRAPPER, if set, prefixes every run of the program (valgrind, say).
+set -u
+build=$1; shift
+passed=0; failed=0
+
+for t in "$@"; do
+    if ${SW_WRAPPER:-} "$t"; then passed=$((passed + 1)); else
+        echo "FAILED: $t"; failed=$((failed + 1)); fi
+done
+
+# CLI cases: tests/cli/NAME/{cmd,stdout,stderr,status}; see DEVELOPERS.md.
+prog=$(cd "$build" && pwd)/sillwatch
+for dir in tests/cli/*/; do
+    [ -f "$dir/cmd" ] || continue
+    name=$(basename "$dir")
+    out=$(mktemp -d)
+    ( cd "$dir" && LC_ALL=C SW="${SW_WRAPPER:+$SW_WRAPPER }$prog" TMP="$out" \
+        sh ./cmd >"$out/stdout" 2>"$out/stderr" </dev/null; echo $? >"$out/status" )
+    ok=1
+    for f in stdout stderr status; do
+        if ! cmp -s "$dir/$f" "$out/$f"; then
+            [ $ok = 1 ] && echo "FAILED: cli/$name"
+            ok=0
+            diff -u "$dir/$f" "$out/$f" | head -n 40 | sed 's/^/    /'
+        fi
+    done
+    if [ $ok = 1 ]; then passed=$((passed + 1)); else failed=$((failed + 1)); fi
+    rm -rf "$out"
+done
+
+echo "$passed passed, $failed failed"
+[ "$failed" = 0 ]
