@@ -382,7 +382,8 @@ static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
     s0 = s0 < 0.0 ? 0.0 : (s0 > len ? len : s0);
     out->buoyancy_side = side;
     out->buoyancy_force_N = rho_b * g->g_ms2 * g->volume_m3 * (len - s0) / len;
-    out->buoyancy_arm_m = 0.5 * (s0 + len) * g->cos_a;
+    out->buoyancy_at_m = 0.5 * (s0 + len);
+    out->buoyancy_arm_m = out->buoyancy_at_m * g->cos_a;
     out->buoyancy_moment_Nm = out->buoyancy_force_N * out->buoyancy_arm_m;
     out->extra_moment_Nm = g->extra_moment_Nm;
 

@@ -65,6 +65,7 @@ typedef struct sw_gate_result {
                                           hinge; 0 where the force is 0 */
     double weight_moment_Nm;           /* + holds shut */
     double buoyancy_force_N;           /* upward, >= 0 */
+    double buoyancy_at_m;              /* s of the centre of buoyancy */
     double buoyancy_arm_m;             /* horizontal, + downstream */
     double buoyancy_moment_Nm;         /* + opens (model sign) */
     sw_side buoyancy_side;             /* the water taken as displaced */

@@ -1,0 +1,49 @@
+/* sillwatch: what the program's command files share (not part of the
+ * library).  Only the program prints and exits. */
+#ifndef SILLWATCH_CLI_H
+#define SILLWATCH_CLI_H
+
+#include <stdio.h>
+
+#include "sillwatch/error.h"
+
+/* Exit codes, documented in the README, the man page and --help. */
+enum sw_exit {
+    SW_EXIT_OK = 0,        /* ran; every gate held its margin */
+    SW_EXIT_BELOW = 1,     /* ran; some gate was low or open */
+    SW_EXIT_USAGE = 2,     /* the command line is wrong */
+    SW_EXIT_SITE = 3,      /* the site file is unreadable or invalid */
+    SW_EXIT_DATA = 4,      /* a level file is unreadable or invalid */
+    SW_EXIT_OUTPUT = 5,    /* an output could not be written */
+    SW_EXIT_NUMERIC = 6,   /* a numerical method failed (please report) */
+    SW_EXIT_NOMEM = 7,     /* out of memory */
+    SW_EXIT_INTERNAL = 8   /* a bug (please report) */
+};
+
+/* The exit code for a library status. */
+int sw_cli_exit_code(int status);
+
+/* Print `err` to stderr as "sillwatch: file:line:col: message" (the
+ * position parts only where known) and return its exit code. */
+int sw_cli_report(const sw_error *err);
+
+/* Print "sillwatch: COMMAND: message" and a hint to stderr; return
+ * SW_EXIT_USAGE. */
+int sw_cli_usage_error(const char *command, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+
+/* Parse a level or other number from the command line: the whole string
+ * must be a finite decimal number.  Returns 0 and stores it, or -1. */
+int sw_cli_parse_number(const char *text, double *value);
+
+/* The caution printed by --help and the reports. */
+extern const char sw_cli_caution[];
+
+/* Commands. */
+int sw_cmd_check(int argc, char **argv);
+int sw_cmd_point(int argc, char **argv);
+
+#endif

@@ -1,0 +1,309 @@
+/* sillwatch point: hand-check every gate (or the named ones) at one
+ * headwater and tailwater. */
+#define _DEFAULT_SOURCE /* getopt_long */
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "cli.h"
+#include "sillwatch/gate.h"
+#include "sillwatch/site.h"
+
+static const char point_help[] =
+    "Usage: sillwatch point SITE.ini --headwater LEVEL --tailwater LEVEL\n"
+    "                       [--gate NAME]... [--format text|csv]\n"
+    "Evaluate the hydrostatic hinge moments of the site's gates at one pair\n"
+    "of water levels (elevations in m above the site datum).\n"
+    "\n"
+    "  --headwater LEVEL   upstream (retained) water level, m\n"
+    "  --tailwater LEVEL   downstream (backing) water level, m\n"
+    "  --gate NAME         only this gate (repeatable; default: every gate)\n"
+    "  --format FORMAT     text (default): the full hand-check;\n"
+    "                      csv: one row per gate (units m, N, N*m)\n"
+    "  -h, --help          show this help and exit\n"
+    "\n"
+    "Exit status: 0 every gate ok, 1 some gate low or open, 2 usage,\n"
+    "3 site file, 6 numerical failure; see 'sillwatch --help'.\n"
+    "\n";
+
+/* Where a load acts: s along the leaf, elevation, and lever arm. */
+static void print_load(const char *what, double force, double s, double z,
+                       double arm, double moment)
+{
+    if (force == 0.0) {
+        printf("  %-22s %14s %10s %10s %10s %15.1f\n", what, "0.0", "-", "-",
+               "-", moment);
+        return;
+    }
+    printf("  %-22s %14.1f %10.3f %10.3f %10.3f %15.1f\n", what, force, s, z,
+           arm, moment);
+}
+
+static void format_crit(char *buf, size_t n, const sw_crit *c, int headwater)
+{
+    if (c->kind == SW_CRIT_LEVEL)
+        snprintf(buf, n, "%.3f m", c->level_m);
+    else if (c->kind == SW_CRIT_NOT_NEEDED)
+        snprintf(buf, n, "not needed (holds at any tailwater)");
+    else
+        snprintf(buf, n, headwater ? "none (fails even with the headwater "
+                                     "below the leaf)"
+                                   : "none");
+}
+
+static const char *state_words(sw_state s)
+{
+    switch (s) {
+    case SW_STATE_OK:
+        return "OK: held on its sill with the required margin";
+    case SW_STATE_LOW:
+        return "LOW: still shut, but below the required margin";
+    case SW_STATE_OPEN:
+        return "OPEN: sill contact lost; the leaf is on the verge of opening "
+               "or open";
+    }
+    return "?";
+}
+
+typedef struct crit_set {
+    sw_crit tw_alarm, tw_open, hw_alarm, hw_open;
+} crit_set;
+
+static int find_crits(const sw_gate *g, double hw, double tw, crit_set *c,
+                      sw_error *err)
+{
+    int rc;
+    if ((rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_ALARM, &c->tw_alarm,
+                                         err)) != SW_OK ||
+        (rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_OPEN, &c->tw_open,
+                                         err)) != SW_OK ||
+        (rc = sw_gate_critical_headwater(g, tw, SW_LIMIT_ALARM, &c->hw_alarm,
+                                         err)) != SW_OK ||
+        (rc = sw_gate_critical_headwater(g, tw, SW_LIMIT_OPEN, &c->hw_open,
+                                         err)) != SW_OK)
+        return rc;
+    return SW_OK;
+}
+
+static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
+                       const crit_set *c)
+{
+    const sw_gate *g = &sg->gate;
+    double z_hw = g->hinge_level_m - r->hw_cp_m * g->sin_a;
+    double z_tw = g->hinge_level_m - r->tw_cp_m * g->sin_a;
+    double cg_x = g->cg_along_m * g->cos_a + g->cg_offset_m * g->sin_a;
+    double cg_z = g->hinge_level_m - g->cg_along_m * g->sin_a +
+                  g->cg_offset_m * g->cos_a;
+    double b_s = r->buoyancy_at_m;
+    char buf[4][96];
+
+    printf("gate %s: %s opening", g->name, sw_shape_name(g->shape));
+    if (g->shape == SW_SHAPE_RECTANGLE)
+        printf(" %.3f m along the leaf x %.3f m wide", g->seal_height_m,
+               g->seal_width_m);
+    else
+        printf(" %.3f m diameter", g->diameter_m);
+    printf("\n  hinge %.3f m, inclined %.2f deg, sill %.3f m, required "
+           "factor of safety %.2f\n",
+           g->hinge_level_m, g->inclination_deg, g->sill_level_m,
+           g->required_fs);
+    printf("  headwater %.3f m, tailwater %.3f m\n\n", r->headwater_m,
+           r->tailwater_m);
+    printf("  %-22s %14s %10s %10s %10s %15s\n", "load", "force (N)",
+           "at s (m)", "elev. (m)", "arm (m)", "moment (N*m)");
+    print_load("headwater (opens)", r->hw_force_N, r->hw_cp_m, z_hw,
+               r->hw_cp_m, -r->hw_moment_Nm);
+    print_load("tailwater (holds)", r->tw_force_N, r->tw_cp_m, z_tw,
+               r->tw_cp_m, r->tw_moment_Nm);
+    print_load("weight", g->mass_kg * g->g_ms2, g->cg_along_m, cg_z, cg_x,
+               r->weight_moment_Nm);
+    print_load(r->buoyancy_side == SW_UPSTREAM ? "buoyancy (headwater)"
+                                               : "buoyancy (tailwater)",
+               r->buoyancy_force_N, b_s,
+               g->hinge_level_m - b_s * g->sin_a, r->buoyancy_arm_m,
+               -r->buoyancy_moment_Nm);
+    printf("  %-22s %14s %10s %10s %10s %15.1f\n", "extra moment", "", "", "",
+           "", r->extra_moment_Nm);
+    printf("  (moments + hold the leaf shut, - open it; water forces act "
+           "normal to the leaf,\n   so their arm is s; weight and buoyancy "
+           "act vertically, so theirs is horizontal)\n\n");
+    printf("  resisting moment Mr   %15.1f N*m\n", r->resisting_moment_Nm);
+    printf("  driving moment        %15.1f N*m (headwater)\n",
+           r->hw_moment_Nm);
+    printf("  net moment            %15.1f N*m\n", r->net_moment_Nm);
+    if (isinf(r->fs))
+        printf("  factor of safety      %15s     (required %.2f)\n",
+               r->fs > 0 ? "infinite" : "-infinite", g->required_fs);
+    else
+        printf("  factor of safety      %15.3f     (required %.2f)\n", r->fs,
+               g->required_fs);
+    printf("  sill reaction         %15.1f N   (minimum %.1f N)\n",
+           r->sill_reaction_N, g->min_sill_reaction_N);
+    printf("  state                 %s\n", state_words(r->state));
+    format_crit(buf[0], sizeof buf[0], &c->tw_alarm, 0);
+    format_crit(buf[1], sizeof buf[1], &c->tw_open, 0);
+    format_crit(buf[2], sizeof buf[2], &c->hw_alarm, 1);
+    format_crit(buf[3], sizeof buf[3], &c->hw_open, 1);
+    printf("  at this headwater, the tailwater must stay above:\n"
+           "    for the required margin (tw_alarm)  %s\n"
+           "    to keep the leaf shut (tw_open)     %s\n",
+           buf[0], buf[1]);
+    printf("  at this tailwater, the headwater must stay below:\n"
+           "    for the required margin (hw_alarm)  %s\n"
+           "    to keep the leaf shut (hw_open)     %s\n\n",
+           buf[2], buf[3]);
+}
+
+static void csv_number(double v)
+{
+    if (isinf(v))
+        fputs(v > 0 ? "inf" : "-inf", stdout);
+    else
+        printf("%.12g", v);
+}
+
+static void csv_crit(const sw_crit *c)
+{
+    if (c->kind == SW_CRIT_LEVEL)
+        printf("%.12g", c->level_m);
+}
+
+static void print_csv_row(const sw_gate *g, const sw_gate_result *r,
+                          const crit_set *c)
+{
+    const double v[] = {r->headwater_m,       r->tailwater_m,
+                        r->hw_force_N,        r->hw_moment_Nm,
+                        r->tw_force_N,        r->tw_moment_Nm,
+                        r->weight_moment_Nm,  r->buoyancy_moment_Nm,
+                        r->extra_moment_Nm,   r->net_moment_Nm,
+                        r->fs,                r->sill_reaction_N};
+    fputs(g->name, stdout);
+    for (size_t i = 0; i < sizeof v / sizeof v[0]; i++) {
+        putchar(',');
+        csv_number(v[i]);
+    }
+    printf(",%s,", sw_state_name(r->state));
+    csv_crit(&c->tw_alarm);
+    putchar(',');
+    csv_crit(&c->tw_open);
+    putchar('\n');
+}
+
+int sw_cmd_point(int argc, char **argv)
+{
+    static const struct option opts[] = {
+        {"headwater", required_argument, NULL, 'u'},
+        {"tailwater", required_argument, NULL, 'd'},
+        {"gate", required_argument, NULL, 'g'},
+        {"format", required_argument, NULL, 'f'},
+        {"help", no_argument, NULL, 'h'},
+        {NULL, 0, NULL, 0},
+    };
+    const char *gates[64];
+    size_t n_named = 0;
+    double hw = NAN, tw = NAN;
+    int csv = 0, opt, worst = SW_STATE_OK, rc;
+    sw_site site;
+    sw_error err;
+
+    opterr = 0;
+    while ((opt = getopt_long(argc, argv, ":h", opts, NULL)) != -1) {
+        switch (opt) {
+        case 'u':
+        case 'd':
+            if (sw_cli_parse_number(optarg, opt == 'u' ? &hw : &tw) != 0)
+                return sw_cli_usage_error(
+                    "point", "%s: '%s' is not a level in metres",
+                    opt == 'u' ? "--headwater" : "--tailwater", optarg);
+            break;
+        case 'g':
+            if (n_named == sizeof gates / sizeof gates[0])
+                return sw_cli_usage_error("point", "too many --gate options");
+            gates[n_named++] = optarg;
+            break;
+        case 'f':
+            if (strcmp(optarg, "csv") == 0)
+                csv = 1;
+            else if (strcmp(optarg, "text") == 0)
+                csv = 0;
+            else
+                return sw_cli_usage_error(
+                    "point", "--format: '%s' is not one of text, csv", optarg);
+            break;
+        case 'h':
+            fputs(point_help, stdout);
+            fputs(sw_cli_caution, stdout);
+            return SW_EXIT_OK;
+        case ':':
+            return sw_cli_usage_error("point", "option '%s' needs a value",
+                                      argv[optind - 1]);
+        default:
+            return sw_cli_usage_error("point", "unknown option '%s'",
+                                      argv[optind - 1]);
+        }
+    }
+    if (optind != argc - 1)
+        return sw_cli_usage_error("point", optind >= argc
+                                               ? "no site file given"
+                                               : "give one site file, not %d",
+                                  argc - optind);
+    if (isnan(hw) || isnan(tw))
+        return sw_cli_usage_error("point", "give both --headwater and "
+                                           "--tailwater");
+
+    if ((rc = sw_site_load(&site, argv[optind], &err)) != SW_OK)
+        return sw_cli_report(&err);
+    for (size_t i = 0; i < n_named; i++)
+        if (sw_site_find_gate(&site, gates[i]) == NULL) {
+            fprintf(stderr, "sillwatch: point: no gate '%s' in %s; it has:",
+                    gates[i], site.path);
+            for (size_t j = 0; j < site.n_gates; j++)
+                fprintf(stderr, " %s", site.gates[j].gate.name);
+            fputc('\n', stderr);
+            sw_site_fini(&site);
+            return SW_EXIT_USAGE;
+        }
+
+    if (csv)
+        puts("gate,headwater,tailwater,hw_force,hw_moment,tw_force,tw_moment,"
+             "weight_moment,buoyancy_moment,extra_moment,net_moment,fs,"
+             "sill_reaction,status,tw_alarm,tw_open");
+    else
+        printf("sillwatch %s hand-check: site '%s' (%s)\n"
+               "gravity %.5f m/s^2; water density upstream %.3f, downstream "
+               "%.3f kg/m^3\n\n",
+               SW_VERSION, site.name, site.path, site.g_ms2,
+               site.water[SW_UPSTREAM].rho_kgm3,
+               site.water[SW_DOWNSTREAM].rho_kgm3);
+
+    for (size_t i = 0; i < site.n_gates; i++) {
+        const sw_site_gate *sg = &site.gates[i];
+        int wanted = n_named == 0;
+        for (size_t j = 0; j < n_named; j++)
+            wanted |= strcmp(gates[j], sg->gate.name) == 0;
+        if (!wanted)
+            continue;
+        sw_gate_result r;
+        crit_set c;
+        sw_gate_evaluate(&sg->gate, hw, tw, &r);
+        if ((rc = find_crits(&sg->gate, hw, tw, &c, &err)) != SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_report(&err);
+        }
+        if ((int)r.state > worst)
+            worst = (int)r.state;
+        if (csv)
+            print_csv_row(&sg->gate, &r, &c);
+        else
+            print_text(sg, &r, &c);
+    }
+    if (!csv)
+        fputs(sw_cli_caution, stdout);
+    sw_site_fini(&site);
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+        fprintf(stderr, "sillwatch: point: could not write the output\n");
+        return SW_EXIT_OUTPUT;
+    }
+    return worst == SW_STATE_OK ? SW_EXIT_OK : SW_EXIT_BELOW;
+}

@@ -1,0 +1,134 @@
+/* sillwatch: the program.  Dispatches to the command files (cmd_*.c) and
+ * owns the exit codes and the shape of every message. */
+#define _DEFAULT_SOURCE /* getopt_long */
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <gsl/gsl_errno.h>
+
+#include "cli.h"
+
+const char sw_cli_caution[] =
+    "Caution: hydrostatic screening only (no waves, surges, debris, ice or\n"
+    "friction); not a structural assessment. Defer to local codes and a\n"
+    "licensed engineer before acting on these results.\n";
+
+static const char usage_text[] =
+    "Usage: sillwatch COMMAND [OPTION]...\n"
+    "Hydrostatic screening of hinged flap gates held on their sills against\n"
+    "a headwater by their weight and the tailwater.\n"
+    "\n"
+    "Commands:\n"
+    "  check SITE.ini     validate a site file and show every gate's\n"
+    "                     parameters and derived values\n"
+    "  point SITE.ini     hand-check the gates at one headwater and tailwater\n"
+    "\n"
+    "Run 'sillwatch COMMAND --help' for a command's options.\n"
+    "\n"
+    "Options:\n"
+    "  -h, --help         show this help and exit\n"
+    "  -V, --version      show the version and exit\n"
+    "\n"
+    "Exit status:\n"
+    "  0  ran; every gate held its required margin\n"
+    "  1  ran; some gate was below its margin (low) or open\n"
+    "  2  the command line is wrong\n"
+    "  3  the site file is unreadable or invalid\n"
+    "  4  a level file is unreadable or invalid\n"
+    "  5  an output could not be written\n"
+    "  6  a numerical method failed (please report it)\n"
+    "  7  out of memory\n"
+    "  8  internal error (please report it)\n"
+    "\n";
+
+int sw_cli_exit_code(int status)
+{
+    switch (status) {
+    case SW_OK: return SW_EXIT_OK;
+    case SW_EUSAGE: return SW_EXIT_USAGE;
+    case SW_ESITE: return SW_EXIT_SITE;
+    case SW_EDATA: return SW_EXIT_DATA;
+    case SW_EOUTPUT: return SW_EXIT_OUTPUT;
+    case SW_ENUMERIC: return SW_EXIT_NUMERIC;
+    case SW_ENOMEM: return SW_EXIT_NOMEM;
+    default: return SW_EXIT_INTERNAL;
+    }
+}
+
+int sw_cli_report(const sw_error *err)
+{
+    fputs("sillwatch: ", stderr);
+    if (err->file[0] != '\0') {
+        fputs(err->file, stderr);
+        if (err->line > 0)
+            fprintf(stderr, ":%ld", err->line);
+        if (err->line > 0 && err->column > 0)
+            fprintf(stderr, ":%ld", err->column);
+        fputs(": ", stderr);
+    }
+    fprintf(stderr, "%s\n", err->message);
+    return sw_cli_exit_code(err->code);
+}
+
+int sw_cli_usage_error(const char *command, const char *fmt, ...)
+{
+    va_list ap;
+    fprintf(stderr, "sillwatch: %s%s", command ? command : "",
+            command ? ": " : "");
+    va_start(ap, fmt);
+    vfprintf(stderr, fmt, ap);
+    va_end(ap);
+    fprintf(stderr, "\nTry 'sillwatch %s%s--help'.\n", command ? command : "",
+            command ? " " : "");
+    return SW_EXIT_USAGE;
+}
+
+int sw_cli_parse_number(const char *text, double *value)
+{
+    char *end;
+    double v;
+
+    errno = 0;
+    v = strtod(text, &end);
+    if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
+        return -1;
+    *value = v;
+    return 0;
+}
+
+int main(int argc, char **argv)
+{
+    static const struct {
+        const char *name;
+        int (*run)(int, char **);
+    } commands[] = {
+        {"check", sw_cmd_check},
+        {"point", sw_cmd_point},
+    };
+
+    /* Failures are reported through status codes, never by abort(). */
+    gsl_set_error_handler_off();
+
+    if (argc < 2) {
+        fputs(usage_text, stderr);
+        fputs(sw_cli_caution, stderr);
+        return SW_EXIT_USAGE;
+    }
+    if (strcmp(argv[1], "-h") == 0 || strcmp(argv[1], "--help") == 0) {
+        fputs(usage_text, stdout);
+        fputs(sw_cli_caution, stdout);
+        return SW_EXIT_OK;
+    }
+    if (strcmp(argv[1], "-V") == 0 || strcmp(argv[1], "--version") == 0) {
+        printf("sillwatch %s\n", SW_VERSION);
+        return SW_EXIT_OK;
+    }
+    for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
+        if (strcmp(argv[1], commands[i].name) == 0)
+            return commands[i].run(argc - 1, argv + 1);
+    return sw_cli_usage_error(NULL, "unknown command '%s'", argv[1]);
+}

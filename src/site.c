@@ -1,0 +1,1209 @@
+/* sillwatch: the site file (see include/sillwatch/site.h).
+ *
+ * The file is read in four passes over what libinih hands us:
+ *
+ *   1. Lines.  libinih splits lines into sections, keys and values; our own
+ *      reader function feeds it one physical line at a time, so that the
+ *      line number and the raw text of every line are known when the handler
+ *      runs.  Each value is checked on its own here (known key, given once,
+ *      not empty, a finite number in range ...), and the first problem stops
+ *      the parse.
+ *   2. Sections, in file order: keys that exclude or need each other, keys
+ *      that do not fit the gate's shape, and missing keys.
+ *   3. Site-wide values: gravity and the two water densities.
+ *   4. Gates, in file order: filled in, checked by sw_gate_validate() and
+ *      prepared.
+ *
+ * Sections and their keys are described by the tables below; a new section
+ * is a new table and a new case in passes 2 to 4.
+ */
+#include "sillwatch/site.h"
+
+#include <ctype.h>
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/types.h>
+
+#include <ini.h>
+
+#include "sillwatch/gravity.h"
+#include "sillwatch/water.h"
+
+/* ---- the tables --------------------------------------------------------- */
+
+/* What a value must look like. */
+typedef enum key_kind {
+    KIND_NUMBER, /* a finite decimal number, SI unit `unit` */
+    KIND_TEXT,   /* free text, up to SW_SITE_NAME_MAX * 2 - 1 bytes */
+    KIND_NAME,   /* a name as for [gate NAME]: letters, digits, _ - . */
+    KIND_SHAPE   /* rectangle | circle */
+} key_kind;
+
+/* When a key must, may or must not be given. */
+typedef enum key_need {
+    NEED_OPTIONAL,
+    NEED_REQUIRED,
+    NEED_RECTANGLE, /* required for shape = rectangle, refused for circle */
+    NEED_CIRCLE     /* required for shape = circle, refused for rectangle */
+} key_need;
+
+typedef struct key_def {
+    const char *name;
+    key_kind kind;
+    key_need need;
+    const char *unit;     /* for messages; "" when dimensionless */
+    double min, max;      /* accepted range, checked on reading; NAN where
+                             another module (sw_gate_validate) checks it */
+    const char *excludes; /* a key that may not be given with this one */
+    const char *needs;    /* a key that must be given with this one */
+    const char *hint;     /* the fix for an out-of-range value */
+} key_def;
+
+#define NO_RANGE NAN, NAN
+
+typedef enum section_kind { SEC_SITE, SEC_WATER, SEC_GATE } section_kind;
+
+typedef struct section_def {
+    section_kind kind;
+    const char *word;    /* first word of the header */
+    const char *arg;     /* the rest: "" none, NULL a NAME of the user's */
+    int side;            /* for SEC_WATER: an sw_side */
+    const key_def *keys;
+    size_t n_keys;
+    const char *one_of[2]; /* at least one of these keys; NULLs if none */
+    const char *home;    /* where its keys belong, for messages */
+} section_def;
+
+enum site_key {
+    SK_NAME, SK_GRAVITY, SK_LATITUDE, SK_ELEVATION, SK_REQUIRED_FS,
+    SK_MIN_SILL_REACTION, SK_COUNT
+};
+
+static const key_def site_keys[SK_COUNT] = {
+    [SK_NAME] = {"name", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL, NULL,
+                 NULL},
+    [SK_GRAVITY] = {"gravity", KIND_NUMBER, NEED_OPTIONAL, "m/s^2", 9.7, 9.9,
+                    "latitude", NULL,
+                    "give it in m/s^2, or give latitude (and elevation) "
+                    "instead"},
+    [SK_LATITUDE] = {"latitude", KIND_NUMBER, NEED_OPTIONAL, "degrees",
+                     -90.0, 90.0, "gravity", NULL,
+                     "give the geodetic latitude in degrees, south "
+                     "negative"},
+    [SK_ELEVATION] = {"elevation", KIND_NUMBER, NEED_OPTIONAL, "m", -1000.0,
+                      10000.0, NULL, "latitude",
+                      "give the site's elevation in m"},
+    [SK_REQUIRED_FS] = {"required_fs", KIND_NUMBER, NEED_OPTIONAL, "", 1.0,
+                        INFINITY, NULL, NULL,
+                        "a factor of safety is at least 1"},
+    [SK_MIN_SILL_REACTION] = {"min_sill_reaction", KIND_NUMBER,
+                              NEED_OPTIONAL, "N", 0.0, INFINITY, NULL, NULL,
+                              "give the least sill reaction accepted, in N"},
+};
+
+enum water_key { WK_DENSITY, WK_TEMPERATURE, WK_SALINITY, WK_COUNT };
+
+static const key_def water_keys[WK_COUNT] = {
+    [WK_DENSITY] = {"density", KIND_NUMBER, NEED_OPTIONAL, "kg/m^3",
+                    SW_WATER_RHO_MIN_KGM3, SW_WATER_RHO_MAX_KGM3,
+                    "temperature", NULL,
+                    "give it in kg/m^3 (fresh water is about 1000)"},
+    [WK_TEMPERATURE] = {"temperature", KIND_NUMBER, NEED_OPTIONAL,
+                        "degrees C", SW_WATER_T_MIN_C, SW_WATER_T_MAX_C,
+                        "density", NULL,
+                        "the equation of state holds only there; give "
+                        "density instead"},
+    [WK_SALINITY] = {"salinity", KIND_NUMBER, NEED_OPTIONAL, "",
+                     SW_WATER_S_MIN, SW_WATER_S_MAX, NULL, "temperature",
+                     "give practical salinity (sea water is about 35)"},
+};
+
+enum gate_key {
+    GK_SHAPE, GK_HINGE_LEVEL, GK_INCLINATION, GK_SEAL_TOP, GK_SEAL_HEIGHT,
+    GK_SEAL_WIDTH, GK_DIAMETER, GK_LEAF_LENGTH, GK_MASS, GK_CG_ALONG,
+    GK_CG_OFFSET, GK_VOLUME, GK_EXTRA_MOMENT, GK_REQUIRED_FS,
+    GK_MIN_SILL_REACTION, GK_HEADWATER, GK_TAILWATER, GK_COUNT
+};
+
+/* Ranges of gate keys are left to sw_gate_validate(), which knows how the
+ * values bear on each other (the seal within the leaf, ...). */
+static const key_def gate_keys[GK_COUNT] = {
+    [GK_SHAPE] = {"shape", KIND_SHAPE, NEED_REQUIRED, "", NO_RANGE, NULL,
+                  NULL, NULL},
+    [GK_HINGE_LEVEL] = {"hinge_level", KIND_NUMBER, NEED_REQUIRED, "m",
+                        NO_RANGE, NULL, NULL, NULL},
+    [GK_INCLINATION] = {"inclination", KIND_NUMBER, NEED_REQUIRED, "degrees",
+                        NO_RANGE, NULL, NULL, NULL},
+    [GK_SEAL_TOP] = {"seal_top", KIND_NUMBER, NEED_REQUIRED, "m", NO_RANGE,
+                     NULL, NULL, NULL},
+    [GK_SEAL_HEIGHT] = {"seal_height", KIND_NUMBER, NEED_RECTANGLE, "m",
+                        NO_RANGE, NULL, NULL, NULL},
+    [GK_SEAL_WIDTH] = {"seal_width", KIND_NUMBER, NEED_RECTANGLE, "m",
+                       NO_RANGE, NULL, NULL, NULL},
+    [GK_DIAMETER] = {"diameter", KIND_NUMBER, NEED_CIRCLE, "m", NO_RANGE,
+                     NULL, NULL, NULL},
+    [GK_LEAF_LENGTH] = {"leaf_length", KIND_NUMBER, NEED_OPTIONAL, "m",
+                        NO_RANGE, NULL, NULL, NULL},
+    [GK_MASS] = {"mass", KIND_NUMBER, NEED_REQUIRED, "kg", NO_RANGE, NULL,
+                 NULL, NULL},
+    [GK_CG_ALONG] = {"cg_along", KIND_NUMBER, NEED_REQUIRED, "m", NO_RANGE,
+                     NULL, NULL, NULL},
+    [GK_CG_OFFSET] = {"cg_offset", KIND_NUMBER, NEED_OPTIONAL, "m", NO_RANGE,
+                      NULL, NULL, NULL},
+    [GK_VOLUME] = {"volume", KIND_NUMBER, NEED_OPTIONAL, "m^3", NO_RANGE,
+                   NULL, NULL, NULL},
+    [GK_EXTRA_MOMENT] = {"extra_moment", KIND_NUMBER, NEED_OPTIONAL, "N*m",
+                         NO_RANGE, NULL, NULL, NULL},
+    [GK_REQUIRED_FS] = {"required_fs", KIND_NUMBER, NEED_OPTIONAL, "",
+                        NO_RANGE, NULL, NULL, NULL},
+    [GK_MIN_SILL_REACTION] = {"min_sill_reaction", KIND_NUMBER,
+                              NEED_OPTIONAL, "N", NO_RANGE, NULL, NULL,
+                              NULL},
+    [GK_HEADWATER] = {"headwater", KIND_NAME, NEED_OPTIONAL, "", NO_RANGE,
+                      NULL, NULL, NULL},
+    [GK_TAILWATER] = {"tailwater", KIND_NAME, NEED_OPTIONAL, "", NO_RANGE,
+                      NULL, NULL, NULL},
+};
+
+#define N_SECTION_DEFS 4
+
+static const section_def section_defs[N_SECTION_DEFS] = {
+    {SEC_SITE, "site", "", 0, site_keys, SK_COUNT, {NULL, NULL}, "[site]"},
+    {SEC_WATER, "water", "upstream", SW_UPSTREAM, water_keys, WK_COUNT,
+     {"density", "temperature"}, "[water upstream] and [water downstream]"},
+    {SEC_WATER, "water", "downstream", SW_DOWNSTREAM, water_keys, WK_COUNT,
+     {"density", "temperature"}, "[water upstream] and [water downstream]"},
+    {SEC_GATE, "gate", NULL, 0, gate_keys, GK_COUNT, {NULL, NULL},
+     "[gate NAME]"},
+};
+
+/* The most keys any section has; the slot arrays are this long. */
+#define MAX_KEYS 24
+_Static_assert(SK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
+_Static_assert(WK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
+_Static_assert(GK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
+
+/* Longest name (gate, series) and longest free text, with their NUL. */
+#define NAME_SIZE SW_SITE_NAME_MAX
+#define TEXT_SIZE (SW_SITE_NAME_MAX * 2)
+_Static_assert(sizeof(((sw_gate *)0)->name) >= NAME_SIZE, "gate name size");
+_Static_assert(NAME_SIZE == 64, "messages and formats say 63 characters");
+_Static_assert(sizeof(((sw_site *)0)->name) >= TEXT_SIZE, "site name size");
+
+/* ---- what the parse keeps ------------------------------------------------ */
+
+/* One key as found in one section. */
+typedef struct slot {
+    int given;
+    long line, key_col, val_col;
+    double num;                 /* KIND_NUMBER */
+    sw_shape shape;             /* KIND_SHAPE */
+    char text[TEXT_SIZE];       /* KIND_TEXT, KIND_NAME */
+} slot;
+
+/* One section header and the keys below it. */
+typedef struct section {
+    const section_def *def;
+    long line, col;             /* of its '[' */
+    char arg[NAME_SIZE];        /* the NAME of [gate NAME] */
+    slot slots[MAX_KEYS];
+} section;
+
+typedef struct parser {
+    const char *path;
+    FILE *fp;
+    sw_error *err;
+    int status;                 /* SW_OK until the first problem */
+
+    char *raw;                  /* the current physical line (getline) */
+    size_t raw_cap;
+    long lineno;
+    long col0;                  /* bytes of indentation stripped */
+    const char *buf;            /* the buffer handed to libinih */
+    int key_line;               /* the current line is a key = value line */
+    int handler_called;         /* ... and the handler has seen it */
+
+    section *secs;              /* every section, in file order */
+    size_t n_secs, cap_secs;
+    int have_cur;               /* a section header has been read */
+} parser;
+
+/* ---- small helpers ------------------------------------------------------ */
+
+static int is_name_char(int c)
+{
+    return isalnum(c) || c == '_' || c == '-' || c == '.';
+}
+
+/* Why `s` is not a valid name (for [gate NAME] and series names), or NULL
+ * if it is one. */
+static const char *name_problem(const char *s)
+{
+    size_t n = strlen(s);
+
+    if (n == 0)
+        return "is empty";
+    if (n >= NAME_SIZE)
+        return "is longer than 63 characters";
+    for (size_t i = 0; i < n; i++)
+        if (!is_name_char((unsigned char)s[i]))
+            return "may hold only letters, digits, '_', '-' and '.'";
+    return NULL;
+}
+
+/* Optimal-string-alignment distance between `a` and `b`, ignoring case:
+ * insertions, deletions, substitutions and swaps of neighbours count one
+ * each.  Returns SIZE_MAX for strings too long to be a near miss. */
+static size_t edit_distance(const char *a, const char *b)
+{
+    enum { N = 80 };
+    size_t rows[3][N + 1]; /* rows i % 3 of the usual table: i, i-1, i-2 */
+    size_t la = strlen(a), lb = strlen(b);
+
+    if (la > N || lb > N)
+        return SIZE_MAX;
+    for (size_t j = 0; j <= lb; j++)
+        rows[0][j] = j;
+    for (size_t i = 1; i <= la; i++) {
+        size_t *cur = rows[i % 3];
+        const size_t *up = rows[(i + 2) % 3];
+        const size_t *two = rows[(i + 1) % 3];
+        cur[0] = i;
+        for (size_t j = 1; j <= lb; j++) {
+            int ca = tolower((unsigned char)a[i - 1]);
+            int cb = tolower((unsigned char)b[j - 1]);
+            size_t best = up[j - 1] + (ca != cb);
+            if (up[j] + 1 < best)
+                best = up[j] + 1;
+            if (cur[j - 1] + 1 < best)
+                best = cur[j - 1] + 1;
+            if (i > 1 && j > 1 &&
+                ca == tolower((unsigned char)b[j - 2]) &&
+                tolower((unsigned char)a[i - 2]) == cb &&
+                two[j - 2] + 1 < best)
+                best = two[j - 2] + 1;
+            cur[j] = best;
+        }
+    }
+    return rows[la % 3][lb];
+}
+
+/* A near miss is at most this many edits away. */
+#define NEAR_MISS 2
+
+static int key_index(const section_def *def, const char *name)
+{
+    for (size_t k = 0; k < def->n_keys; k++)
+        if (strcmp(def->keys[k].name, name) == 0)
+            return (int)k;
+    return -1;
+}
+
+/* "[site]", "[water upstream]" or "gate 'G1'": how messages name a
+ * section. */
+static const char *section_label(const section *s, char *out, size_t size)
+{
+    if (s->def->arg == NULL)
+        snprintf(out, size, "%s '%s'", s->def->word, s->arg);
+    else if (s->def->arg[0] != '\0')
+        snprintf(out, size, "[%s %s]", s->def->word, s->def->arg);
+    else
+        snprintf(out, size, "[%s]", s->def->word);
+    return out;
+}
+
+/* The header as the user should write it: "[gate G1]", "[site]". */
+static const char *section_header(const section *s, char *out, size_t size)
+{
+    const char *arg = s->def->arg == NULL ? s->arg : s->def->arg;
+
+    snprintf(out, size, arg[0] != '\0' ? "[%s %s]" : "[%s]", s->def->word,
+             arg);
+    return out;
+}
+
+/* " (in kg)" or "" for a dimensionless key, for messages. */
+static const char *unit_phrase(const key_def *key, char *out, size_t size)
+{
+    if (key->unit[0] == '\0')
+        out[0] = '\0';
+    else
+        snprintf(out, size, " (in %s)", key->unit);
+    return out;
+}
+
+/* ---- pass 1: lines ------------------------------------------------------ */
+
+static int fail(parser *p, long line, long col, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 4, 5)))
+#endif
+    ;
+
+/* Record the first problem of the parse; later ones are ignored, since the
+ * reader stops at the first. */
+static int fail(parser *p, long line, long col, const char *fmt, ...)
+{
+    char msg[SW_ERROR_MSG_MAX];
+    va_list ap;
+
+    if (p->status != SW_OK)
+        return p->status;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    p->status = sw_error_set(p->err, SW_ESITE, p->path, line, col, "%s", msg);
+    return p->status;
+}
+
+/* The 1-based column in the physical line of a pointer into the buffer
+ * that was handed to libinih. */
+static long column_of(const parser *p, const char *at)
+{
+    return p->col0 + (long)(at - p->buf) + 1;
+}
+
+/* Read the header "[...]" at `text` (which starts with '[', indentation
+ * and line end stripped) and open its section, or record why not. */
+static void read_header(parser *p, const char *text)
+{
+    char inner[256], word[64], arg[192];
+    const char *close = strchr(text, ']');
+    const char *after, *q;
+    const section_def *def = NULL;
+    const section_def *word_match = NULL;
+    long col = p->col0 + 1;
+    size_t n, wn;
+
+    if (close == NULL) {
+        fail(p, p->lineno, col,
+             "section header '%.60s' has no closing ']'", text);
+        return;
+    }
+    for (after = close + 1; isspace((unsigned char)*after); after++)
+        ;
+    if (*after != '\0' && *after != ';' && *after != '#') {
+        fail(p, p->lineno, p->col0 + (long)(after - text) + 1,
+             "text '%.60s' after the section header: remove it, or start "
+             "a comment with ';'", after);
+        return;
+    }
+
+    /* Split "[ word  rest ]" into word and trimmed rest. */
+    n = (size_t)(close - text - 1);
+    if (n >= sizeof inner)
+        n = sizeof inner - 1;
+    memcpy(inner, text + 1, n);
+    inner[n] = '\0';
+    for (q = inner; isspace((unsigned char)*q); q++)
+        ;
+    for (wn = 0; q[wn] != '\0' && !isspace((unsigned char)q[wn]); wn++)
+        ;
+    snprintf(word, sizeof word, "%.*s", (int)(wn < 63 ? wn : 63), q);
+    for (q += wn; isspace((unsigned char)*q); q++)
+        ;
+    n = strlen(q);
+    if (n >= sizeof arg)
+        n = sizeof arg - 1;
+    memcpy(arg, q, n);
+    arg[n] = '\0';
+    for (n = strlen(arg); n > 0 && isspace((unsigned char)arg[n - 1]); n--)
+        arg[n - 1] = '\0';
+
+    if (word[0] == '\0') {
+        fail(p, p->lineno, col,
+             "empty section header: write [site], [water upstream], "
+             "[water downstream] or [gate NAME]");
+        return;
+    }
+    for (size_t i = 0; i < N_SECTION_DEFS && def == NULL; i++) {
+        const section_def *d = &section_defs[i];
+        if (strcmp(d->word, word) != 0)
+            continue;
+        word_match = d;
+        if (d->arg == NULL ? arg[0] != '\0' : strcmp(d->arg, arg) == 0)
+            def = d;
+    }
+
+    if (def == NULL && word_match != NULL && word_match->arg == NULL) {
+        fail(p, p->lineno, col,
+             "section [%s] needs a name, as in [%s G1]", word, word);
+        return;
+    }
+    if (def == NULL) {
+        /* Unknown: look for a near miss of the whole header, or of the
+         * first word of a named section. */
+        char full[256], best[256] = "";
+        size_t best_d = NEAR_MISS + 1;
+        snprintf(full, sizeof full, arg[0] != '\0' ? "%s %s" : "%s", word,
+                 arg);
+        for (size_t i = 0; i < N_SECTION_DEFS; i++) {
+            const section_def *d = &section_defs[i];
+            char cand[256];
+            size_t dist;
+            if (d->arg == NULL) {
+                if (arg[0] == '\0')
+                    continue;
+                dist = edit_distance(word, d->word);
+                snprintf(cand, sizeof cand, "%s %s", d->word, arg);
+            } else {
+                snprintf(cand, sizeof cand,
+                         d->arg[0] != '\0' ? "%s %s" : "%s", d->word,
+                         d->arg);
+                dist = edit_distance(full, cand);
+            }
+            if (dist < best_d) {
+                best_d = dist;
+                snprintf(best, sizeof best, "%s", cand);
+            }
+        }
+        if (best[0] != '\0')
+            fail(p, p->lineno, col,
+                 "unknown section [%.80s]: did you mean '[%.80s]'?", full,
+                 best);
+        else
+            fail(p, p->lineno, col,
+                 "unknown section [%.80s]: the sections are [site], "
+                 "[water upstream], [water downstream] and [gate NAME]",
+                 full);
+        return;
+    }
+    if (def->arg == NULL) {
+        const char *why = name_problem(arg);
+        if (why != NULL) {
+            fail(p, p->lineno, col, "%s name '%.80s' %s", def->word, arg,
+                 why);
+            return;
+        }
+    }
+
+    /* A section may appear once; a named one once per name. */
+    for (size_t i = 0; i < p->n_secs; i++) {
+        const section *s = &p->secs[i];
+        char hdr[96];
+        if (s->def != def || (def->arg == NULL && strcmp(s->arg, arg) != 0))
+            continue;
+        if (def->arg == NULL)
+            fail(p, p->lineno, col,
+                 "%s '%s' is defined twice, on lines %ld and %ld: give "
+                 "each %s its own name",
+                 def->word, arg, s->line, p->lineno, def->word);
+        else
+            fail(p, p->lineno, col,
+                 "section %s appears twice, on lines %ld and %ld: merge "
+                 "them into one",
+                 section_header(s, hdr, sizeof hdr), s->line, p->lineno);
+        return;
+    }
+
+    if (p->n_secs == p->cap_secs) {
+        size_t cap = p->cap_secs != 0 ? 2 * p->cap_secs : 8;
+        section *grown = realloc(p->secs, cap * sizeof *grown);
+        if (grown == NULL) {
+            p->status = sw_error_set(p->err, SW_ENOMEM, p->path, p->lineno,
+                                     col, "out of memory reading the site "
+                                     "file");
+            return;
+        }
+        p->secs = grown;
+        p->cap_secs = cap;
+    }
+    section *s = &p->secs[p->n_secs++];
+    memset(s, 0, sizeof *s);
+    s->def = def;
+    s->line = p->lineno;
+    s->col = col;
+    if (def->arg == NULL)
+        snprintf(s->arg, sizeof s->arg, "%.63s", arg);
+    p->have_cur = 1;
+}
+
+/* libinih's reader: hand it the next physical line, without its
+ * indentation (an indented line would otherwise continue the previous
+ * value) and with a single '\n'.  Sections are opened here, since libinih
+ * says nothing of a section without keys.  Returns NULL at the end of the
+ * file and after the first problem, which stops the parse. */
+static char *site_reader(char *str, int num, void *stream)
+{
+    parser *p = stream;
+    ssize_t got;
+    size_t len, limit;
+    char *text;
+
+    if (p->status != SW_OK)
+        return NULL;
+    if (p->key_line && !p->handler_called) {
+        fail(p, p->lineno, p->col0 + 1,
+             "line is not 'key = value', a [section] header or a comment: "
+             "put '=' between the key and its value");
+        return NULL;
+    }
+    p->key_line = 0;
+    p->handler_called = 0;
+
+    errno = 0;
+    got = getline(&p->raw, &p->raw_cap, p->fp);
+    if (got < 0) {
+        if (ferror(p->fp))
+            fail(p, p->lineno + 1, 0, "cannot read the site file: %s",
+                 strerror(errno != 0 ? errno : EIO));
+        return NULL;
+    }
+    p->lineno++;
+    len = (size_t)got;
+    if (memchr(p->raw, '\0', len) != NULL) {
+        fail(p, p->lineno, 0, "line holds a NUL byte: is this a text file?");
+        return NULL;
+    }
+    while (len > 0 && isspace((unsigned char)p->raw[len - 1]))
+        p->raw[--len] = '\0';
+
+    text = p->raw;
+    /* A UTF-8 byte-order mark is not part of the first line's text, and
+     * not counted in its columns. */
+    if (p->lineno == 1 && len >= 3 && memcmp(text, "\xEF\xBB\xBF", 3) == 0) {
+        text += 3;
+        len -= 3;
+    }
+    p->col0 = 0;
+    while (isspace((unsigned char)*text)) {
+        text++;
+        len--;
+        p->col0++;
+    }
+
+    /* libinih needs room for the line, its '\n' and a NUL; a line that
+     * does not fit would be split by it into two. */
+    limit = num > 2 ? (size_t)num - 2 : 0;
+    if (len > limit) {
+        fail(p, p->lineno, p->col0 + (long)limit + 1,
+             "line is longer than %zu characters (not counting its "
+             "indentation): shorten it",
+             limit);
+        return NULL;
+    }
+
+    if (text[0] == '[') {
+        read_header(p, text);
+        if (p->status != SW_OK)
+            return NULL;
+    } else if (text[0] != '\0' && text[0] != ';' && text[0] != '#') {
+        p->key_line = 1;
+    }
+
+    memcpy(str, text, len);
+    str[len] = '\n';
+    str[len + 1] = '\0';
+    p->buf = str;
+    return str;
+}
+
+/* Read `value` as a number for `key`; record a problem and return nonzero
+ * if it is not one or lies outside the key's range. */
+static int read_number(parser *p, const char *where, const key_def *key,
+                       const char *value, long col, double *out)
+{
+    char units[48];
+    char *end;
+    double v;
+
+    errno = 0;
+    v = strtod(value, &end);
+    if (end == value || *end != '\0') {
+        if (strchr(value, ',') != NULL)
+            return fail(p, p->lineno, col,
+                        "%s: key '%s': '%.60s' is not a number: write the "
+                        "decimal point as '.', not ','",
+                        where, key->name, value);
+        return fail(p, p->lineno, col,
+                    "%s: key '%s': '%.60s' is not a number: write a decimal "
+                    "number%s",
+                    where, key->name, value,
+                    unit_phrase(key, units, sizeof units));
+    }
+    if (!isfinite(v))
+        return fail(p, p->lineno, col,
+                    "%s: key '%s': '%.60s' is not a finite number: write a "
+                    "decimal number%s",
+                    where, key->name, value,
+                    unit_phrase(key, units, sizeof units));
+    if (!isnan(key->min) && (v < key->min || v > key->max)) {
+        if (isinf(key->max))
+            return fail(p, p->lineno, col,
+                        "%s: key '%s': %.60s is below %g%s%s: %s", where,
+                        key->name, value, key->min,
+                        key->unit[0] != '\0' ? " " : "", key->unit,
+                        key->hint);
+        return fail(p, p->lineno, col,
+                    "%s: key '%s': %.60s is outside %g to %g%s%s: %s", where,
+                    key->name, value, key->min, key->max,
+                    key->unit[0] != '\0' ? " " : "", key->unit, key->hint);
+    }
+    *out = v;
+    return SW_OK;
+}
+
+/* Explain an unknown key: a key of another section, a near miss, or the
+ * list of keys the section has. */
+static void unknown_key(parser *p, const section *s, const char *where,
+                        const char *name, long col)
+{
+    const key_def *best = NULL;
+    size_t best_d = NEAR_MISS + 1;
+    char list[400];
+    size_t used = 0;
+
+    if (name[0] == '\0') {
+        fail(p, p->lineno, col, "%s: line has no key before its '='",
+             where);
+        return;
+    }
+    for (size_t i = 0; i < N_SECTION_DEFS; i++) {
+        const section_def *d = &section_defs[i];
+        if (d == s->def || key_index(d, name) < 0)
+            continue;
+        fail(p, p->lineno, col,
+             "%s: unknown key '%.60s': '%s' belongs in %s", where, name,
+             name, d->home);
+        return;
+    }
+    for (size_t k = 0; k < s->def->n_keys; k++) {
+        size_t dist = edit_distance(name, s->def->keys[k].name);
+        if (dist < best_d) {
+            best_d = dist;
+            best = &s->def->keys[k];
+        }
+    }
+    if (best != NULL) {
+        fail(p, p->lineno, col, "%s: unknown key '%.60s': did you mean '%s'?",
+             where, name, best->name);
+        return;
+    }
+    list[0] = '\0';
+    for (size_t k = 0; k < s->def->n_keys && used < sizeof list; k++) {
+        int w = snprintf(list + used, sizeof list - used, "%s%s",
+                         k == 0 ? "" : ", ", s->def->keys[k].name);
+        if (w < 0)
+            break;
+        used += (size_t)w;
+    }
+    fail(p, p->lineno, col, "%s: unknown key '%.60s': the keys of %s are %s",
+         where, name, s->def->arg == NULL ? "[gate NAME]" : s->def->home,
+         list);
+}
+
+/* libinih's handler: one key = value line of the current section.  The
+ * section name libinih passes is ignored (it cuts long names short); the
+ * reader has opened the section already.  Returns 0 on a problem. */
+static int site_handler(void *user, const char *ini_section, const char *name,
+                        const char *value)
+{
+    parser *p = user;
+    section *s;
+    const key_def *key;
+    slot *sl;
+    char where[96], units[48];
+    long key_col, val_col;
+    int k;
+
+    (void)ini_section;
+    p->handler_called = 1;
+    if (p->status != SW_OK)
+        return 0;
+    key_col = column_of(p, name);
+    val_col = column_of(p, value);
+    if (!p->have_cur) {
+        fail(p, p->lineno, key_col,
+             "key '%.60s' stands before any section: put it below [site], "
+             "[water upstream], [water downstream] or [gate NAME]",
+             name);
+        return 0;
+    }
+    s = &p->secs[p->n_secs - 1];
+    section_label(s, where, sizeof where);
+
+    k = key_index(s->def, name);
+    if (k < 0) {
+        unknown_key(p, s, where, name, key_col);
+        return 0;
+    }
+    key = &s->def->keys[k];
+    sl = &s->slots[k];
+    if (sl->given) {
+        fail(p, p->lineno, key_col,
+             "%s: key '%s' is given twice, on lines %ld and %ld: keep one",
+             where, key->name, sl->line, p->lineno);
+        return 0;
+    }
+    if (value[0] == '\0') {
+        fail(p, p->lineno, key_col,
+             "%s: key '%s' has no value: write '%s = ...'%s or remove the "
+             "line",
+             where, key->name, key->name,
+             unit_phrase(key, units, sizeof units));
+        return 0;
+    }
+
+    switch (key->kind) {
+    case KIND_NUMBER:
+        if (read_number(p, where, key, value, val_col, &sl->num) != SW_OK)
+            return 0;
+        break;
+    case KIND_TEXT:
+        if (strlen(value) >= sizeof sl->text) {
+            fail(p, p->lineno, val_col,
+                 "%s: key '%s' is longer than %zu characters: shorten it",
+                 where, key->name, sizeof sl->text - 1);
+            return 0;
+        }
+        snprintf(sl->text, sizeof sl->text, "%s", value);
+        break;
+    case KIND_NAME: {
+        const char *why = name_problem(value);
+        if (why != NULL) {
+            fail(p, p->lineno, val_col, "%s: key '%s': name '%.80s' %s",
+                 where, key->name, value, why);
+            return 0;
+        }
+        snprintf(sl->text, sizeof sl->text, "%s", value);
+        break;
+    }
+    case KIND_SHAPE:
+        if (strcmp(value, "rectangle") == 0) {
+            sl->shape = SW_SHAPE_RECTANGLE;
+        } else if (strcmp(value, "circle") == 0) {
+            sl->shape = SW_SHAPE_CIRCLE;
+        } else {
+            fail(p, p->lineno, val_col,
+                 "%s: key 'shape': '%.60s' is not a shape: write rectangle "
+                 "or circle",
+                 where, value);
+            return 0;
+        }
+        break;
+    }
+    sl->given = 1;
+    sl->line = p->lineno;
+    sl->key_col = key_col;
+    sl->val_col = val_col;
+    return 1;
+}
+
+/* ---- pass 2: sections --------------------------------------------------- */
+
+/* Why a key that was given should not have been. */
+typedef enum conflict {
+    CONFLICT_NONE,
+    CONFLICT_SHAPE,    /* it does not fit the gate's shape */
+    CONFLICT_EXCLUDES, /* another key excludes it */
+    CONFLICT_NEEDS     /* it needs a key that is missing */
+} conflict;
+
+/* Check one section's keys against each other and for completeness:
+ * first the keys that should not be there (earliest line first), then the
+ * missing ones (in table order). */
+static int check_section(parser *p, const section *s, const sw_site *site)
+{
+    const section_def *def = s->def;
+    char where[96], hdr[96], units[48], units2[48];
+    const slot *shape = NULL;
+    const key_def *worst = NULL;
+    const slot *worst_slot = NULL;
+    conflict why = CONFLICT_NONE;
+    const key_def *other = NULL;
+
+    section_label(s, where, sizeof where);
+    section_header(s, hdr, sizeof hdr);
+    if (def->kind == SEC_GATE && s->slots[GK_SHAPE].given)
+        shape = &s->slots[GK_SHAPE];
+
+    for (size_t k = 0; k < def->n_keys; k++) {
+        const key_def *key = &def->keys[k];
+        const slot *sl = &s->slots[k];
+        conflict this_why = CONFLICT_NONE;
+        const key_def *this_other = NULL;
+        if (!sl->given)
+            continue;
+        if (shape != NULL &&
+            ((key->need == NEED_RECTANGLE &&
+              shape->shape != SW_SHAPE_RECTANGLE) ||
+             (key->need == NEED_CIRCLE && shape->shape != SW_SHAPE_CIRCLE))) {
+            this_why = CONFLICT_SHAPE;
+        } else if (key->excludes != NULL) {
+            int o = key_index(def, key->excludes);
+            /* Report the pair once, at the later of the two. */
+            if (o >= 0 && s->slots[o].given && s->slots[o].line < sl->line) {
+                this_why = CONFLICT_EXCLUDES;
+                this_other = &def->keys[o];
+            }
+        }
+        if (this_why == CONFLICT_NONE && key->needs != NULL) {
+            int o = key_index(def, key->needs);
+            if (o >= 0 && !s->slots[o].given) {
+                this_why = CONFLICT_NEEDS;
+                this_other = &def->keys[o];
+            }
+        }
+        if (this_why != CONFLICT_NONE &&
+            (worst_slot == NULL || sl->line < worst_slot->line)) {
+            worst = key;
+            worst_slot = sl;
+            why = this_why;
+            other = this_other;
+        }
+    }
+    if (worst != NULL) {
+        if (why == CONFLICT_SHAPE) {
+            int rect = shape->shape == SW_SHAPE_RECTANGLE;
+            return fail(p, worst_slot->line, worst_slot->key_col,
+                        "%s: key '%s' does not apply to a %s: remove it, "
+                        "or set shape = %s",
+                        where, worst->name, rect ? "rectangle" : "circle",
+                        rect ? "circle" : "rectangle");
+        }
+        if (why == CONFLICT_EXCLUDES)
+            return fail(p, worst_slot->line, worst_slot->key_col,
+                        "%s: keys '%s' (line %ld) and '%s' (line %ld) "
+                        "exclude each other: give only one",
+                        where, other->name,
+                        s->slots[other - def->keys].line, worst->name,
+                        worst_slot->line);
+        return fail(p, worst_slot->line, worst_slot->key_col,
+                    "%s: key '%s' needs '%s': add %s, or remove %s", where,
+                    worst->name, other->name, other->name, worst->name);
+    }
+
+    for (size_t k = 0; k < def->n_keys; k++) {
+        const key_def *key = &def->keys[k];
+        int required = key->need == NEED_REQUIRED ||
+                       (shape != NULL && key->need == NEED_RECTANGLE &&
+                        shape->shape == SW_SHAPE_RECTANGLE) ||
+                       (shape != NULL && key->need == NEED_CIRCLE &&
+                        shape->shape == SW_SHAPE_CIRCLE);
+        if (required && !s->slots[k].given) {
+            if (key->need == NEED_REQUIRED)
+                return fail(p, s->line, s->col,
+                            "%s: required key '%s' is missing: add '%s = "
+                            "...'%s to %s",
+                            where, key->name, key->name,
+                            unit_phrase(key, units, sizeof units), hdr);
+            return fail(p, s->line, s->col,
+                        "%s: key '%s' is missing: a %s needs it; add '%s = "
+                        "...'%s to %s",
+                        where, key->name,
+                        shape->shape == SW_SHAPE_RECTANGLE ? "rectangle"
+                                                           : "circle",
+                        key->name, unit_phrase(key, units, sizeof units),
+                        hdr);
+        }
+    }
+
+    if (def->one_of[0] != NULL) {
+        int a = key_index(def, def->one_of[0]);
+        int b = key_index(def, def->one_of[1]);
+        if (!s->slots[a].given && !s->slots[b].given)
+            return fail(p, s->line, s->col,
+                        "%s: give either '%s'%s or '%s'%s", where,
+                        def->keys[a].name,
+                        unit_phrase(&def->keys[a], units, sizeof units),
+                        def->keys[b].name,
+                        unit_phrase(&def->keys[b], units2, sizeof units2));
+    }
+
+    if (def->kind == SEC_GATE && !s->slots[GK_REQUIRED_FS].given &&
+        isnan(site->required_fs))
+        return fail(p, s->line, s->col,
+                    "gate '%s' has no required_fs: set it in [gate %s] or "
+                    "[site]; sillwatch has no built-in value",
+                    s->arg, s->arg);
+    return SW_OK;
+}
+
+/* ---- passes 3 and 4: values --------------------------------------------- */
+
+/* The default site name: the file's base name without ".ini". */
+static void default_name(const char *path, char *out, size_t size)
+{
+    const char *base = strrchr(path, '/');
+    size_t n;
+
+    base = base != NULL ? base + 1 : path;
+    n = strlen(base);
+    if (n > 4 && strcmp(base + n - 4, ".ini") == 0)
+        n -= 4;
+    snprintf(out, size, "%.*s", (int)(n < size ? n : size - 1), base);
+}
+
+/* Take the [site] section (or its absence) into `site`. */
+static int resolve_site(parser *p, const section *s, sw_site *site)
+{
+    if (s != NULL && s->slots[SK_NAME].given)
+        snprintf(site->name, sizeof site->name, "%s", s->slots[SK_NAME].text);
+    else
+        default_name(p->path, site->name, sizeof site->name);
+
+    site->g_ms2 = SW_GRAVITY_STANDARD;
+    if (s == NULL)
+        return SW_OK;
+    if (s->slots[SK_GRAVITY].given)
+        site->g_ms2 = s->slots[SK_GRAVITY].num;
+    if (s->slots[SK_LATITUDE].given) {
+        const slot *lat = &s->slots[SK_LATITUDE];
+        const slot *elev = &s->slots[SK_ELEVATION];
+        int rc;
+        site->gravity_from_latitude = 1;
+        site->latitude_deg = lat->num;
+        site->elevation_m = elev->given ? elev->num : 0.0;
+        rc = sw_gravity_normal(site->latitude_deg, site->elevation_m,
+                               &site->g_ms2, p->err);
+        if (rc != SW_OK) {
+            char why[SW_ERROR_MSG_MAX];
+            snprintf(why, sizeof why, "%s", p->err->message);
+            p->status = sw_error_set(p->err, rc, p->path, lat->line,
+                                     lat->val_col, "[site]: %s", why);
+            return p->status;
+        }
+    }
+    return SW_OK;
+}
+
+/* Take a [water ...] section into `water`. */
+static int resolve_water(parser *p, const section *s, sw_site_water *water)
+{
+    const slot *t = &s->slots[WK_TEMPERATURE];
+
+    if (s->slots[WK_DENSITY].given) {
+        water->rho_kgm3 = s->slots[WK_DENSITY].num;
+        return SW_OK;
+    }
+    water->from_temperature = 1;
+    water->temperature_C = t->num;
+    water->salinity =
+        s->slots[WK_SALINITY].given ? s->slots[WK_SALINITY].num : 0.0;
+    int rc = sw_water_density(water->temperature_C, water->salinity,
+                              &water->rho_kgm3, p->err);
+    if (rc != SW_OK) {
+        char where[96], why[SW_ERROR_MSG_MAX];
+        snprintf(why, sizeof why, "%s", p->err->message);
+        p->status = sw_error_set(p->err, rc, p->path, t->line, t->val_col,
+                                 "%s: %s",
+                                 section_label(s, where, sizeof where), why);
+    }
+    return rc;
+}
+
+/* Fill in, validate and prepare the gate of section `s`. */
+static int build_gate(parser *p, const section *s, const section *site_sec,
+                      const sw_site *site, sw_site_gate *out)
+{
+    const slot *sl = s->slots;
+    sw_gate *g = &out->gate;
+    const char *bad_key = NULL;
+    int rc;
+
+    memset(out, 0, sizeof *out);
+    out->line = s->line;
+    snprintf(g->name, sizeof g->name, "%s", s->arg);
+    /* Names were checked to fit on reading (name_problem()). */
+    snprintf(out->headwater, sizeof out->headwater, "%.63s",
+             sl[GK_HEADWATER].given ? sl[GK_HEADWATER].text : "");
+    snprintf(out->tailwater, sizeof out->tailwater, "%.63s",
+             sl[GK_TAILWATER].given ? sl[GK_TAILWATER].text : "");
+
+    g->shape = sl[GK_SHAPE].shape;
+    g->hinge_level_m = sl[GK_HINGE_LEVEL].num;
+    g->inclination_deg = sl[GK_INCLINATION].num;
+    g->seal_top_m = sl[GK_SEAL_TOP].num;
+    g->seal_height_m = sl[GK_SEAL_HEIGHT].given ? sl[GK_SEAL_HEIGHT].num : 0;
+    g->seal_width_m = sl[GK_SEAL_WIDTH].given ? sl[GK_SEAL_WIDTH].num : 0;
+    g->diameter_m = sl[GK_DIAMETER].given ? sl[GK_DIAMETER].num : 0;
+    if (sl[GK_LEAF_LENGTH].given)
+        g->leaf_length_m = sl[GK_LEAF_LENGTH].num;
+    else
+        g->leaf_length_m =
+            g->seal_top_m + (g->shape == SW_SHAPE_RECTANGLE ? g->seal_height_m
+                                                            : g->diameter_m);
+    g->mass_kg = sl[GK_MASS].num;
+    g->cg_along_m = sl[GK_CG_ALONG].num;
+    g->cg_offset_m = sl[GK_CG_OFFSET].given ? sl[GK_CG_OFFSET].num : 0;
+    g->volume_m3 = sl[GK_VOLUME].given ? sl[GK_VOLUME].num : 0;
+    g->extra_moment_Nm = sl[GK_EXTRA_MOMENT].given ? sl[GK_EXTRA_MOMENT].num
+                                                   : 0;
+    g->required_fs = sl[GK_REQUIRED_FS].given ? sl[GK_REQUIRED_FS].num
+                                              : site->required_fs;
+    g->min_sill_reaction_N = sl[GK_MIN_SILL_REACTION].given
+                                 ? sl[GK_MIN_SILL_REACTION].num
+                                 : site->min_sill_reaction_N;
+    g->rho_kgm3[SW_UPSTREAM] = site->water[SW_UPSTREAM].rho_kgm3;
+    g->rho_kgm3[SW_DOWNSTREAM] = site->water[SW_DOWNSTREAM].rho_kgm3;
+    g->g_ms2 = site->g_ms2;
+
+    rc = sw_gate_validate(g, &bad_key, p->err);
+    if (rc != SW_OK) {
+        /* Point at the value that failed: in the gate's section; in [site]
+         * for a value the gate takes from there; else at the header. */
+        long line = s->line, col = s->col;
+        int k = bad_key != NULL ? key_index(s->def, bad_key) : -1;
+        if (k >= 0 && sl[k].given) {
+            line = sl[k].line;
+            col = sl[k].val_col;
+        } else if (k >= 0 && site_sec != NULL) {
+            int ks = key_index(site_sec->def, bad_key);
+            if (ks >= 0 && site_sec->slots[ks].given) {
+                line = site_sec->slots[ks].line;
+                col = site_sec->slots[ks].val_col;
+            }
+        }
+        snprintf(p->err->file, sizeof p->err->file, "%s", p->path);
+        p->err->line = line;
+        p->err->column = col;
+        p->status = rc;
+        return rc;
+    }
+    sw_gate_prepare(g);
+    return SW_OK;
+}
+
+/* Append a gate to the site, growing the array as needed. */
+static sw_site_gate *add_gate(parser *p, sw_site *site, size_t *cap)
+{
+    if (site->n_gates == *cap) {
+        size_t grown_cap = *cap != 0 ? 2 * *cap : 4;
+        sw_site_gate *grown =
+            realloc(site->gates, grown_cap * sizeof *grown);
+        if (grown == NULL) {
+            p->status = sw_error_set(p->err, SW_ENOMEM, p->path, 0, 0,
+                                     "out of memory reading the site file");
+            return NULL;
+        }
+        site->gates = grown;
+        *cap = grown_cap;
+    }
+    return &site->gates[site->n_gates++];
+}
+
+/* Passes 2 to 4, once the lines are read. */
+static int resolve(parser *p, sw_site *site)
+{
+    const section *site_sec = NULL;
+    const section *water[2] = {NULL, NULL};
+    size_t n_gates = 0, cap = 0;
+
+    for (size_t i = 0; i < p->n_secs; i++) {
+        const section *s = &p->secs[i];
+        if (s->def->kind == SEC_SITE)
+            site_sec = s;
+        else if (s->def->kind == SEC_WATER)
+            water[s->def->side] = s;
+        else
+            n_gates++;
+    }
+    if (site_sec != NULL && site_sec->slots[SK_REQUIRED_FS].given)
+        site->required_fs = site_sec->slots[SK_REQUIRED_FS].num;
+    if (site_sec != NULL && site_sec->slots[SK_MIN_SILL_REACTION].given)
+        site->min_sill_reaction_N = site_sec->slots[SK_MIN_SILL_REACTION].num;
+
+    for (size_t i = 0; i < p->n_secs; i++)
+        if (check_section(p, &p->secs[i], site) != SW_OK)
+            return p->status;
+    for (int side = 0; side < 2; side++)
+        if (water[side] == NULL)
+            return fail(p, 0, 0,
+                        "the site file has no [water %s] section: add one "
+                        "with density or temperature",
+                        sw_side_name((sw_side)side));
+    if (n_gates == 0)
+        return fail(p, 0, 0,
+                    "the site file defines no gate: add a [gate NAME] "
+                    "section");
+
+    if (resolve_site(p, site_sec, site) != SW_OK)
+        return p->status;
+    for (int side = 0; side < 2; side++)
+        if (resolve_water(p, water[side], &site->water[side]) != SW_OK)
+            return p->status;
+
+    for (size_t i = 0; i < p->n_secs; i++) {
+        sw_site_gate *gate;
+        if (p->secs[i].def->kind != SEC_GATE)
+            continue;
+        gate = add_gate(p, site, &cap);
+        if (gate == NULL)
+            return p->status;
+        if (build_gate(p, &p->secs[i], site_sec, site, gate) != SW_OK)
+            return p->status;
+    }
+    return SW_OK;
+}
+
+/* ---- public ------------------------------------------------------------- */
+
+int sw_site_load(sw_site *site, const char *path, sw_error *err)
+{
+    sw_error local;
+    parser p;
+    int rc;
+
+    if (err == NULL)
+        err = &local;
+    sw_error_clear(err);
+    memset(site, 0, sizeof *site);
+    memset(&p, 0, sizeof p);
+    p.path = path;
+    p.err = err;
+
+    p.fp = fopen(path, "r");
+    if (p.fp == NULL)
+        return sw_error_set(err, SW_ESITE, path, 0, 0,
+                            "cannot open the site file: %s", strerror(errno));
+
+    snprintf(site->path, sizeof site->path, "%s", path);
+    site->required_fs = NAN;
+    site->min_sill_reaction_N = 0.0;
+
+    rc = ini_parse_stream(site_reader, &p, site_handler, &p);
+    /* The last line may be a key line that libinih could not split. */
+    if (p.status == SW_OK && p.key_line && !p.handler_called)
+        fail(&p, p.lineno, p.col0 + 1,
+             "line is not 'key = value', a [section] header or a comment: "
+             "put '=' between the key and its value");
+    if (p.status == SW_OK && rc == -2)
+        p.status = sw_error_set(err, SW_ENOMEM, path, 0, 0,
+                                "out of memory reading the site file");
+    else if (p.status == SW_OK && rc != 0)
+        fail(&p, rc > 0 ? rc : 0, 0, "libinih reports a syntax error here");
+    if (p.status == SW_OK)
+        resolve(&p, site);
+
+    fclose(p.fp);
+    free(p.raw);
+    free(p.secs);
+    if (p.status != SW_OK) {
+        sw_site_fini(site);
+        return p.status;
+    }
+    return SW_OK;
+}
+
+void sw_site_fini(sw_site *site)
+{
+    if (site == NULL)
+        return;
+    free(site->gates);
+    memset(site, 0, sizeof *site);
+}
+
+const sw_site_gate *sw_site_find_gate(const sw_site *site, const char *name)
+{
+    if (site == NULL || name == NULL)
+        return NULL;
+    for (size_t i = 0; i < site->n_gates; i++)
+        if (strcmp(site->gates[i].gate.name, name) == 0)
+            return &site->gates[i];
+    return NULL;
+}
