@@ -1,0 +1,118 @@
+/* sillwatch: level series read from CSV files, streaming.
+ *
+ * A reader reads one CSV file (libcsv) from its header row on, one record
+ * at a time, and hands back the instant of each record and the values of
+ * the columns asked for, in metres above the site datum.  Memory does not
+ * grow with the file: the reader keeps one read buffer and the current
+ * record.  Several series in one file share one reader (one column each).
+ *
+ * Accepted: comma, semicolon or tab delimiter (detected from the header
+ * row, or set); RFC 4180 quoting; lines whose first character is '#' (at a
+ * record boundary) are comments; blank lines; a UTF-8 byte-order mark;
+ * CRLF or LF line ends; a decimal comma where the delimiter is ';'.
+ *
+ * Positions in messages and in the statistics are physical line numbers
+ * (1-based) and column = field number (1-based) within the record.
+ */
+#ifndef SILLWATCH_SERIES_H
+#define SILLWATCH_SERIES_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "sillwatch/error.h"
+#include "sillwatch/timeutil.h"
+
+#define SW_SERIES_MAX_COLUMNS 16  /* value columns one reader can serve */
+#define SW_SERIES_MAX_MISSING 8   /* extra missing tokens per column */
+#define SW_SERIES_TOKEN_MAX 32
+#define SW_SERIES_REJECTS_KEPT 10 /* positions kept of rejected fields */
+
+typedef enum sw_time_format {
+    SW_TIME_ISO8601 = 0, /* ISO 8601 date-time, see sw_stamp_parse() */
+    SW_TIME_UNIX         /* seconds since 1970-01-01T00:00:00Z */
+} sw_time_format;
+
+/* What the reader needs to know of a file. */
+typedef struct sw_reader_config {
+    const char *path;
+    const char *time_column;    /* header name of the time column */
+    sw_time_format time_format;
+    char delimiter;             /* 0: detect from the header; ',' ';' '\t' */
+    const sw_zone *zone;        /* for timestamps without an offset; NULL:
+                                   such timestamps are an error */
+} sw_reader_config;
+
+/* One value column. */
+typedef struct sw_column_config {
+    const char *name;                   /* header name */
+    double scale;                       /* metres per unit: 1 or 0.3048 */
+    double offset_m;                    /* added after scaling */
+    size_t n_missing;
+    const char *missing[SW_SERIES_MAX_MISSING]; /* extra missing tokens */
+} sw_column_config;
+
+/* A field that was not a number (a missing reading, counted and kept). */
+typedef struct sw_reject {
+    long line, column;
+    char text[SW_SERIES_TOKEN_MAX];     /* the field, cut to fit */
+    const char *reason;                 /* static text */
+} sw_reject;
+
+/* Data-quality counts, per reader and per column. */
+typedef struct sw_column_stats {
+    long missing;      /* empty, NaN, or a missing token */
+    long rejected;     /* not a number: also a missing reading */
+    long valid;
+    size_t n_kept;     /* <= SW_SERIES_REJECTS_KEPT */
+    sw_reject kept[SW_SERIES_REJECTS_KEPT];
+} sw_column_stats;
+
+typedef struct sw_reader_stats {
+    long records;             /* data records read (not header/comments) */
+    long duplicates;          /* exact duplicate records skipped */
+    long first_duplicate_line;
+    long time_rejected;       /* skipped-hour local times (not readable) */
+    long first_time_rejected_line;
+    long ambiguous;           /* repeated-hour times resolved by order */
+    long unresolved;          /* repeated-hour times taken as the first */
+    long first_unresolved_line;
+    sw_time_ms first_t, last_t;
+    sw_column_stats column[SW_SERIES_MAX_COLUMNS];
+} sw_reader_stats;
+
+typedef struct sw_reader sw_reader; /* opaque */
+
+/* Open `cfg->path` and read up to and including its header row; find the
+ * time column and each of the `n_columns` value columns (`columns[i]`
+ * becomes value index i).  On success *reader is a heap object the caller
+ * releases with sw_reader_free().  Errors (SW_EDATA, with file, line and
+ * column where they apply): unreadable file, empty file, no header, a
+ * column not in the header (the message lists the header's columns), a
+ * column named twice; SW_ENOMEM. */
+int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
+                   const sw_column_config *columns, size_t n_columns,
+                   sw_error *err);
+
+/* Read the next data record.  On SW_OK, *has_row is 1 and *t and
+ * values[0..n_columns) are set (a value is NAN where the reading is
+ * missing or rejected), or *has_row is 0 at the end of the file.  Exact
+ * duplicate records are skipped (counted).  Errors (SW_EDATA, with file,
+ * line and column): a time that cannot be read ("timestamp ... has month
+ * 13"), a time earlier than the previous record's, the same time as the
+ * previous record with a different value, a ragged record (fewer fields
+ * than the header needs), an unterminated quote at the end of the file, a
+ * line longer than 1 MiB, a read error. */
+int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
+                   double *values, sw_error *err);
+
+/* The counts so far. */
+const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader);
+
+/* The delimiter in use (detected or set). */
+char sw_reader_delimiter(const sw_reader *reader);
+
+/* Release a reader and close its file; NULL is accepted. */
+void sw_reader_free(sw_reader *reader);
+
+#endif
