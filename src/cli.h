@@ -45,5 +45,6 @@ extern const char sw_cli_caution[];
 /* Commands. */
 int sw_cmd_check(int argc, char **argv);
 int sw_cmd_point(int argc, char **argv);
+int sw_cmd_run(int argc, char **argv);
 
 #endif

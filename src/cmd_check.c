@@ -31,6 +31,25 @@ static void print_water(const char *label, const sw_site_water *w)
         printf("  %-11s %9.4f kg/m^3  (given)\n", label, w->rho_kgm3);
 }
 
+static void print_series(const sw_site_series *sr)
+{
+    printf("\n  [series %s]  (line %ld)\n", sr->name, sr->line);
+    printf("    %-20s %s\n", "file", sr->path);
+    printf("    %-20s %s (%s)\n", "time_column", sr->time_column,
+           sr->time_format == SW_TIME_UNIX ? "Unix seconds" : "ISO 8601");
+    printf("    %-20s %s\n", "value_column", sr->value_column);
+    printf("    %-20s %s, offset %+.4f m (gauge zero above datum)\n", "unit",
+           sr->scale == 1.0 ? "m" : "ft", sr->offset_m);
+    printf("    %-20s %s\n", "delimiter",
+           sr->delimiter == 0 ? "detected from the header"
+           : sr->delimiter == ';' ? "semicolon (decimal comma allowed)"
+           : sr->delimiter == '\t' ? "tab" : "comma");
+    printf("    %-20s empty, NaN", "missing readings");
+    for (size_t k = 0; k < sr->n_missing; k++)
+        printf(", '%s'", sr->missing[k]);
+    printf("\n");
+}
+
 static void row(const char *key, double v, const char *unit)
 {
     printf("    %-20s %14.4f  %s\n", key, v, unit);
@@ -112,6 +131,13 @@ int sw_cmd_check(int argc, char **argv)
         printf("  gravity     %9.5f m/s^2\n", site.g_ms2);
     print_water("upstream", &site.water[SW_UPSTREAM]);
     print_water("downstream", &site.water[SW_DOWNSTREAM]);
+    printf("  max_gap     %9.4f h       (longest interval interpolated)\n",
+           (double)site.max_gap_ms / 3600000.0);
+    printf("  timezone    %s\n",
+           site.zone ? sw_zone_name(site.zone)
+                     : "(none: timestamps must carry a UTC offset)");
+    for (size_t i = 0; i < site.n_series; i++)
+        print_series(&site.series[i]);
     for (size_t i = 0; i < site.n_gates; i++)
         print_gate(&site.gates[i]);
     putchar('\n');

@@ -430,22 +430,44 @@ typedef struct margin_ctx {
     double fixed;       /* the other level */
 } margin_ctx;
 
+void sw_gate_margins(const sw_gate *g, const sw_gate_result *r,
+                     double *open_margin, double *alarm_margin)
+{
+    double by_fs = r->resisting_moment_Nm - g->required_fs * r->hw_moment_Nm;
+    double by_reaction =
+        r->net_moment_Nm - g->min_sill_reaction_N * g->s_sill_m;
+    *open_margin = r->net_moment_Nm;
+    *alarm_margin = by_fs < by_reaction ? by_fs : by_reaction;
+}
+
+void sw_gate_margin_slopes(const sw_gate *g, double *per_hw, double *per_tw)
+{
+    /* A water's moment changes at rho g (wetted first moment) <= rho g
+     * (first moment of the whole opening); the buoyancy moment at most at
+     * rho g V |cot a|; the alarm margin weighs the headwater moment by
+     * required_fs. */
+    double rho_max = fmax(g->rho_kgm3[SW_UPSTREAM], g->rho_kgm3[SW_DOWNSTREAM]);
+    double buoy = rho_max * g->g_ms2 * g->volume_m3 * fabs(g->cos_a / g->sin_a);
+    double fs = fmax(1.0, g->required_fs);
+    *per_hw = fs * g->rho_kgm3[SW_UPSTREAM] * g->g_ms2 * g->first_moment_m3 +
+              buoy;
+    *per_tw = g->rho_kgm3[SW_DOWNSTREAM] * g->g_ms2 * g->first_moment_m3 +
+              buoy;
+}
+
 static double margin(double x, void *p)
 {
     const margin_ctx *c = p;
     const sw_gate *g = c->gate;
     sw_gate_result r;
+    double open_m, alarm_m;
 
     if (c->vary_tailwater)
         evaluate_side(g, c->fixed, x, c->side, &r);
     else
         evaluate_side(g, x, c->fixed, c->side, &r);
-    if (c->limit == SW_LIMIT_OPEN)
-        return r.net_moment_Nm;
-    double by_fs = r.resisting_moment_Nm - g->required_fs * r.hw_moment_Nm;
-    double by_reaction =
-        r.net_moment_Nm - g->min_sill_reaction_N * g->s_sill_m;
-    return by_fs < by_reaction ? by_fs : by_reaction;
+    sw_gate_margins(g, &r, &open_m, &alarm_m);
+    return c->limit == SW_LIMIT_OPEN ? open_m : alarm_m;
 }
 
 /* Does the limit fail at margin value m? (open: net <= 0; alarm: < 0) */

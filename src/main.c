@@ -26,6 +26,8 @@ static const char usage_text[] =
     "  check SITE.ini     validate a site file and show every gate's\n"
     "                     parameters and derived values\n"
     "  point SITE.ini     hand-check the gates at one headwater and tailwater\n"
+    "  run SITE.ini -o D  replay the site's level series through every gate;\n"
+    "                     write summary, exceedance log and more to D\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -43,6 +45,7 @@ static const char usage_text[] =
     "  6  a numerical method failed (please report it)\n"
     "  7  out of memory\n"
     "  8  internal error (please report it)\n"
+    "  130  interrupted (SIGINT or SIGTERM); earlier outputs left as they were\n"
     "\n";
 
 int sw_cli_exit_code(int status)
@@ -108,6 +111,7 @@ int main(int argc, char **argv)
     } commands[] = {
         {"check", sw_cmd_check},
         {"point", sw_cmd_point},
+        {"run", sw_cmd_run},
     };
 
     /* Failures are reported through status codes, never by abort(). */

@@ -40,6 +40,7 @@
 typedef enum key_kind {
     KIND_NUMBER, /* a finite decimal number, SI unit `unit` */
     KIND_TEXT,   /* free text, up to SW_SITE_NAME_MAX * 2 - 1 bytes */
+    KIND_PATH,   /* a file path, up to SW_ERROR_PATH_MAX - 1 bytes */
     KIND_NAME,   /* a name as for [gate NAME]: letters, digits, _ - . */
     KIND_SHAPE   /* rectangle | circle */
 } key_kind;
@@ -66,7 +67,9 @@ typedef struct key_def {
 
 #define NO_RANGE NAN, NAN
 
-typedef enum section_kind { SEC_SITE, SEC_WATER, SEC_GATE } section_kind;
+typedef enum section_kind {
+    SEC_SITE, SEC_WATER, SEC_GATE, SEC_SERIES
+} section_kind;
 
 typedef struct section_def {
     section_kind kind;
@@ -81,7 +84,7 @@ typedef struct section_def {
 
 enum site_key {
     SK_NAME, SK_GRAVITY, SK_LATITUDE, SK_ELEVATION, SK_REQUIRED_FS,
-    SK_MIN_SILL_REACTION, SK_COUNT
+    SK_MIN_SILL_REACTION, SK_MAX_GAP, SK_TIMEZONE, SK_COUNT
 };
 
 static const key_def site_keys[SK_COUNT] = {
@@ -104,6 +107,10 @@ static const key_def site_keys[SK_COUNT] = {
     [SK_MIN_SILL_REACTION] = {"min_sill_reaction", KIND_NUMBER,
                               NEED_OPTIONAL, "N", 0.0, INFINITY, NULL, NULL,
                               "give the least sill reaction accepted, in N"},
+    [SK_MAX_GAP] = {"max_gap", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                    NULL, NULL},
+    [SK_TIMEZONE] = {"timezone", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
 };
 
 enum water_key { WK_DENSITY, WK_TEMPERATURE, WK_SALINITY, WK_COUNT };
@@ -170,7 +177,33 @@ static const key_def gate_keys[GK_COUNT] = {
                       NULL, NULL, NULL},
 };
 
-#define N_SECTION_DEFS 4
+enum series_key {
+    RK_FILE, RK_TIME_COLUMN, RK_VALUE_COLUMN, RK_TIME_FORMAT, RK_OFFSET,
+    RK_UNIT, RK_MISSING, RK_DELIMITER, RK_COUNT
+};
+
+static const key_def series_keys[RK_COUNT] = {
+    [RK_FILE] = {"file", KIND_PATH, NEED_REQUIRED, "", NO_RANGE, NULL, NULL,
+                 NULL},
+    [RK_TIME_COLUMN] = {"time_column", KIND_TEXT, NEED_OPTIONAL, "",
+                        NO_RANGE, NULL, NULL, NULL},
+    [RK_VALUE_COLUMN] = {"value_column", KIND_TEXT, NEED_REQUIRED, "",
+                         NO_RANGE, NULL, NULL, NULL},
+    [RK_TIME_FORMAT] = {"time_format", KIND_TEXT, NEED_OPTIONAL, "",
+                        NO_RANGE, NULL, NULL, NULL},
+    [RK_OFFSET] = {"offset", KIND_NUMBER, NEED_OPTIONAL, "m", -1.0e4, 1.0e4,
+                   NULL, NULL,
+                   "give the gauge zero's elevation above the site datum, "
+                   "in m"},
+    [RK_UNIT] = {"unit", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL, NULL,
+                 NULL},
+    [RK_MISSING] = {"missing", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                    NULL, NULL},
+    [RK_DELIMITER] = {"delimiter", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                      NULL, NULL, NULL},
+};
+
+#define N_SECTION_DEFS 5
 
 static const section_def section_defs[N_SECTION_DEFS] = {
     {SEC_SITE, "site", "", 0, site_keys, SK_COUNT, {NULL, NULL}, "[site]"},
@@ -180,6 +213,8 @@ static const section_def section_defs[N_SECTION_DEFS] = {
      {"density", "temperature"}, "[water upstream] and [water downstream]"},
     {SEC_GATE, "gate", NULL, 0, gate_keys, GK_COUNT, {NULL, NULL},
      "[gate NAME]"},
+    {SEC_SERIES, "series", NULL, 0, series_keys, RK_COUNT, {NULL, NULL},
+     "[series NAME]"},
 };
 
 /* The most keys any section has; the slot arrays are this long. */
@@ -187,10 +222,12 @@ static const section_def section_defs[N_SECTION_DEFS] = {
 _Static_assert(SK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
 _Static_assert(WK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
 _Static_assert(GK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
+_Static_assert(RK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
 
 /* Longest name (gate, series) and longest free text, with their NUL. */
 #define NAME_SIZE SW_SITE_NAME_MAX
 #define TEXT_SIZE (SW_SITE_NAME_MAX * 2)
+#define PATH_SIZE SW_ERROR_PATH_MAX
 _Static_assert(sizeof(((sw_gate *)0)->name) >= NAME_SIZE, "gate name size");
 _Static_assert(NAME_SIZE == 64, "messages and formats say 63 characters");
 _Static_assert(sizeof(((sw_site *)0)->name) >= TEXT_SIZE, "site name size");
@@ -203,7 +240,7 @@ typedef struct slot {
     long line, key_col, val_col;
     double num;                 /* KIND_NUMBER */
     sw_shape shape;             /* KIND_SHAPE */
-    char text[TEXT_SIZE];       /* KIND_TEXT, KIND_NAME */
+    char text[PATH_SIZE];       /* KIND_TEXT, KIND_NAME, KIND_PATH */
 } slot;
 
 /* One section header and the keys below it. */
@@ -418,7 +455,7 @@ static void read_header(parser *p, const char *text)
     if (word[0] == '\0') {
         fail(p, p->lineno, col,
              "empty section header: write [site], [water upstream], "
-             "[water downstream] or [gate NAME]");
+             "[water downstream], [gate NAME] or [series NAME]");
         return;
     }
     for (size_t i = 0; i < N_SECTION_DEFS && def == NULL; i++) {
@@ -469,7 +506,8 @@ static void read_header(parser *p, const char *text)
         else
             fail(p, p->lineno, col,
                  "unknown section [%.80s]: the sections are [site], "
-                 "[water upstream], [water downstream] and [gate NAME]",
+                 "[water upstream], [water downstream], [gate NAME] and "
+                 "[series NAME]",
                  full);
         return;
     }
@@ -720,7 +758,8 @@ static int site_handler(void *user, const char *ini_section, const char *name,
     if (!p->have_cur) {
         fail(p, p->lineno, key_col,
              "key '%.60s' stands before any section: put it below [site], "
-             "[water upstream], [water downstream] or [gate NAME]",
+             "[water upstream], [water downstream], [gate NAME] or "
+             "[series NAME]",
              name);
         return 0;
     }
@@ -755,14 +794,17 @@ static int site_handler(void *user, const char *ini_section, const char *name,
             return 0;
         break;
     case KIND_TEXT:
-        if (strlen(value) >= sizeof sl->text) {
+    case KIND_PATH: {
+        size_t limit = key->kind == KIND_PATH ? PATH_SIZE : TEXT_SIZE;
+        if (strlen(value) >= limit) {
             fail(p, p->lineno, val_col,
                  "%s: key '%s' is longer than %zu characters: shorten it",
-                 where, key->name, sizeof sl->text - 1);
+                 where, key->name, limit - 1);
             return 0;
         }
         snprintf(sl->text, sizeof sl->text, "%s", value);
         break;
+    }
     case KIND_NAME: {
         const char *why = name_problem(value);
         if (why != NULL) {
@@ -939,17 +981,169 @@ static void default_name(const char *path, char *out, size_t size)
     snprintf(out, size, "%.*s", (int)(n < size ? n : size - 1), base);
 }
 
+/* Give the error another module just reported the position of `sl` and
+ * the prefix `where`; return its status. */
+static int relocate(parser *p, const slot *sl, const char *where)
+{
+    char why[SW_ERROR_MSG_MAX];
+    snprintf(why, sizeof why, "%s", p->err->message);
+    p->status = sw_error_set(p->err, p->err->code, p->path, sl->line,
+                             sl->val_col, "%s: %s", where, why);
+    return p->status;
+}
+
+/* Split `text` at commas and blanks into at most SW_SERIES_MAX_MISSING
+ * tokens.  Returns SW_OK or records a problem at `sl`. */
+static int read_missing(parser *p, const slot *sl, const char *where,
+                        sw_site_series *out)
+{
+    const char *q = sl->text;
+    while (*q != '\0') {
+        size_t n;
+        while (*q == ',' || isspace((unsigned char)*q))
+            q++;
+        if (*q == '\0')
+            break;
+        for (n = 0; q[n] != '\0' && q[n] != ',' && !isspace((unsigned char)q[n]);
+             n++)
+            ;
+        if (out->n_missing == SW_SERIES_MAX_MISSING)
+            return fail(p, sl->line, sl->val_col,
+                        "%s: key 'missing': more than %d tokens", where,
+                        SW_SERIES_MAX_MISSING);
+        if (n >= SW_SERIES_TOKEN_MAX)
+            return fail(p, sl->line, sl->val_col,
+                        "%s: key 'missing': token '%.40s' is longer than %d "
+                        "characters", where, q, SW_SERIES_TOKEN_MAX - 1);
+        memcpy(out->missing[out->n_missing], q, n);
+        out->missing[out->n_missing][n] = '\0';
+        out->n_missing++;
+        q += n;
+    }
+    return SW_OK;
+}
+
+/* Take a [series NAME] section into `out`; a relative file is taken from
+ * the site file's folder. */
+static int build_series(parser *p, const section *s, sw_site_series *out)
+{
+    const slot *sl = s->slots;
+    char where[96];
+    const char *slash = strrchr(p->path, '/');
+
+    section_label(s, where, sizeof where);
+    memset(out, 0, sizeof *out);
+    snprintf(out->name, sizeof out->name, "%s", s->arg);
+    out->line = s->line;
+    if (sl[RK_FILE].text[0] == '/' || slash == NULL) {
+        snprintf(out->path, sizeof out->path, "%s", sl[RK_FILE].text);
+    } else {
+        int dir = (int)(slash - p->path);
+        if ((size_t)dir + 1 + strlen(sl[RK_FILE].text) >= sizeof out->path)
+            return fail(p, sl[RK_FILE].line, sl[RK_FILE].val_col,
+                        "%s: key 'file': the path is too long", where);
+        snprintf(out->path, sizeof out->path, "%.*s/%.*s", dir, p->path,
+                 (int)(sizeof out->path) - dir - 2, sl[RK_FILE].text);
+    }
+    /* KIND_TEXT values were checked to fit TEXT_SIZE on reading */
+    snprintf(out->time_column, sizeof out->time_column, "%.127s",
+             sl[RK_TIME_COLUMN].given ? sl[RK_TIME_COLUMN].text : "time");
+    snprintf(out->value_column, sizeof out->value_column, "%.127s",
+             sl[RK_VALUE_COLUMN].text);
+    out->time_format = SW_TIME_ISO8601;
+    if (sl[RK_TIME_FORMAT].given) {
+        const char *v = sl[RK_TIME_FORMAT].text;
+        if (strcmp(v, "unix") == 0)
+            out->time_format = SW_TIME_UNIX;
+        else if (strcmp(v, "iso8601") != 0)
+            return fail(p, sl[RK_TIME_FORMAT].line, sl[RK_TIME_FORMAT].val_col,
+                        "%s: key 'time_format': '%.40s' is not iso8601 or "
+                        "unix (seconds since 1970-01-01T00:00:00Z)",
+                        where, v);
+    }
+    out->scale = 1.0;
+    if (sl[RK_UNIT].given) {
+        const char *v = sl[RK_UNIT].text;
+        if (strcmp(v, "ft") == 0)
+            out->scale = 0.3048; /* international foot, exact (1959) */
+        else if (strcmp(v, "m") != 0)
+            return fail(p, sl[RK_UNIT].line, sl[RK_UNIT].val_col,
+                        "%s: key 'unit': '%.40s' is not m or ft", where, v);
+    }
+    out->offset_m = sl[RK_OFFSET].given ? sl[RK_OFFSET].num : 0.0;
+    if (sl[RK_DELIMITER].given) {
+        const char *v = sl[RK_DELIMITER].text;
+        if (strcmp(v, ",") == 0 || strcmp(v, "comma") == 0)
+            out->delimiter = ',';
+        else if (strcmp(v, "semicolon") == 0)
+            out->delimiter = ';';
+        else if (strcmp(v, "tab") == 0)
+            out->delimiter = '\t';
+        else
+            return fail(p, sl[RK_DELIMITER].line, sl[RK_DELIMITER].val_col,
+                        "%s: key 'delimiter': '%.40s' is not comma, "
+                        "semicolon or tab (leave it out to detect it)",
+                        where, v);
+    }
+    if (sl[RK_MISSING].given &&
+        read_missing(p, &sl[RK_MISSING], where, out) != SW_OK)
+        return p->status;
+    return SW_OK;
+}
+
+/* Check that the series a gate names exist; point at the key if not. */
+static int check_gate_series(parser *p, const section *s, const sw_site *site)
+{
+    static const int keys[2] = {GK_HEADWATER, GK_TAILWATER};
+    for (int i = 0; i < 2; i++) {
+        const slot *sl = &s->slots[keys[i]];
+        if (!sl->given || sw_site_find_series(site, sl->text) != NULL)
+            continue;
+        const char *best = NULL;
+        size_t best_d = NEAR_MISS + 1;
+        for (size_t j = 0; j < site->n_series; j++) {
+            size_t d = edit_distance(sl->text, site->series[j].name);
+            if (d < best_d) {
+                best_d = d;
+                best = site->series[j].name;
+            }
+        }
+        if (best != NULL)
+            return fail(p, sl->line, sl->val_col,
+                        "gate '%s': key '%s': no [series %s] in the site "
+                        "file: did you mean '%s'?",
+                        s->arg, gate_keys[keys[i]].name, sl->text, best);
+        return fail(p, sl->line, sl->val_col,
+                    "gate '%s': key '%s': no [series %s] in the site file: "
+                    "add one with file and value_column",
+                    s->arg, gate_keys[keys[i]].name, sl->text);
+    }
+    return SW_OK;
+}
+
 /* Take the [site] section (or its absence) into `site`. */
 static int resolve_site(parser *p, const section *s, sw_site *site)
 {
     if (s != NULL && s->slots[SK_NAME].given)
-        snprintf(site->name, sizeof site->name, "%s", s->slots[SK_NAME].text);
+        snprintf(site->name, sizeof site->name, "%.127s",
+                 s->slots[SK_NAME].text);
     else
         default_name(p->path, site->name, sizeof site->name);
 
     site->g_ms2 = SW_GRAVITY_STANDARD;
+    site->max_gap_ms = SW_MS_PER_HOUR;
     if (s == NULL)
         return SW_OK;
+    if (s->slots[SK_MAX_GAP].given) {
+        const slot *sl = &s->slots[SK_MAX_GAP];
+        if (sw_duration_parse(sl->text, &site->max_gap_ms, p->err) != SW_OK)
+            return relocate(p, sl, "[site]: key 'max_gap'");
+    }
+    if (s->slots[SK_TIMEZONE].given) {
+        const slot *sl = &s->slots[SK_TIMEZONE];
+        if (sw_zone_load(&site->zone, sl->text, p->err) != SW_OK)
+            return relocate(p, sl, "[site]: key 'timezone'");
+    }
     if (s->slots[SK_GRAVITY].given)
         site->g_ms2 = s->slots[SK_GRAVITY].num;
     if (s->slots[SK_LATITUDE].given) {
@@ -1092,7 +1286,7 @@ static int resolve(parser *p, sw_site *site)
 {
     const section *site_sec = NULL;
     const section *water[2] = {NULL, NULL};
-    size_t n_gates = 0, cap = 0;
+    size_t n_gates = 0, cap = 0, n_series = 0;
 
     for (size_t i = 0; i < p->n_secs; i++) {
         const section *s = &p->secs[i];
@@ -1100,6 +1294,8 @@ static int resolve(parser *p, sw_site *site)
             site_sec = s;
         else if (s->def->kind == SEC_WATER)
             water[s->def->side] = s;
+        else if (s->def->kind == SEC_SERIES)
+            n_series++;
         else
             n_gates++;
     }
@@ -1128,10 +1324,26 @@ static int resolve(parser *p, sw_site *site)
         if (resolve_water(p, water[side], &site->water[side]) != SW_OK)
             return p->status;
 
+    if (n_series > 0) {
+        site->series = calloc(n_series, sizeof *site->series);
+        if (site->series == NULL) {
+            p->status = sw_error_set(p->err, SW_ENOMEM, p->path, 0, 0,
+                                     "out of memory reading the site file");
+            return p->status;
+        }
+        for (size_t i = 0; i < p->n_secs; i++)
+            if (p->secs[i].def->kind == SEC_SERIES &&
+                build_series(p, &p->secs[i],
+                             &site->series[site->n_series++]) != SW_OK)
+                return p->status;
+    }
+
     for (size_t i = 0; i < p->n_secs; i++) {
         sw_site_gate *gate;
         if (p->secs[i].def->kind != SEC_GATE)
             continue;
+        if (check_gate_series(p, &p->secs[i], site) != SW_OK)
+            return p->status;
         gate = add_gate(p, site, &cap);
         if (gate == NULL)
             return p->status;
@@ -1195,6 +1407,8 @@ void sw_site_fini(sw_site *site)
     if (site == NULL)
         return;
     free(site->gates);
+    free(site->series);
+    sw_zone_free(site->zone);
     memset(site, 0, sizeof *site);
 }
 
@@ -1206,4 +1420,41 @@ const sw_site_gate *sw_site_find_gate(const sw_site *site, const char *name)
         if (strcmp(site->gates[i].gate.name, name) == 0)
             return &site->gates[i];
     return NULL;
+}
+
+const sw_site_series *sw_site_find_series(const sw_site *site,
+                                          const char *name)
+{
+    if (site == NULL || name == NULL)
+        return NULL;
+    for (size_t i = 0; i < site->n_series; i++)
+        if (strcmp(site->series[i].name, name) == 0)
+            return &site->series[i];
+    return NULL;
+}
+
+int sw_site_set_series_file(sw_site *site, const char *name,
+                            const char *path, sw_error *err)
+{
+    char list[400] = "";
+    size_t used = 0;
+
+    for (size_t i = 0; i < site->n_series; i++) {
+        sw_site_series *sr = &site->series[i];
+        if (strcmp(sr->name, name) == 0) {
+            if (strlen(path) >= sizeof sr->path)
+                return sw_error_set(err, SW_EUSAGE, NULL, 0, 0,
+                                    "--series %s: the path is too long",
+                                    name);
+            snprintf(sr->path, sizeof sr->path, "%s", path);
+            return SW_OK;
+        }
+        if (used < sizeof list)
+            used += (size_t)snprintf(list + used, sizeof list - used, "%s%s",
+                                     i > 0 ? ", " : "", sr->name);
+    }
+    return sw_error_set(err, SW_EUSAGE, NULL, 0, 0,
+                        "--series: the site has no series '%s'%s%s", name,
+                        site->n_series > 0 ? "; it has: " : "",
+                        site->n_series > 0 ? list : " (no [series] section)");
 }

@@ -105,6 +105,20 @@ void sw_gate_evaluate(const sw_gate *gate, double hw_m, double tw_m,
 void sw_gate_water_load(const sw_gate *gate, double level_m, double rho_kgm3,
                         double *force_N, double *moment_Nm);
 
+/* The two margins behind the state of a result: `open_margin` is the net
+ * moment (the leaf is open where it is <= 0); `alarm_margin` is
+ * min(Mr - required_fs * hw_moment, net - min_sill_reaction * s_sill),
+ * which is >= 0 exactly where the state is ok (N*m both). */
+void sw_gate_margins(const sw_gate *gate, const sw_gate_result *r,
+                     double *open_margin, double *alarm_margin);
+
+/* Bounds on how fast either margin can change with the headwater and with
+ * the tailwater, N*m per m, valid at any levels as long as neither water
+ * passes the other (where the buoyancy changes water, a margin may jump;
+ * see sw_gate_evaluate()). */
+void sw_gate_margin_slopes(const sw_gate *gate, double *per_hw,
+                           double *per_tw);
+
 /* Which limit a critical level belongs to. */
 typedef enum sw_limit {
     SW_LIMIT_OPEN = 0, /* the leaf stays shut: net moment > 0 */

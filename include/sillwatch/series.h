@@ -28,16 +28,16 @@
 #define SW_SERIES_TOKEN_MAX 32
 #define SW_SERIES_REJECTS_KEPT 10 /* positions kept of rejected fields */
 
-typedef enum sw_time_format {
+typedef enum sw_time_encoding {
     SW_TIME_ISO8601 = 0, /* ISO 8601 date-time, see sw_stamp_parse() */
     SW_TIME_UNIX         /* seconds since 1970-01-01T00:00:00Z */
-} sw_time_format;
+} sw_time_encoding;
 
 /* What the reader needs to know of a file. */
 typedef struct sw_reader_config {
     const char *path;
     const char *time_column;    /* header name of the time column */
-    sw_time_format time_format;
+    sw_time_encoding time_format;
     char delimiter;             /* 0: detect from the header; ',' ';' '\t' */
     const sw_zone *zone;        /* for timestamps without an offset; NULL:
                                    such timestamps are an error */

@@ -4,13 +4,15 @@
  * of the model document:
  *
  *   [site]             name, gravity | latitude (+ elevation),
- *                      required_fs, min_sill_reaction
+ *                      required_fs, min_sill_reaction, max_gap, timezone
  *   [water upstream]   density | temperature (+ salinity)
  *   [water downstream] density | temperature (+ salinity)
  *   [gate NAME]        shape, hinge_level, inclination, seal_top,
  *                      seal_height, seal_width, diameter, leaf_length, mass,
  *                      cg_along, cg_offset, volume, extra_moment,
  *                      required_fs, min_sill_reaction, headwater, tailwater
+ *   [series NAME]      file, time_column, value_column, time_format,
+ *                      offset, unit, missing, delimiter
  *
  * Every value is checked on load; the first problem found is reported with
  * the file, line and column where it stands (or, for a missing key, the
@@ -23,6 +25,8 @@
 
 #include "sillwatch/error.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/series.h"
+#include "sillwatch/timeutil.h"
 
 #define SW_SITE_NAME_MAX 64
 
@@ -42,6 +46,22 @@ typedef struct sw_site_gate {
     char tailwater[SW_SITE_NAME_MAX];   /* series name, "" if not given */
 } sw_site_gate;
 
+/* One level series: a column of a CSV file. */
+typedef struct sw_site_series {
+    char name[SW_SITE_NAME_MAX];
+    long line;                          /* line of its [series NAME] header */
+    char path[SW_ERROR_PATH_MAX];       /* the file; a relative `file` is
+                                           taken from the site file's folder */
+    char time_column[SW_SITE_NAME_MAX * 2]; /* default "time" */
+    char value_column[SW_SITE_NAME_MAX * 2];
+    sw_time_encoding time_format;       /* time_format = iso8601 | unix */
+    char delimiter;                     /* 0: detect; ',' ';' '\t' */
+    double scale;                       /* metres per unit: 1 or 0.3048 */
+    double offset_m;                    /* gauge zero above site datum */
+    size_t n_missing;
+    char missing[SW_SERIES_MAX_MISSING][SW_SERIES_TOKEN_MAX];
+} sw_site_series;
+
 typedef struct sw_site {
     char path[SW_ERROR_PATH_MAX];
     char name[SW_SITE_NAME_MAX * 2];
@@ -51,8 +71,14 @@ typedef struct sw_site {
     double required_fs;             /* site-wide; NAN when not given */
     double min_sill_reaction_N;     /* site-wide; 0 when not given */
     sw_site_water water[2];         /* indexed by sw_side */
+    sw_time_ms max_gap_ms;          /* longest interpolated interval;
+                                       default one hour */
+    sw_zone *zone;                  /* for timestamps without an offset;
+                                       NULL when no timezone is given */
     size_t n_gates;
     sw_site_gate *gates;            /* in file order; owned by the site */
+    size_t n_series;
+    sw_site_series *series;         /* in file order; owned by the site */
 } sw_site;
 
 /* Read, check and prepare the site file at `path`.  On success returns
@@ -67,5 +93,16 @@ void sw_site_fini(sw_site *site);
 
 /* The gate named `name`, or NULL if the site has none by that name. */
 const sw_site_gate *sw_site_find_gate(const sw_site *site, const char *name);
+
+/* The series named `name`, or NULL. */
+const sw_site_series *sw_site_find_series(const sw_site *site,
+                                          const char *name);
+
+/* Point series `name` at another file (`path` as given, relative to the
+ * current directory), as the command line's --series NAME=FILE does.
+ * Returns SW_OK, or SW_EUSAGE when the site has no such series (the
+ * message lists those it has). */
+int sw_site_set_series_file(sw_site *site, const char *name,
+                            const char *path, sw_error *err);
 
 #endif

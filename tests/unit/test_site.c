@@ -152,7 +152,19 @@ static const char kestrel[] =
     "volume = 0.0385\n"
     "extra_moment = 215.7\n"
     "required_fs = 1.6\n"
-    "min_sill_reaction = 310.25\n";
+    "min_sill_reaction = 310.25\n"
+    "[series reservoir]\n"                             /* 39 */
+    "file = levels/kestrel-up.csv\n"
+    "value_column = stage\n"
+    "[series river.gauge-2]\n"                         /* 42 */
+    "file = /data/river.csv\n"
+    "time_column = Zeit\n"
+    "value_column = Pegel (ft)\n"
+    "time_format = unix\n"
+    "unit = ft\n"
+    "offset = -2.385\n"
+    "missing = -9999, M ---\n"
+    "delimiter = semicolon\n";
 
 static void test_two_gates_every_value(void **state)
 {
@@ -231,9 +243,54 @@ static void test_two_gates_every_value(void **state)
     assert_null(sw_site_find_gate(&site, "spillway"));
     assert_null(sw_site_find_gate(NULL, "G1"));
 
+    /* The level series: defaults, and every key given. */
+    assert_int_equal(site.n_series, 2);
+    const sw_site_series *sr = sw_site_find_series(&site, "reservoir");
+    assert_ptr_equal(sr, &site.series[0]);
+    assert_int_equal(sr->line, 39);
+    /* a relative file is taken from the site file's folder */
+    assert_non_null(strstr(sr->path, "/levels/kestrel-up.csv"));
+    assert_true(strncmp(sr->path, "/tmp/sw-test-site-", 18) == 0);
+    assert_string_equal(sr->time_column, "time");
+    assert_string_equal(sr->value_column, "stage");
+    assert_int_equal(sr->time_format, SW_TIME_ISO8601);
+    assert_int_equal(sr->delimiter, 0);
+    assert_close(sr->scale, 1.0, 0.0);
+    assert_close_abs(sr->offset_m, 0.0, 0.0);
+    assert_int_equal(sr->n_missing, 0);
+    sr = sw_site_find_series(&site, "river.gauge-2");
+    assert_string_equal(sr->path, "/data/river.csv");
+    assert_string_equal(sr->time_column, "Zeit");
+    assert_string_equal(sr->value_column, "Pegel (ft)");
+    assert_int_equal(sr->time_format, SW_TIME_UNIX);
+    /* 1 ft = 0.3048 m exactly (international foot, 1959) */
+    assert_close(sr->scale, 0.3048, 0.0);
+    assert_close(sr->offset_m, -2.385, 1e-15);
+    assert_int_equal(sr->delimiter, ';');
+    assert_int_equal(sr->n_missing, 3);
+    assert_string_equal(sr->missing[0], "-9999");
+    assert_string_equal(sr->missing[1], "M");
+    assert_string_equal(sr->missing[2], "---");
+    assert_null(sw_site_find_series(&site, "Reservoir"));
+    /* defaults of [site] for replay */
+    assert_int_equal(site.max_gap_ms, 3600000);
+    assert_null(site.zone);
+
+    /* --series NAME=FILE */
+    sw_error err;
+    assert_int_equal(sw_site_set_series_file(&site, "reservoir",
+                                             "forecast.csv", &err),
+                     SW_OK);
+    assert_string_equal(site.series[0].path, "forecast.csv");
+    assert_int_equal(sw_site_set_series_file(&site, "river", "x.csv", &err),
+                     SW_EUSAGE);
+    assert_non_null(strstr(err.message, "no series 'river'; it has: "
+                                        "reservoir, river.gauge-2"));
+
     sw_site_fini(&site);
     assert_int_equal(site.n_gates, 0);
     assert_null(site.gates);
+    assert_null(site.series);
     sw_site_fini(&site); /* twice is safe */
     sw_site_fini(NULL);
 }
@@ -762,6 +819,55 @@ static void test_series_names(void **state)
 
 /* ---- errors from sw_gate_validate, placed at the offending key --------- */
 
+/* [site] keys for replays, [series NAME] sections, and gates naming
+ * series: values and every error path. */
+static void test_replay_keys(void **state)
+{
+    sw_site site;
+    (void)state;
+
+    load_ok(WATER GATE_G1 "[site]\nmax_gap = 2.5 h\ntimezone = +10:00\n",
+            &site);
+    assert_int_equal(site.max_gap_ms, 9000000);
+    assert_non_null(site.zone);
+    assert_string_equal(sw_zone_name(site.zone), "+10:00");
+    sw_site_fini(&site);
+
+    expect_error(WATER GATE_G1 "[site]\nmax_gap = 90 m\n", 16, 11,
+                 "[site]: key 'max_gap'");
+    expect_error(WATER GATE_G1 "[site]\ntimezone = Europe/Atlantis\n", 16,
+                 12, "[site]: key 'timezone'");
+    /* a gate naming a series that is not there, with a near miss */
+    expect_error(WATER GATE_G1 "headwater = reservior\n"
+                 "[series reservoir]\nfile = a.csv\nvalue_column = x\n",
+                 15, 13, "no [series reservior] in the site file: did you "
+                         "mean 'reservoir'?");
+    expect_error(WATER GATE_G1 "tailwater = sea\n", 15, 13,
+                 "key 'tailwater': no [series sea] in the site file");
+    /* series sections */
+    expect_error(WATER GATE_G1 "[series s]\nvalue_column = x\n", 15, 1,
+                 "required key 'file' is missing");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\n", 15, 1,
+                 "required key 'value_column' is missing");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "unit = yd\n", 18, 8, "key 'unit': 'yd' is not m or ft");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "time_format = excel\n", 18, 15,
+                 "key 'time_format': 'excel' is not iso8601 or unix");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "delimiter = |\n", 18, 13,
+                 "key 'delimiter': '|' is not comma, semicolon or tab");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "offset = 2,5\n", 18, 10, "is not a number");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "missing = a b c d e f g h i\n", 18, 11,
+                 "more than 8 tokens");
+    expect_error(WATER GATE_G1 "[series s]\nfile = a.csv\nvalue_column = x\n"
+                 "[series s]\n", 18, 1, "series 's' is defined twice");
+    expect_error(WATER GATE_G1 "[serie s]\n", 15, 1,
+                 "did you mean '[series s]'?");
+}
+
 static void test_validation_errors(void **state)
 {
     (void)state;
@@ -833,6 +939,7 @@ int main(void)
         cmocka_unit_test(test_water_neither_density_nor_temperature),
         cmocka_unit_test(test_values_out_of_range),
         cmocka_unit_test(test_series_names),
+        cmocka_unit_test(test_replay_keys),
         cmocka_unit_test(test_validation_errors),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -1,0 +1,44 @@
+/* sillwatch: the CSV outputs of a replay (summary, events, steps, months).
+ *
+ * Times are ISO 8601 with the site's UTC offset; hours carry 4 decimals.
+ * Hours are printed in whole units of 0.0001 h, with the identities kept
+ * exact in print: hours_not_evaluated = span - hours_evaluated and
+ * hours_below_margin = hours_low + hours_open, each side rounded once.
+ * Writers do not check each write: sw_outfile_close() catches any failure.
+ */
+#ifndef SILLWATCH_REPORT_H
+#define SILLWATCH_REPORT_H
+
+#include <stdio.h>
+
+#include "sillwatch/gate.h"
+#include "sillwatch/stepper.h"
+#include "sillwatch/timeutil.h"
+
+/* Milliseconds to units of 0.0001 h, rounded half up (ms >= 0). */
+long long sw_report_hours4(sw_time_ms ms);
+
+void sw_report_summary_header(FILE *fp);
+void sw_report_summary_row(FILE *fp, const char *gate, sw_time_ms start,
+                           sw_time_ms end, const sw_tally *t,
+                           const sw_zone *zone);
+
+void sw_report_events_header(FILE *fp);
+void sw_report_event_row(FILE *fp, const char *gate, const sw_event *ev,
+                         const sw_zone *zone);
+
+void sw_report_steps_header(FILE *fp);
+/* alarm/open may be NULL (not computed); a crit of kind "not needed"
+ * prints as an empty field. */
+void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
+                        const sw_gate_result *r, const sw_crit *alarm,
+                        const sw_crit *open, const sw_zone *zone);
+
+void sw_report_months_header(FILE *fp);
+void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
+                         const sw_zone *zone);
+
+/* "ok" "low" "open"; "recovered" "gap" "series_end". */
+const char *sw_report_end_name(sw_event_end why);
+
+#endif

@@ -1,0 +1,413 @@
+/* sillwatch run: replay logged or forecast levels through every gate. */
+#define _DEFAULT_SOURCE /* getopt_long */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <signal.h>
+#include <stdio.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "cli.h"
+#include "sillwatch/outfile.h"
+#include "sillwatch/report.h"
+#include "sillwatch/site.h"
+#include "sillwatch/stepper.h"
+
+static const char run_help[] =
+    "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
+    "                     [--steps] [--by month] [--quiet]\n"
+    "Replay the level series named in the site file through every gate and\n"
+    "write, in OUTDIR (created if missing):\n"
+    "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
+    "                below margin; events; least factor of safety\n"
+    "  events.csv    the exceedance log: each period below the margin\n"
+    "  steps.csv     with --steps: every gate at every time step, with\n"
+    "                its critical tailwaters\n"
+    "  months.csv    with --by month: the summary per calendar month\n"
+    "Each file is written whole or not at all; a failed run leaves the\n"
+    "previous outputs as they were.\n"
+    "\n"
+    "  -o, --output OUTDIR    the folder for the outputs\n"
+    "  --series NAME=FILE     read series NAME from FILE instead of the\n"
+    "                         site's file (a forecast, a corrected log)\n"
+    "  --steps                write steps.csv\n"
+    "  --by month             write months.csv\n"
+    "  -q, --quiet            print nothing but errors\n"
+    "  -h, --help             show this help and exit\n"
+    "\n"
+    "Exit status: 0 every gate held its margin, 1 some gate was low or open,\n"
+    "2 usage, 3 site file, 4 level data, 5 output, 130 interrupted; see\n"
+    "'sillwatch --help'.\n"
+    "\n";
+
+static volatile sig_atomic_t interrupted;
+
+static void on_signal(int sig)
+{
+    interrupted = sig;
+}
+
+enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, N_OUT };
+static const char *const out_names[N_OUT] = {"summary.csv", "events.csv",
+                                             "steps.csv", "months.csv"};
+
+typedef struct run_opts {
+    const char *site_path, *outdir;
+    int steps, by_month, quiet;
+    const char *series[64];
+    size_t n_series;
+} run_opts;
+
+static int parse_args(int argc, char **argv, run_opts *o)
+{
+    static const struct option opts[] = {
+        {"output", required_argument, NULL, 'o'},
+        {"series", required_argument, NULL, 's'},
+        {"steps", no_argument, NULL, 'S'},
+        {"by", required_argument, NULL, 'b'},
+        {"quiet", no_argument, NULL, 'q'},
+        {"help", no_argument, NULL, 'h'},
+        {NULL, 0, NULL, 0},
+    };
+    int opt;
+
+    memset(o, 0, sizeof *o);
+    opterr = 0;
+    while ((opt = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+        switch (opt) {
+        case 'o':
+            o->outdir = optarg;
+            break;
+        case 's':
+            if (strchr(optarg, '=') == NULL || optarg[0] == '=')
+                return sw_cli_usage_error("run", "--series takes NAME=FILE, "
+                                                 "not '%s'", optarg);
+            if (o->n_series == sizeof o->series / sizeof o->series[0])
+                return sw_cli_usage_error("run", "too many --series options");
+            o->series[o->n_series++] = optarg;
+            break;
+        case 'S':
+            o->steps = 1;
+            break;
+        case 'b':
+            if (strcmp(optarg, "month") != 0)
+                return sw_cli_usage_error("run", "--by: '%s' is not 'month'",
+                                          optarg);
+            o->by_month = 1;
+            break;
+        case 'q':
+            o->quiet = 1;
+            break;
+        case 'h':
+            fputs(run_help, stdout);
+            fputs(sw_cli_caution, stdout);
+            return -1;
+        case ':':
+            return sw_cli_usage_error("run", "option '%s' needs a value",
+                                      argv[optind - 1]);
+        default:
+            return sw_cli_usage_error("run", "unknown option '%s'",
+                                      argv[optind - 1]);
+        }
+    }
+    if (optind != argc - 1)
+        return sw_cli_usage_error("run", optind >= argc
+                                             ? "no site file given"
+                                             : "give one site file, not %d",
+                                  argc - optind);
+    if (o->outdir == NULL)
+        return sw_cli_usage_error("run", "give the output folder with -o "
+                                         "OUTDIR");
+    o->site_path = argv[optind];
+    return 0;
+}
+
+static void hours_text(char *buf, size_t n, sw_time_ms ms)
+{
+    long long h4 = sw_report_hours4(ms);
+    snprintf(buf, n, "%lld.%04lld", h4 / 10000, h4 % 10000);
+}
+
+static void print_summary(const sw_site *site, const sw_stepper *st)
+{
+    sw_time_ms t0, t1;
+    char a[64], b[64], span[32];
+
+    sw_stepper_span(st, &t0, &t1);
+    sw_time_format(a, sizeof a, t0, site->zone);
+    sw_time_format(b, sizeof b, t1, site->zone);
+    hours_text(span, sizeof span, t1 - t0);
+    printf("replay of site '%s': %s to %s (%s h)\n\n", site->name, a, b,
+           span);
+    printf("%-12s %11s %11s %10s %10s %7s %9s  %-s\n", "gate",
+           "evaluated h", "no data h", "low h", "open h", "events",
+           "least fs", "when");
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_tally *t = sw_stepper_tally(st, i);
+        char e[24], n[24], l[24], o[24], fs[24], when[64] = "";
+        hours_text(e, sizeof e, t->evaluated);
+        hours_text(n, sizeof n, (t1 - t0) - t->evaluated);
+        hours_text(l, sizeof l, t->low);
+        hours_text(o, sizeof o, t->open);
+        if (t->evaluated == 0 && isinf(t->min_fs))
+            snprintf(fs, sizeof fs, "-");
+        else if (isinf(t->min_fs))
+            snprintf(fs, sizeof fs, "%s", t->min_fs > 0 ? "inf" : "-inf");
+        else
+            snprintf(fs, sizeof fs, "%.3f", t->min_fs);
+        if (t->evaluated > 0)
+            sw_time_format(when, sizeof when, t->min_fs_t, site->zone);
+        printf("%-12s %11s %11s %10s %10s %7ld %9s  %s\n",
+               site->gates[i].gate.name, e, n, l, o, t->events, fs, when);
+    }
+}
+
+static void print_quality(const sw_site *site, const sw_stepper *st)
+{
+    char h[24], when[64];
+
+    printf("\ndata quality (gaps are intervals longer than max_gap, %s h):\n",
+           (hours_text(h, sizeof h, site->max_gap_ms), h));
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *sr = sw_stepper_series(st, i);
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        const sw_gap_stats *gs = sw_stepper_gap_stats(st, i);
+        printf("  series %s (%s, column %s): %ld rows, %ld valid, %ld "
+               "missing, %ld rejected",
+               sr->name, sr->path, sr->value_column, rs->records, cs->valid,
+               cs->missing, cs->rejected);
+        if (rs->duplicates > 0)
+            printf(", %ld duplicate rows skipped (first on line %ld)",
+                   rs->duplicates, rs->first_duplicate_line);
+        printf("\n");
+        if (gs->gaps > 0) {
+            hours_text(h, sizeof h, gs->total);
+            sw_time_format(when, sizeof when, gs->longest_start, site->zone);
+            printf("    %ld gap%s, %s h in all; longest ", gs->gaps,
+                   gs->gaps == 1 ? "" : "s", h);
+            hours_text(h, sizeof h, gs->longest);
+            printf("%s h from %s\n", h, when);
+        }
+        for (size_t k = 0; k < cs->n_kept; k++)
+            printf("    %s:%ld:%ld: rejected '%s': %s\n", sr->path,
+                   cs->kept[k].line, cs->kept[k].column, cs->kept[k].text,
+                   cs->kept[k].reason);
+        if (cs->rejected > (long)cs->n_kept)
+            printf("    ... and %ld more rejected\n",
+                   cs->rejected - (long)cs->n_kept);
+        if (rs->time_rejected > 0)
+            printf("    %ld rows at local times that do not exist (the "
+                   "daylight-saving gap), taken as missing; first on line "
+                   "%ld\n",
+                   rs->time_rejected, rs->first_time_rejected_line);
+        if (rs->unresolved > 0)
+            printf("    %ld rows in a repeated daylight-saving hour could not "
+                   "be placed by order and were taken as the first "
+                   "occurrence; first on line %ld\n",
+                   rs->unresolved, rs->first_unresolved_line);
+    }
+}
+
+static void progress(const sw_stepper *st, const sw_site *site, long steps)
+{
+    char when[64];
+    sw_time_format(when, sizeof when, sw_stepper_time(st), site->zone);
+    fprintf(stderr, "\rsillwatch: replaying %s  (%ld steps)   ", when, steps);
+}
+
+/* Write what the last advance or finish exposed. */
+static void write_step(const sw_stepper *st, const sw_site *site,
+                       sw_outfile *out, int steps, int by_month)
+{
+    const sw_event *ev;
+    const sw_month_row *mo;
+    size_t n = sw_stepper_events(st, &ev);
+
+    for (size_t i = 0; i < n; i++)
+        sw_report_event_row(out[OUT_EVENTS].fp,
+                            site->gates[ev[i].gate].gate.name, &ev[i],
+                            site->zone);
+    if (by_month) {
+        n = sw_stepper_months(st, &mo);
+        for (size_t i = 0; i < n; i++)
+            sw_report_month_row(out[OUT_MONTHS].fp,
+                                site->gates[mo[i].gate].gate.name, &mo[i],
+                                site->zone);
+    }
+    if (!steps)
+        return;
+    for (size_t g = 0; g < site->n_gates; g++) {
+        const sw_step_gate *sg = sw_stepper_gate_at(st, g);
+        const sw_gate *gate = &site->gates[g].gate;
+        sw_crit alarm, open;
+        sw_error err;
+        if (!sg->known)
+            continue;
+        /* critical levels only here, where they are asked for */
+        int ok = sw_gate_critical_tailwater(gate, sg->result.headwater_m,
+                                            SW_LIMIT_ALARM, &alarm,
+                                            &err) == SW_OK &&
+                 sw_gate_critical_tailwater(gate, sg->result.headwater_m,
+                                            SW_LIMIT_OPEN, &open,
+                                            &err) == SW_OK;
+        sw_report_step_row(out[OUT_STEPS].fp, sw_stepper_time(st), gate->name,
+                           &sg->result, ok ? &alarm : NULL,
+                           ok ? &open : NULL, site->zone);
+    }
+}
+
+static int make_outdir(const char *dir, sw_error *err)
+{
+    struct stat sb;
+    if (stat(dir, &sb) == 0) {
+        if (!S_ISDIR(sb.st_mode))
+            return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                                "the output folder exists but is not a "
+                                "folder");
+        return SW_OK;
+    }
+    if (mkdir(dir, 0777) != 0)
+        return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                            "cannot create the output folder: %s",
+                            strerror(errno));
+    return SW_OK;
+}
+
+int sw_cmd_run(int argc, char **argv)
+{
+    run_opts o;
+    sw_site site;
+    sw_stepper *st = NULL;
+    sw_outfile out[N_OUT];
+    sw_error err;
+    int rc, done = 0, exit_code;
+    long steps = 0;
+    int show_progress;
+    struct timespec last, now;
+
+    memset(out, 0, sizeof out);
+    if ((rc = parse_args(argc, argv, &o)) != 0)
+        return rc < 0 ? SW_EXIT_OK : rc;
+    if (sw_site_load(&site, o.site_path, &err) != SW_OK)
+        return sw_cli_report(&err);
+    for (size_t i = 0; i < o.n_series; i++) {
+        char name[SW_SITE_NAME_MAX];
+        const char *eq = strchr(o.series[i], '=');
+        snprintf(name, sizeof name, "%.*s", (int)(eq - o.series[i]),
+                 o.series[i]);
+        if (sw_site_set_series_file(&site, name, eq + 1, &err) != SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_usage_error("run", "%s", err.message);
+        }
+    }
+
+    signal(SIGINT, on_signal);
+    signal(SIGTERM, on_signal);
+    sw_stepper_options sopt = {o.by_month};
+    if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
+        goto fail;
+    if ((rc = make_outdir(o.outdir, &err)) != SW_OK)
+        goto fail;
+    for (int k = 0; k < N_OUT; k++) {
+        if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month))
+            continue;
+        if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
+            SW_OK)
+            goto fail;
+    }
+    sw_report_summary_header(out[OUT_SUMMARY].fp);
+    sw_report_events_header(out[OUT_EVENTS].fp);
+    if (o.steps)
+        sw_report_steps_header(out[OUT_STEPS].fp);
+    if (o.by_month)
+        sw_report_months_header(out[OUT_MONTHS].fp);
+
+    show_progress = !o.quiet && isatty(STDERR_FILENO);
+    clock_gettime(CLOCK_MONOTONIC, &last);
+    while (!done) {
+        if ((rc = sw_stepper_advance(st, &done, &err)) != SW_OK)
+            goto fail;
+        if (interrupted)
+            goto stop;
+        if (!done) {
+            write_step(st, &site, out, o.steps, o.by_month);
+            steps++;
+        }
+        if (show_progress && (steps & 4095) == 0) {
+            clock_gettime(CLOCK_MONOTONIC, &now);
+            if (now.tv_sec - last.tv_sec >= 1) {
+                progress(st, &site, steps);
+                last = now;
+            }
+        }
+    }
+    if ((rc = sw_stepper_finish(st, &err)) != SW_OK)
+        goto fail;
+    write_step(st, &site, out, o.steps, o.by_month);
+    if (show_progress)
+        fputs("\r\033[K", stderr);
+
+    {
+        sw_time_ms t0, t1;
+        sw_stepper_span(st, &t0, &t1);
+        for (size_t i = 0; i < site.n_gates; i++)
+            sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
+                                  t0, t1, sw_stepper_tally(st, i), site.zone);
+    }
+    for (int k = 0; k < N_OUT; k++)
+        if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
+            goto fail;
+    if (interrupted)
+        goto stop;
+    for (int k = 0; k < N_OUT; k++)
+        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+            goto fail;
+
+    exit_code = SW_EXIT_OK;
+    for (size_t i = 0; i < site.n_gates; i++) {
+        const sw_tally *t = sw_stepper_tally(st, i);
+        sw_time_ms t0, t1;
+        sw_stepper_span(st, &t0, &t1);
+        if (t->low > 0 || t->open > 0)
+            exit_code = SW_EXIT_BELOW;
+        if (t->evaluated < t1 - t0 && !o.quiet) {
+            char h[24];
+            hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
+            fprintf(stderr, "sillwatch: warning: gate %s: %s h without level "
+                    "data were not evaluated; they are not counted as "
+                    "safe\n", site.gates[i].gate.name, h);
+        }
+    }
+    if (!o.quiet) {
+        print_summary(&site, st);
+        print_quality(&site, st);
+        printf("\noutputs in %s: summary.csv, events.csv%s%s\n", o.outdir,
+               o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "");
+        fputs(sw_cli_caution, stdout);
+    }
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+    return exit_code;
+
+stop:
+    if (show_progress)
+        fputs("\n", stderr);
+    fprintf(stderr, "sillwatch: run: interrupted; earlier outputs in %s are "
+                    "left as they were\n", o.outdir);
+    for (int k = 0; k < N_OUT; k++)
+        sw_outfile_abort(&out[k]);
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+    return 130;
+
+fail:
+    for (int k = 0; k < N_OUT; k++)
+        sw_outfile_abort(&out[k]);
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+    return sw_cli_report(&err);
+}

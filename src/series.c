@@ -1,0 +1,920 @@
+/* sillwatch: level series read from CSV files, streaming (see
+ * include/sillwatch/series.h).
+ *
+ * How a file is read:
+ *
+ *   1. Lines.  The file is read with fread into one buffer, 64 KiB at a
+ *      time; memchr finds each '\n'.  A line that does not fit is kept
+ *      across refills, the buffer growing up to 1 MiB, so the physical line
+ *      number of every line is known.  Trailing carriage returns are cut off
+ *      a line and its end handed to libcsv as a single '\n', so a CRLF line
+ *      is one record and a CR never ends up inside a field.
+ *   2. Records.  At a record boundary (not inside a quoted field) comment
+ *      lines ('#' first) and blank lines are skipped; any other line starts
+ *      a record at its line number.  libcsv gets one physical line per call,
+ *      strict (RFC 4180 quoting; an unterminated quote at the end of the
+ *      file is an error).  A quoted field may span lines: the record keeps
+ *      the line on which it began.
+ *   3. Fields.  libcsv reports neither positions nor field numbers, so the
+ *      field callback counts fields; only the time field and the value
+ *      fields are converted, right there, while libcsv's buffer is valid.
+ *      Nothing is allocated per record or per field.
+ *   4. The record.  When libcsv reports the end of a record, its shape is
+ *      checked, its instant resolved (time zone, repeated and skipped
+ *      hours), its order against the previous record checked, and only then
+ *      are its counts added to the statistics.
+ *
+ * Memory: the read buffer (64 KiB, up to 1 MiB + 64 KiB for long lines),
+ * libcsv's field buffer (bounded by the 1 MiB record limit), the header's
+ * names, and fixed-size per-column state.  Nothing grows with the file.
+ */
+#include "sillwatch/series.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <csv.h>
+
+#include "sillwatch/decimal.h"
+
+/* Bytes asked of fread at a time, and the first size of the buffer. */
+#define CHUNK_BYTES ((size_t)64 * 1024)
+
+/* The longest physical line (without its line end) and the longest record
+ * (a record may span lines through a quoted newline; line ends counted),
+ * in bytes.  A level file's lines are a few dozen bytes; these limits only
+ * stop a broken file (a binary file, a quote that never closes) from
+ * taking unbounded memory: the record limit bounds libcsv's field buffer. */
+#define LINE_MAX_BYTES ((size_t)1024 * 1024)
+#define RECORD_MAX_BYTES ((size_t)4 * 1024 * 1024)
+
+/* Readings beyond this magnitude, in the file's unit, are taken as logger
+ * fill values or corrupt numbers rather than water levels (common
+ * practice, no source: no gauge reads 100 km). */
+#define LEVEL_MAX_ABS 1e5
+
+/* What became of a value field of the record being read. */
+enum {
+    VALUE_VALID = 0,
+    VALUE_MISSING, /* empty, NaN or a missing token */
+    VALUE_REJECTED /* not a number, or not a plausible level */
+};
+
+/* What became of the time field of the record being read. */
+enum {
+    TIME_NONE = 0, /* not seen yet */
+    TIME_INSTANT,  /* an instant: rec_t */
+    TIME_LOCAL,    /* a local wall-clock time without offset: rec_wall */
+    TIME_BAD       /* unreadable: the message is in time_err */
+};
+
+/* One value column as the reader keeps it (copied from the caller's
+ * configuration, which need not outlive sw_reader_open). */
+typedef struct value_column {
+    char *name;
+    double scale;
+    double offset_m;
+    size_t n_missing;
+    char *missing[SW_SERIES_MAX_MISSING];
+    size_t missing_len[SW_SERIES_MAX_MISSING];
+    long field;       /* 1-based field number in the header */
+    int next;         /* next column reading the same field, or -1 */
+} value_column;
+
+struct sw_reader {
+    char *path;
+    FILE *fp;
+    struct csv_parser csv;
+    int csv_ready;
+    char delim;
+    sw_time_encoding time_format;
+    const sw_zone *zone;
+
+    /* columns */
+    size_t n_columns;
+    value_column col[SW_SERIES_MAX_COLUMNS];
+    size_t time_idx;   /* 0-based field index of the time column */
+    size_t n_header;   /* fields in the header */
+    size_t n_needed;   /* fields a record must have: last needed + 1 */
+    int *first_col;    /* per header field: first column reading it, -1 */
+
+    /* input */
+    char *buf;
+    size_t cap, pos, end;
+    int eof;
+    int started;       /* the first bytes were read (BOM checked) */
+    long line;         /* physical lines taken so far */
+
+    /* the record being read */
+    int in_record;     /* inside a record that spans lines */
+    int rec_done;      /* libcsv reported its end */
+    int stray_cr;      /* a CR inside a line ended a record */
+    size_t cr_fields;  /* fields seen when it did */
+    int nomem;         /* an allocation in a callback failed */
+    long rec_line;
+    size_t rec_bytes;
+    size_t rec_fields;
+    int time_state;
+    sw_time_ms rec_t, rec_wall;
+    sw_error time_err;
+    double val[SW_SERIES_MAX_COLUMNS];
+    unsigned char outcome[SW_SERIES_MAX_COLUMNS];
+    sw_reject rej[SW_SERIES_MAX_COLUMNS];
+
+    /* the header, while it is read */
+    char *hdr;         /* names, each NUL-terminated, trimmed */
+    size_t hdr_len, hdr_cap;
+    size_t *hdr_off;
+    size_t hdr_n, hdr_n_cap;
+
+    /* the previous record handed out */
+    int has_prev;
+    sw_time_ms prev_t;
+    long prev_line;
+    double prev_val[SW_SERIES_MAX_COLUMNS];
+
+    int done;          /* end of file reached */
+    int failed;        /* status of an earlier error, SW_OK if none */
+    sw_error saved;    /* that error, handed out again */
+    sw_reader_stats stats;
+};
+
+/* ---- small helpers ------------------------------------------------------ */
+
+static int is_blank(char c)
+{
+    return c == ' ' || c == '\t';
+}
+
+static void trim(const char **s, size_t *len)
+{
+    const char *p = *s;
+    size_t n = *len;
+
+    while (n > 0 && is_blank(*p)) {
+        p++;
+        n--;
+    }
+    while (n > 0 && (is_blank(p[n - 1]) || p[n - 1] == '\r'))
+        n--;
+    *s = p;
+    *len = n;
+}
+
+static char *copy_string(const char *s)
+{
+    size_t n = strlen(s) + 1;
+    char *c = malloc(n);
+
+    if (c != NULL)
+        memcpy(c, s, n);
+    return c;
+}
+
+/* Text for quoting in a message: at most 64 bytes of it. */
+static int quote_len(size_t len)
+{
+    return len > 64 ? 64 : (int)len;
+}
+
+static const char *delim_name(char d)
+{
+    return d == ';' ? "';'" : d == '\t' ? "tab" : "','";
+}
+
+/* An error at a position of this file. */
+static int fail_at(const sw_reader *r, sw_error *err, int code, long line,
+                   long column, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 6, 7)))
+#endif
+    ;
+
+static int fail_at(const sw_reader *r, sw_error *err, int code, long line,
+                   long column, const char *fmt, ...)
+{
+    char msg[SW_ERROR_MSG_MAX];
+    va_list ap;
+
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    return sw_error_set(err, code, r->path, line, column, "%s", msg);
+}
+
+/* ---- lines -------------------------------------------------------------- */
+
+/* Take the next physical line: *line and *len (with its '\n' if it has
+ * one; *has_nl says which).  *len is 0 at the end of the file.  Reads more
+ * of the file when the buffer holds no complete line. */
+static int next_line(sw_reader *r, char **line, size_t *len, int *has_nl,
+                     sw_error *err)
+{
+    for (;;) {
+        char *start = r->buf + r->pos;
+        size_t avail = r->end - r->pos;
+        char *nl = memchr(start, '\n', avail);
+        size_t got;
+
+        if (nl != NULL) {
+            *line = start;
+            *len = (size_t)(nl - start) + 1;
+            *has_nl = 1;
+            r->pos += *len;
+            return SW_OK;
+        }
+        if (avail > LINE_MAX_BYTES)
+            return fail_at(r, err, SW_EDATA, r->line + 1, 0,
+                           "line longer than 1 MiB (is this a level "
+                           "file?)");
+        if (r->eof) {
+            *line = start;
+            *len = avail;
+            *has_nl = 0;
+            r->pos = r->end;
+            return SW_OK;
+        }
+        /* Keep the partial line, at the start of the buffer. */
+        if (r->pos > 0) {
+            memmove(r->buf, start, avail);
+            r->pos = 0;
+            r->end = avail;
+        }
+        if (r->end == r->cap) {
+            size_t cap = r->cap * 2;
+            char *grown;
+
+            if (cap > LINE_MAX_BYTES + CHUNK_BYTES)
+                cap = LINE_MAX_BYTES + CHUNK_BYTES;
+            grown = realloc(r->buf, cap);
+            if (grown == NULL)
+                return sw_error_set(err, SW_ENOMEM, r->path, r->line + 1, 0,
+                                    "out of memory reading a long line");
+            r->buf = grown;
+            r->cap = cap;
+        }
+        got = fread(r->buf + r->end, 1, r->cap - r->end, r->fp);
+        if (got < r->cap - r->end) {
+            if (ferror(r->fp))
+                return fail_at(r, err, SW_EDATA, r->line + 1, 0,
+                               "read error: %s", strerror(errno));
+            r->eof = 1;
+        }
+        r->end += got;
+        /* A UTF-8 byte-order mark is no part of the first line. */
+        if (!r->started && r->end > 0) {
+            r->started = 1;
+            if (r->end >= 3 && memcmp(r->buf, "\xEF\xBB\xBF", 3) == 0)
+                r->pos = 3;
+        }
+    }
+}
+
+/* A line that is no record when it comes at a record boundary: a comment
+ * ('#' first) or a blank line (only blanks and line-end characters). */
+static int is_skipped_line(const char *s, size_t len)
+{
+    if (s[0] == '#')
+        return 1;
+    for (size_t i = 0; i < len; i++)
+        if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r' && s[i] != '\n')
+            return 0;
+    return 1;
+}
+
+/* The delimiter of a header line: the most frequent of ',' ';' and tab
+ * outside quotes; ',' on a tie or when there is none. */
+static char detect_delimiter(const char *s, size_t len)
+{
+    size_t comma = 0, semi = 0, tab = 0;
+    int quoted = 0;
+
+    for (size_t i = 0; i < len; i++) {
+        char c = s[i];
+        if (c == '"')
+            quoted = !quoted;
+        else if (quoted)
+            continue;
+        else if (c == ',')
+            comma++;
+        else if (c == ';')
+            semi++;
+        else if (c == '\t')
+            tab++;
+    }
+    if (semi > comma && semi > tab)
+        return ';';
+    if (tab > comma && tab > semi)
+        return '\t';
+    return ',';
+}
+
+/* ---- libcsv callbacks --------------------------------------------------- */
+
+static void on_row(int c, void *data)
+{
+    sw_reader *r = data;
+
+    /* Line ends reach libcsv as '\n' (or -1 from csv_fini); a CR that ends
+     * a record came from the middle of a line. */
+    if (c == '\r' && !r->stray_cr) {
+        r->stray_cr = 1;
+        r->cr_fields = r->rec_fields;
+    }
+    r->rec_done = 1;
+}
+
+static void on_header_field(void *s, size_t len, void *data)
+{
+    sw_reader *r = data;
+    const char *text = s;
+
+    if (r->nomem)
+        return;
+    trim(&text, &len);
+    if (r->hdr_n == r->hdr_n_cap) {
+        size_t n = r->hdr_n_cap ? 2 * r->hdr_n_cap : 16;
+        size_t *off = realloc(r->hdr_off, n * sizeof *off);
+        if (off == NULL) {
+            r->nomem = 1;
+            return;
+        }
+        r->hdr_off = off;
+        r->hdr_n_cap = n;
+    }
+    if (r->hdr_cap - r->hdr_len < len + 1) {
+        size_t n = 2 * (r->hdr_cap + len + 1);
+        char *h = realloc(r->hdr, n);
+        if (h == NULL) {
+            r->nomem = 1;
+            return;
+        }
+        r->hdr = h;
+        r->hdr_cap = n;
+    }
+    r->hdr_off[r->hdr_n++] = r->hdr_len;
+    if (len > 0)
+        memcpy(r->hdr + r->hdr_len, text, len);
+    r->hdr[r->hdr_len + len] = '\0';
+    r->hdr_len += len + 1;
+    r->rec_fields++;
+}
+
+static void take_time(sw_reader *r, const char *s, size_t len)
+{
+    sw_stamp st;
+
+    if (r->time_format == SW_TIME_UNIX) {
+        if (sw_unix_parse(s, len, &r->rec_t, &r->time_err) != SW_OK)
+            r->time_state = TIME_BAD;
+        else
+            r->time_state = TIME_INSTANT;
+        return;
+    }
+    if (sw_stamp_parse(s, len, &st, &r->time_err) != SW_OK) {
+        r->time_state = TIME_BAD;
+    } else if (st.has_offset) {
+        /* The offset is east positive: UTC = wall - offset (ISO 8601). */
+        r->rec_t = st.wall_ms - (sw_time_ms)st.offset_s * SW_MS_PER_S;
+        r->time_state = TIME_INSTANT;
+    } else if (r->zone != NULL) {
+        r->rec_wall = st.wall_ms;
+        r->time_state = TIME_LOCAL;
+    } else {
+        trim(&s, &len);
+        sw_error_set(&r->time_err, SW_EDATA, NULL, 0, 0,
+                     "timestamp '%.*s' has no UTC offset and the site sets "
+                     "no timezone (add one to the stamps, or set timezone "
+                     "in the site file)", quote_len(len), s);
+        r->time_state = TIME_BAD;
+    }
+}
+
+static void reject_value(sw_reader *r, int c, const char *s, size_t len,
+                         const char *reason)
+{
+    sw_reject *rj = &r->rej[c];
+    size_t n = len < sizeof rj->text - 1 ? len : sizeof rj->text - 1;
+
+    r->val[c] = NAN;
+    r->outcome[c] = VALUE_REJECTED;
+    rj->line = r->rec_line;
+    rj->column = r->col[c].field;
+    memcpy(rj->text, s, n);
+    rj->text[n] = '\0';
+    rj->reason = reason;
+}
+
+static void take_value(sw_reader *r, int c, const char *s, size_t len)
+{
+    const value_column *col = &r->col[c];
+    double v;
+
+    trim(&s, &len);
+    if (len == 0 ||
+        (len == 3 && (memcmp(s, "NaN", 3) == 0 || memcmp(s, "nan", 3) == 0 ||
+                      memcmp(s, "NAN", 3) == 0))) {
+        r->val[c] = NAN;
+        r->outcome[c] = VALUE_MISSING;
+        return;
+    }
+    for (size_t k = 0; k < col->n_missing; k++) {
+        if (col->missing_len[k] == len && memcmp(col->missing[k], s, len) == 0) {
+            r->val[c] = NAN;
+            r->outcome[c] = VALUE_MISSING;
+            return;
+        }
+    }
+    if (sw_decimal_parse(s, len, r->delim == ';', &v) != 0) {
+        reject_value(r, c, s, len, "not a number");
+    } else if (!isfinite(v) || fabs(v) > LEVEL_MAX_ABS) {
+        reject_value(r, c, s, len, "implausible level (|value| > 100000)");
+    } else {
+        r->val[c] = v * col->scale + col->offset_m;
+        r->outcome[c] = VALUE_VALID;
+    }
+}
+
+static void on_field(void *s, size_t len, void *data)
+{
+    sw_reader *r = data;
+    size_t f = r->rec_fields++;
+
+    if (f == r->time_idx)
+        take_time(r, s, len);
+    if (f < r->n_header)
+        for (int c = r->first_col[f]; c >= 0; c = r->col[c].next)
+            take_value(r, c, s, len);
+}
+
+/* ---- records ------------------------------------------------------------ */
+
+/* Read lines until libcsv ends a record (*got = 1) or the file ends
+ * (*got = 0), with `field_cb` called for each field. */
+static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
+                       int *got, sw_error *err)
+{
+    *got = 0;
+    r->rec_done = 0;
+    for (;;) {
+        char *s = NULL;
+        size_t len = 0, feed;
+        int has_nl = 0, rc;
+
+        if ((rc = next_line(r, &s, &len, &has_nl, err)) != SW_OK)
+            return rc;
+        if (len == 0) {
+            /* Every line fed ended in '\n', so a record still open is one
+             * whose quoted field never closed. */
+            if (r->in_record)
+                return fail_at(r, err, SW_EDATA, r->rec_line,
+                               (long)r->rec_fields + 1,
+                               "unterminated quote: field %zu of the record "
+                               "that begins here has no closing quote",
+                               r->rec_fields + 1);
+            return SW_OK;
+        }
+        r->line++;
+        if (!r->in_record) {
+            if (is_skipped_line(s, len))
+                continue;
+            if (r->delim == 0) {
+                r->delim = detect_delimiter(s, len);
+                csv_set_delim(&r->csv, (unsigned char)r->delim);
+            }
+            r->in_record = 1;
+            r->rec_line = r->line;
+            r->rec_bytes = 0;
+            r->rec_fields = 0;
+            r->time_state = TIME_NONE;
+            r->stray_cr = 0;
+        }
+        r->rec_bytes += len;
+        if (r->rec_bytes > RECORD_MAX_BYTES)
+            return fail_at(r, err, SW_EDATA, r->rec_line,
+                           (long)r->rec_fields + 1,
+                           "the record that begins here is longer than "
+                           "4 MiB; is a quote in field %zu left open?",
+                           r->rec_fields + 1);
+
+        /* Cut the line end (LF, CRLF, or stray CRs before the LF) and hand
+         * libcsv a single '\n' in its place. */
+        feed = len - (size_t)has_nl;
+        while (feed > 0 && s[feed - 1] == '\r')
+            feed--;
+        if (has_nl)
+            s[feed++] = '\n';
+        if (csv_parse(&r->csv, s, feed, field_cb, on_row, r) != feed) {
+            if (csv_error(&r->csv) == CSV_EPARSE)
+                return fail_at(r, err, SW_EDATA, r->line,
+                               (long)r->rec_fields + 1,
+                               "misplaced quote in field %zu: a field is "
+                               "either quoted as a whole (\"...\", with \"\" "
+                               "for a quote inside) or holds no quote "
+                               "(RFC 4180)", r->rec_fields + 1);
+            return sw_error_set(err, SW_ENOMEM, r->path, r->line, 0,
+                                "out of memory (%s)",
+                                csv_strerror(csv_error(&r->csv)));
+        }
+        if (!has_nl && !r->rec_done &&
+            csv_fini(&r->csv, field_cb, on_row, r) != 0)
+            return fail_at(r, err, SW_EDATA, r->rec_line,
+                           (long)r->rec_fields + 1,
+                           "unterminated quote: field %zu of the record "
+                           "that begins here has no closing quote",
+                           r->rec_fields + 1);
+        if (r->nomem)
+            return sw_error_set(err, SW_ENOMEM, r->path, r->line, 0,
+                                "out of memory reading the header");
+        if (r->stray_cr)
+            return fail_at(r, err, SW_EDATA, r->line, (long)r->cr_fields,
+                           "a carriage return (CR) in the middle of the "
+                           "line, outside quotes, splits the record; give "
+                           "the file LF or CRLF line ends");
+        if (r->rec_done) {
+            r->in_record = 0;
+            *got = 1;
+            return SW_OK;
+        }
+    }
+}
+
+/* Compare two readings: equal numbers, or both missing. */
+static int same_value(double a, double b)
+{
+    return a == b || (isnan(a) && isnan(b));
+}
+
+/* Check the record libcsv has just ended and settle its instant.  *keep
+ * is 1 when it is to be handed out, 0 when it is skipped (an exact
+ * duplicate, or a local time in a skipped hour). */
+static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
+                         sw_error *err)
+{
+    sw_reader_stats *st = &r->stats;
+    long time_col = (long)r->time_idx + 1;
+    sw_time_ms t;
+    char a[48], b[48];
+
+    *keep = 0;
+    st->records++;
+    if (r->rec_fields < r->n_needed)
+        return fail_at(r, err, SW_EDATA, r->rec_line, (long)r->rec_fields + 1,
+                       "this record has %zu field%s but the header has %zu "
+                       "(a ragged line: a delimiter or a field missing?)",
+                       r->rec_fields, r->rec_fields == 1 ? "" : "s",
+                       r->n_header);
+    if (r->rec_fields > r->n_header)
+        return fail_at(r, err, SW_EDATA, r->rec_line, (long)r->n_header + 1,
+                       "this record has %zu fields but the header has only "
+                       "%zu (delimiter %s; is a field with a delimiter in "
+                       "it left unquoted?)", r->rec_fields, r->n_header,
+                       delim_name(r->delim));
+    if (r->time_state == TIME_BAD)
+        return fail_at(r, err, SW_EDATA, r->rec_line, time_col, "%s",
+                       r->time_err.message);
+
+    if (r->time_state == TIME_LOCAL) {
+        sw_time_ms utc[2];
+        int n = sw_zone_local_to_utc(r->zone, r->rec_wall, utc);
+
+        if (n == 0) {
+            /* A wall-clock time in the hour skipped when daylight saving
+             * starts names no instant: the record cannot be placed. */
+            if (st->time_rejected++ == 0)
+                st->first_time_rejected_line = r->rec_line;
+            return SW_OK;
+        }
+        t = utc[0];
+        if (n == 2) {
+            /* A repeated hour (daylight saving ends): the logger went on
+             * in time order, so the earliest reading later than the
+             * previous record is the one meant. */
+            if (r->has_prev && utc[0] > r->prev_t) {
+                st->ambiguous++;
+            } else if (r->has_prev && utc[1] > r->prev_t) {
+                t = utc[1];
+                st->ambiguous++;
+            } else if (st->unresolved++ == 0) {
+                st->first_unresolved_line = r->rec_line;
+            }
+        }
+    } else {
+        t = r->rec_t;
+    }
+
+    if (r->has_prev && t <= r->prev_t) {
+        if (t < r->prev_t) {
+            sw_time_format(a, sizeof a, t, r->zone);
+            sw_time_format(b, sizeof b, r->prev_t, r->zone);
+            return fail_at(r, err, SW_EDATA, r->rec_line, time_col,
+                           "time goes backwards: %s is before %s on line "
+                           "%ld (records must be in time order)", a, b,
+                           r->prev_line);
+        }
+        for (size_t c = 0; c < r->n_columns; c++) {
+            if (!same_value(r->val[c], r->prev_val[c])) {
+                sw_time_format(a, sizeof a, t, r->zone);
+                return fail_at(r, err, SW_EDATA, r->rec_line, r->col[c].field,
+                               "duplicate time %s with a different value "
+                               "(line %ld has %s = %.10g m, this line %.10g "
+                               "m)", a, r->prev_line, r->col[c].name,
+                               r->prev_val[c], r->val[c]);
+            }
+        }
+        if (st->duplicates++ == 0)
+            st->first_duplicate_line = r->rec_line;
+        return SW_OK;
+    }
+
+    for (size_t c = 0; c < r->n_columns; c++) {
+        sw_column_stats *cs = &st->column[c];
+
+        switch (r->outcome[c]) {
+        case VALUE_VALID:
+            cs->valid++;
+            break;
+        case VALUE_MISSING:
+            cs->missing++;
+            break;
+        default:
+            cs->rejected++;
+            if (cs->n_kept < SW_SERIES_REJECTS_KEPT)
+                cs->kept[cs->n_kept++] = r->rej[c];
+            break;
+        }
+        r->prev_val[c] = r->val[c];
+    }
+    if (!r->has_prev)
+        st->first_t = t;
+    st->last_t = t;
+    r->has_prev = 1;
+    r->prev_t = t;
+    r->prev_line = r->rec_line;
+    *t_out = t;
+    *keep = 1;
+    return SW_OK;
+}
+
+/* ---- opening ------------------------------------------------------------ */
+
+/* The header's names, quoted and listed, for a message. */
+static void list_header(const sw_reader *r, char *out, size_t n)
+{
+    size_t used = 0;
+
+    out[0] = '\0';
+    for (size_t i = 0; i < r->hdr_n; i++) {
+        int w = snprintf(out + used, n - used, "%s'%s'", i ? ", " : "",
+                         r->hdr + r->hdr_off[i]);
+        if (w < 0 || (size_t)w >= n - used) {
+            if (n > 5)
+                memcpy(out + n - 5, "...", 4);
+            return;
+        }
+        used += (size_t)w;
+    }
+}
+
+/* Find `name` (trimmed) in the header; *idx is its 0-based field index. */
+static int find_column(const sw_reader *r, const char *what,
+                       const char *name, size_t *idx, sw_error *err)
+{
+    const char *s = name;
+    size_t len = strlen(name), found = 0;
+    char list[320];
+
+    trim(&s, &len);
+    for (size_t i = 0; i < r->hdr_n; i++) {
+        const char *h = r->hdr + r->hdr_off[i];
+        if (strlen(h) == len && memcmp(h, s, len) == 0) {
+            if (found++ == 0) {
+                *idx = i;
+            } else {
+                return fail_at(r, err, SW_EDATA, r->rec_line, (long)i + 1,
+                               "%s column '%.*s' appears twice in the "
+                               "header (fields %zu and %zu); rename one",
+                               what, quote_len(len), s, *idx + 1, i + 1);
+            }
+        }
+    }
+    if (found == 0) {
+        list_header(r, list, sizeof list);
+        return fail_at(r, err, SW_EDATA, r->rec_line, 0,
+                       "%s column '%.*s' is not in the header (delimiter "
+                       "%s); the header has: %s", what, quote_len(len), s,
+                       delim_name(r->delim), list);
+    }
+    return SW_OK;
+}
+
+/* Copy the caller's configuration into the reader. */
+static int copy_config(sw_reader *r, const sw_reader_config *cfg,
+                       const sw_column_config *columns, size_t n_columns,
+                       sw_error *err)
+{
+    if (cfg->path == NULL || cfg->time_column == NULL ||
+        (n_columns > 0 && columns == NULL))
+        return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
+                            "sw_reader_open: path, time column or columns "
+                            "not given");
+    if (n_columns > SW_SERIES_MAX_COLUMNS)
+        return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
+                            "%zu value columns asked of one file; a reader "
+                            "serves at most %d", n_columns,
+                            SW_SERIES_MAX_COLUMNS);
+    if (cfg->delimiter != 0 && cfg->delimiter != ',' &&
+        cfg->delimiter != ';' && cfg->delimiter != '\t')
+        return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
+                            "delimiter must be ',', ';' or tab");
+    if ((r->path = copy_string(cfg->path)) == NULL)
+        return sw_error_set(err, SW_ENOMEM, cfg->path, 0, 0, "out of memory");
+    r->time_format = cfg->time_format;
+    r->zone = cfg->zone;
+    r->delim = cfg->delimiter;
+    r->n_columns = n_columns;
+    for (size_t c = 0; c < n_columns; c++) {
+        const sw_column_config *cc = &columns[c];
+        value_column *vc = &r->col[c];
+
+        if (cc->name == NULL || cc->n_missing > SW_SERIES_MAX_MISSING ||
+            !isfinite(cc->scale) || !(cc->scale > 0) ||
+            !isfinite(cc->offset_m))
+            return sw_error_set(err, SW_EINTERNAL, r->path, 0, 0,
+                                "value column %zu is not configured (name, "
+                                "a positive scale, a finite offset)", c + 1);
+        if ((vc->name = copy_string(cc->name)) == NULL)
+            return sw_error_set(err, SW_ENOMEM, r->path, 0, 0,
+                                "out of memory");
+        vc->scale = cc->scale;
+        vc->offset_m = cc->offset_m;
+        for (size_t k = 0; k < cc->n_missing; k++) {
+            const char *tok = cc->missing[k] != NULL ? cc->missing[k] : "";
+            size_t len = strlen(tok);
+
+            /* Fields are compared trimmed; so are the tokens. */
+            trim(&tok, &len);
+            if ((vc->missing[k] = malloc(len + 1)) == NULL)
+                return sw_error_set(err, SW_ENOMEM, r->path, 0, 0,
+                                    "out of memory");
+            memcpy(vc->missing[k], tok, len);
+            vc->missing[k][len] = '\0';
+            vc->missing_len[k] = len;
+            vc->n_missing++;
+        }
+    }
+    return SW_OK;
+}
+
+int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
+                   const sw_column_config *columns, size_t n_columns,
+                   sw_error *err)
+{
+    sw_reader *r;
+    size_t idx, last;
+    int got, rc;
+
+    sw_error_clear(err);
+    *reader = NULL;
+    if ((r = calloc(1, sizeof *r)) == NULL)
+        return sw_error_set(err, SW_ENOMEM, cfg ? cfg->path : NULL, 0, 0,
+                            "out of memory");
+    if (cfg == NULL) {
+        rc = sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
+                          "sw_reader_open: no configuration");
+        goto cleanup;
+    }
+    if ((rc = copy_config(r, cfg, columns, n_columns, err)) != SW_OK)
+        goto cleanup;
+    if ((r->fp = fopen(r->path, "rb")) == NULL) {
+        rc = fail_at(r, err, SW_EDATA, 0, 0, "cannot open the level file: %s",
+                     strerror(errno));
+        goto cleanup;
+    }
+    if ((r->buf = malloc(CHUNK_BYTES)) == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+        goto cleanup;
+    }
+    r->cap = CHUNK_BYTES;
+    csv_init(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
+    r->csv_ready = 1;
+    if (r->delim != 0)
+        csv_set_delim(&r->csv, (unsigned char)r->delim);
+
+    if ((rc = read_record(r, on_header_field, &got, err)) != SW_OK)
+        goto cleanup;
+    if (!got) {
+        rc = fail_at(r, err, SW_EDATA, 0, 0, "%s", r->line == 0
+                     ? "the level file is empty; it needs a header row and "
+                       "data rows"
+                     : "the level file has no header row, only comments "
+                       "and blank lines");
+        goto cleanup;
+    }
+    r->n_header = r->hdr_n;
+
+    if ((rc = find_column(r, "time", cfg->time_column, &r->time_idx, err))
+        != SW_OK)
+        goto cleanup;
+    last = r->time_idx;
+    if ((r->first_col = malloc(r->n_header * sizeof *r->first_col)) == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+        goto cleanup;
+    }
+    for (size_t i = 0; i < r->n_header; i++)
+        r->first_col[i] = -1;
+    /* Columns reading the same field are chained, in reverse order. */
+    for (size_t c = 0; c < n_columns; c++) {
+        if ((rc = find_column(r, "value", r->col[c].name, &idx, err)) != SW_OK)
+            goto cleanup;
+        r->col[c].field = (long)idx + 1;
+        r->col[c].next = r->first_col[idx];
+        r->first_col[idx] = (int)c;
+        if (idx > last)
+            last = idx;
+    }
+    r->n_needed = last + 1;
+
+    /* The names are no longer needed. */
+    free(r->hdr);
+    free(r->hdr_off);
+    r->hdr = NULL;
+    r->hdr_off = NULL;
+    *reader = r;
+    return SW_OK;
+
+cleanup:
+    sw_reader_free(r);
+    return rc;
+}
+
+/* ---- reading ------------------------------------------------------------ */
+
+int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
+                   double *values, sw_error *err)
+{
+    sw_reader *r = reader;
+    int got, keep, rc;
+
+    *has_row = 0;
+    if (r->failed != SW_OK) {
+        if (err != NULL)
+            *err = r->saved;
+        return r->failed;
+    }
+    while (!r->done) {
+        rc = read_record(r, on_field, &got, &r->saved);
+        if (rc == SW_OK && got)
+            rc = finish_record(r, &keep, t, &r->saved);
+        if (rc != SW_OK) {
+            r->failed = rc;
+            if (err != NULL)
+                *err = r->saved;
+            return rc;
+        }
+        if (!got) {
+            r->done = 1;
+        } else if (keep) {
+            for (size_t c = 0; c < r->n_columns; c++)
+                values[c] = r->val[c];
+            *has_row = 1;
+            return SW_OK;
+        }
+    }
+    return SW_OK;
+}
+
+const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader)
+{
+    return &reader->stats;
+}
+
+char sw_reader_delimiter(const sw_reader *reader)
+{
+    return reader->delim;
+}
+
+void sw_reader_free(sw_reader *reader)
+{
+    if (reader == NULL)
+        return;
+    if (reader->fp != NULL)
+        fclose(reader->fp);
+    if (reader->csv_ready)
+        csv_free(&reader->csv);
+    for (size_t c = 0; c < SW_SERIES_MAX_COLUMNS; c++) {
+        free(reader->col[c].name);
+        for (size_t k = 0; k < reader->col[c].n_missing; k++)
+            free(reader->col[c].missing[k]);
+    }
+    free(reader->first_col);
+    free(reader->hdr);
+    free(reader->hdr_off);
+    free(reader->buf);
+    free(reader->path);
+    free(reader);
+}

@@ -1,0 +1,753 @@
+/* sillwatch: the stepping engine (see include/sillwatch/stepper.h).
+ *
+ * Data flow: the readers (one per CSV file) are read in time order, one
+ * record at a time, each reader holding one record ahead.  A record's valid
+ * values go to the FIFO of their series, and its time to the FIFO of
+ * timeline points.  The oldest interval [T0, T1] of the timeline is
+ * evaluated as soon as every series in use knows whether it has a sample at
+ * or after T1 within max_gap of its last sample at or before T0; until then
+ * more records are read.  So the FIFOs hold at most max_gap of data.
+ *
+ * Within an interval both levels of a gate are linear in time.  The state
+ * is settled on a piece [a, b] when both ends agree and a bound on how far
+ * the margins can move between them (sw_gate_margin_slopes times the
+ * change of each level) shows that neither margin can cross zero inside;
+ * otherwise the piece is halved, down to one second, where the worse of
+ * the two end states is taken (a conservative one-second resolution).
+ */
+#include "sillwatch/stepper.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define RESOLUTION_MS 1000 /* state changes are located to this */
+#define MAX_DEPTH 64       /* bisection stack; 2^64 ms is never reached */
+
+typedef struct sample {
+    sw_time_ms t;
+    double v;
+} sample;
+
+/* A ring buffer of samples or of times, growing by doubling. */
+typedef struct ring {
+    sample *items;
+    size_t head, count, cap;
+} ring;
+
+typedef struct series_state {
+    const sw_site_series *def;
+    size_t reader, column;  /* where its values come from */
+    ring fifo;              /* valid samples read, not yet passed */
+    int have_prev;
+    sample prev;            /* last valid sample at or before T0 */
+    int have_last;
+    sw_time_ms last_t;      /* last valid sample read (gap counting) */
+    int known;              /* known over the interval being settled */
+    sw_gap_stats gaps;
+} series_state;
+
+typedef struct reader_state {
+    sw_reader *rd;
+    const sw_site_series *first; /* the series that opened it */
+    size_t n_cols;
+    size_t series_of[SW_SERIES_MAX_COLUMNS];
+    int pending;                /* a record is held */
+    sw_time_ms t;
+    double v[SW_SERIES_MAX_COLUMNS];
+} reader_state;
+
+/* A gate evaluated at one instant. */
+typedef struct point {
+    sw_time_ms t;
+    sw_gate_result r;
+    double open_m, alarm_m;
+    int state;
+} point;
+
+typedef struct gate_state {
+    const sw_gate *gate;
+    size_t hw, tw;           /* series indices */
+    double k_hw, k_tw;       /* margin slope bounds */
+    int last_known;          /* the previous interval was known ... */
+    point last;              /* ... and this is its right end */
+    int in_event;
+    sw_event ev;
+    sw_tally run, month;
+    int month_yyyymm;
+    sw_time_ms month_start, month_next;
+    int month_open;
+    sw_step_gate at;
+} gate_state;
+
+struct sw_stepper {
+    const sw_site *site;
+    sw_stepper_options opt;
+    size_t n_readers, n_series, n_gates;
+    reader_state *readers;
+    series_state *series;
+    gate_state *gates;
+    ring timeline;           /* times in .t; .v unused */
+    int started;
+    sw_time_ms span_start, span_end, now;
+    long long evaluations;
+    sw_event *events;
+    size_t n_events, cap_events;
+    sw_month_row *months;
+    size_t n_months, cap_months;
+};
+
+/* ---- small containers --------------------------------------------------- */
+
+static int ring_push(ring *q, sample s)
+{
+    if (q->count == q->cap) {
+        size_t cap = q->cap ? 2 * q->cap : 64;
+        sample *items = malloc(cap * sizeof *items);
+        if (items == NULL)
+            return -1;
+        for (size_t i = 0; i < q->count; i++)
+            items[i] = q->items[(q->head + i) % q->cap];
+        free(q->items);
+        q->items = items;
+        q->head = 0;
+        q->cap = cap;
+    }
+    q->items[(q->head + q->count) % q->cap] = s;
+    q->count++;
+    return 0;
+}
+
+static const sample *ring_at(const ring *q, size_t i)
+{
+    return &q->items[(q->head + i) % q->cap];
+}
+
+static sample ring_pop(ring *q)
+{
+    sample s = q->items[q->head];
+    q->head = (q->head + 1) % q->cap;
+    q->count--;
+    return s;
+}
+
+static int nomem(sw_error *err)
+{
+    return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                        "out of memory while stepping through the levels");
+}
+
+static int push_event(sw_stepper *st, const sw_event *ev, sw_error *err)
+{
+    if (st->n_events == st->cap_events) {
+        size_t cap = st->cap_events ? 2 * st->cap_events : 16;
+        sw_event *grown = realloc(st->events, cap * sizeof *grown);
+        if (grown == NULL)
+            return nomem(err);
+        st->events = grown;
+        st->cap_events = cap;
+    }
+    st->events[st->n_events++] = *ev;
+    return SW_OK;
+}
+
+/* ---- setup -------------------------------------------------------------- */
+
+static int same_file(const sw_site_series *a, const sw_site_series *b)
+{
+    return strcmp(a->path, b->path) == 0 &&
+           strcmp(a->time_column, b->time_column) == 0 &&
+           a->time_format == b->time_format && a->delimiter == b->delimiter;
+}
+
+/* The index of series `name` in use, adding it (and its reader) if new. */
+static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
+{
+    for (size_t i = 0; i < st->n_series; i++)
+        if (st->series[i].def == def) {
+            *index = i;
+            return 0;
+        }
+    size_t r;
+    for (r = 0; r < st->n_readers; r++)
+        if (same_file(st->readers[r].first, def) &&
+            st->readers[r].n_cols < SW_SERIES_MAX_COLUMNS)
+            break;
+    if (r == st->n_readers) {
+        st->readers[r].first = def;
+        st->n_readers++;
+    }
+    series_state *s = &st->series[st->n_series];
+    s->def = def;
+    s->reader = r;
+    s->column = st->readers[r].n_cols;
+    st->readers[r].series_of[st->readers[r].n_cols++] = st->n_series;
+    *index = st->n_series++;
+    return 0;
+}
+
+static int read_record(reader_state *rs, sw_error *err)
+{
+    int has_row = 0;
+    int rc = sw_reader_next(rs->rd, &has_row, &rs->t, rs->v, err);
+    if (rc != SW_OK)
+        return rc;
+    rs->pending = has_row;
+    return SW_OK;
+}
+
+static int open_readers(sw_stepper *st, sw_error *err)
+{
+    for (size_t r = 0; r < st->n_readers; r++) {
+        reader_state *rs = &st->readers[r];
+        sw_column_config cols[SW_SERIES_MAX_COLUMNS];
+        sw_reader_config cfg;
+        memset(cols, 0, sizeof cols);
+        cfg.path = rs->first->path;
+        cfg.time_column = rs->first->time_column;
+        cfg.time_format = rs->first->time_format;
+        cfg.delimiter = rs->first->delimiter;
+        cfg.zone = st->site->zone;
+        for (size_t c = 0; c < rs->n_cols; c++) {
+            const sw_site_series *d = st->series[rs->series_of[c]].def;
+            cols[c].name = d->value_column;
+            cols[c].scale = d->scale;
+            cols[c].offset_m = d->offset_m;
+            cols[c].n_missing = d->n_missing;
+            for (size_t k = 0; k < d->n_missing; k++)
+                cols[c].missing[k] = d->missing[k];
+        }
+        int rc = sw_reader_open(&rs->rd, &cfg, cols, rs->n_cols, err);
+        if (rc != SW_OK)
+            return rc;
+        if ((rc = read_record(rs, err)) != SW_OK)
+            return rc;
+    }
+    return SW_OK;
+}
+
+int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
+                     const sw_stepper_options *opt, sw_error *err)
+{
+    sw_stepper *st = calloc(1, sizeof *st);
+    int rc = SW_OK;
+
+    *out = NULL;
+    if (st == NULL)
+        return nomem(err);
+    st->site = site;
+    if (opt != NULL)
+        st->opt = *opt;
+    st->n_gates = site->n_gates;
+    st->gates = calloc(site->n_gates ? site->n_gates : 1, sizeof *st->gates);
+    st->series = calloc(2 * site->n_gates + 1, sizeof *st->series);
+    st->readers = calloc(2 * site->n_gates + 1, sizeof *st->readers);
+    if (st->gates == NULL || st->series == NULL || st->readers == NULL) {
+        rc = nomem(err);
+        goto cleanup;
+    }
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_site_gate *sg = &site->gates[i];
+        gate_state *g = &st->gates[i];
+        const sw_site_series *h = sw_site_find_series(site, sg->headwater);
+        const sw_site_series *t = sw_site_find_series(site, sg->tailwater);
+        if (h == NULL || t == NULL) {
+            rc = sw_error_set(err, SW_ESITE, site->path, sg->line, 0,
+                              "gate '%s' has no %s series: give it "
+                              "'headwater = NAME' and 'tailwater = NAME' "
+                              "naming [series NAME] sections",
+                              sg->gate.name,
+                              h == NULL ? "headwater" : "tailwater");
+            goto cleanup;
+        }
+        g->gate = &sg->gate;
+        use_series(st, h, &g->hw);
+        use_series(st, t, &g->tw);
+        sw_gate_margin_slopes(g->gate, &g->k_hw, &g->k_tw);
+        g->run.min_fs = INFINITY;
+        g->month.min_fs = INFINITY;
+    }
+    if ((rc = open_readers(st, err)) != SW_OK)
+        goto cleanup;
+    *out = st;
+    return SW_OK;
+cleanup:
+    sw_stepper_free(st);
+    return rc;
+}
+
+void sw_stepper_free(sw_stepper *st)
+{
+    if (st == NULL)
+        return;
+    for (size_t r = 0; r < st->n_readers; r++)
+        sw_reader_free(st->readers[r].rd);
+    for (size_t i = 0; i < st->n_series; i++)
+        free(st->series[i].fifo.items);
+    free(st->timeline.items);
+    free(st->readers);
+    free(st->series);
+    free(st->gates);
+    free(st->events);
+    free(st->months);
+    free(st);
+}
+
+/* ---- reading ------------------------------------------------------------ */
+
+/* Take the earliest held record into the FIFOs and read the next one from
+ * its file.  Returns SW_OK, or an error; sets *none when every file is
+ * done. */
+static int take_record(sw_stepper *st, int *none, sw_error *err)
+{
+    reader_state *best = NULL;
+    int any_valid = 0;
+
+    for (size_t r = 0; r < st->n_readers; r++) {
+        reader_state *rs = &st->readers[r];
+        if (rs->pending && (best == NULL || rs->t < best->t))
+            best = rs;
+    }
+    *none = best == NULL;
+    if (best == NULL)
+        return SW_OK;
+    for (size_t c = 0; c < best->n_cols; c++) {
+        series_state *s = &st->series[best->series_of[c]];
+        double v = best->v[c];
+        if (isnan(v))
+            continue;
+        any_valid = 1;
+        if (s->have_last && best->t - s->last_t > st->site->max_gap_ms) {
+            sw_time_ms gap = best->t - s->last_t;
+            s->gaps.gaps++;
+            s->gaps.total += gap;
+            if (gap > s->gaps.longest) {
+                s->gaps.longest = gap;
+                s->gaps.longest_start = s->last_t;
+            }
+        }
+        s->have_last = 1;
+        s->last_t = best->t;
+        if (ring_push(&s->fifo, (sample){best->t, v}) != 0)
+            return nomem(err);
+    }
+    if (any_valid) {
+        const ring *tl = &st->timeline;
+        if (tl->count == 0 || ring_at(tl, tl->count - 1)->t < best->t) {
+            if (ring_push(&st->timeline, (sample){best->t, 0.0}) != 0)
+                return nomem(err);
+            if (!st->started) {
+                st->started = 1;
+                st->span_start = best->t;
+            }
+            st->span_end = best->t;
+        }
+    }
+    return read_record(best, err);
+}
+
+/* Is series `s` settled for the interval [t0, t1]: is its next valid
+ * sample known, or known not to come within max_gap?  On return, *known
+ * says whether its level is known (linear) over the interval. */
+static int series_settled(const sw_stepper *st, series_state *s,
+                          sw_time_ms t0, int *known)
+{
+    const reader_state *rs = &st->readers[s->reader];
+
+    while (s->fifo.count > 0 && ring_at(&s->fifo, 0)->t <= t0) {
+        s->prev = ring_pop(&s->fifo);
+        s->have_prev = 1;
+    }
+    *known = 0;
+    if (!s->have_prev)
+        return 1;
+    if (s->fifo.count > 0) {
+        *known = ring_at(&s->fifo, 0)->t - s->prev.t <= st->site->max_gap_ms;
+        return 1;
+    }
+    /* nothing read yet: settled if its file is done or already past the
+     * reach of max_gap */
+    return !rs->pending || rs->t - s->prev.t > st->site->max_gap_ms;
+}
+
+/* The level of a settled, known series at t (prev.t <= t <= next.t). */
+static double level_at(const series_state *s, sw_time_ms t)
+{
+    const sample *n = ring_at(&s->fifo, 0);
+    if (t <= s->prev.t)
+        return s->prev.v;
+    if (t >= n->t)
+        return n->v;
+    double w = (double)(t - s->prev.t) / (double)(n->t - s->prev.t);
+    return s->prev.v + (n->v - s->prev.v) * w;
+}
+
+/* ---- evaluation and accounting ------------------------------------------ */
+
+static void evaluate(sw_stepper *st, gate_state *g, sw_time_ms t, double hw,
+                     double tw, point *p)
+{
+    p->t = t;
+    sw_gate_evaluate(g->gate, hw, tw, &p->r);
+    sw_gate_margins(g->gate, &p->r, &p->open_m, &p->alarm_m);
+    p->state = (int)p->r.state;
+    st->evaluations++;
+    if (p->r.fs < g->run.min_fs) {
+        g->run.min_fs = p->r.fs;
+        g->run.min_fs_t = t;
+    }
+    if (p->r.fs < g->month.min_fs) {
+        g->month.min_fs = p->r.fs;
+        g->month.min_fs_t = t;
+    }
+}
+
+static void close_event(sw_stepper *st, gate_state *g, sw_time_ms end,
+                        sw_event_end why, sw_error *err, int *rc)
+{
+    if (!g->in_event)
+        return;
+    g->in_event = 0;
+    g->ev.end = end;
+    g->ev.ends = why;
+    if (end - g->ev.start > g->run.longest_event)
+        g->run.longest_event = end - g->ev.start;
+    if (*rc == SW_OK)
+        *rc = push_event(st, &g->ev, err);
+}
+
+static void event_point(gate_state *g, const point *p)
+{
+    if (p->r.fs < g->ev.min_fs || isnan(g->ev.min_fs)) {
+        g->ev.min_fs = p->r.fs;
+        g->ev.min_fs_t = p->t;
+        g->ev.hw_at_min_m = p->r.headwater_m;
+        g->ev.tw_at_min_m = p->r.tailwater_m;
+    }
+}
+
+/* Close the gate's current month at `end` as a row of output. */
+static int emit_month(sw_stepper *st, gate_state *g, size_t gi, sw_time_ms end,
+                      sw_error *err)
+{
+    if (st->n_months == st->cap_months) {
+        size_t cap = st->cap_months ? 2 * st->cap_months : 16;
+        sw_month_row *grown = realloc(st->months, cap * sizeof *grown);
+        if (grown == NULL)
+            return nomem(err);
+        st->months = grown;
+        st->cap_months = cap;
+    }
+    sw_month_row *row = &st->months[st->n_months++];
+    row->gate = gi;
+    row->yyyymm = g->month_yyyymm;
+    row->start =
+        g->month_start > st->span_start ? g->month_start : st->span_start;
+    row->end = end;
+    row->tally = g->month;
+    memset(&g->month, 0, sizeof g->month);
+    g->month.min_fs = INFINITY;
+    return SW_OK;
+}
+
+/* Make the gate's current month the one holding `t`, closing the months
+ * before it (those without data too). */
+static int roll_month(sw_stepper *st, gate_state *g, size_t gi, sw_time_ms t,
+                      sw_error *err)
+{
+    int rc;
+    if (!g->month_open) {
+        sw_month_bounds(t, st->site->zone, &g->month_start, &g->month_next,
+                        &g->month_yyyymm);
+        g->month_open = 1;
+        return SW_OK;
+    }
+    while (t >= g->month_next) {
+        if ((rc = emit_month(st, g, gi, g->month_next, err)) != SW_OK)
+            return rc;
+        sw_month_bounds(g->month_next, st->site->zone, &g->month_start,
+                        &g->month_next, &g->month_yyyymm);
+    }
+    return SW_OK;
+}
+
+/* Book [a, b) in state `state` (SW_STATE_UNKNOWN for no data); pa and pb
+ * are the evaluated ends (NULL when unknown). */
+static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
+                   int state, const point *pa, const point *pb, sw_error *err)
+{
+    sw_time_ms d = b - a;
+    int rc = SW_OK;
+
+    if (state == SW_STATE_UNKNOWN) {
+        g->run.not_evaluated += d;
+        g->month.not_evaluated += d;
+        close_event(st, g, a, SW_END_GAP, err, &rc);
+        return rc;
+    }
+    g->run.evaluated += d;
+    g->month.evaluated += d;
+    if (state == SW_STATE_OK) {
+        close_event(st, g, a, SW_END_RECOVERED, err, &rc);
+        return rc;
+    }
+    if (state == SW_STATE_LOW) {
+        g->run.low += d;
+        g->month.low += d;
+    } else {
+        g->run.open += d;
+        g->month.open += d;
+    }
+    if (!g->in_event) {
+        g->in_event = 1;
+        memset(&g->ev, 0, sizeof g->ev);
+        g->ev.gate = (size_t)(g - st->gates);
+        g->ev.start = a;
+        g->ev.worst = (sw_state)state;
+        g->ev.min_fs = NAN;
+        g->run.events++;
+        g->month.events++;
+    }
+    if (state > (int)g->ev.worst)
+        g->ev.worst = (sw_state)state;
+    event_point(g, pa);
+    event_point(g, pb);
+    return rc;
+}
+
+/* Can the state change inside [a, b]?  0 when the bound rules it out. */
+static int may_change(const gate_state *g, const point *a, const point *b)
+{
+    double da = a->r.headwater_m - a->r.tailwater_m;
+    double db = b->r.headwater_m - b->r.tailwater_m;
+
+    if (a->state != b->state)
+        return 1;
+    /* the buoyancy changes water where the levels cross: a jump */
+    if ((da > 0.0) != (db > 0.0) || (da < 0.0) != (db < 0.0))
+        return 1;
+    /* A margin moves by at most k over the piece, so its least value there
+     * is at least (f_a + f_b - k)/2 and its greatest at most
+     * (f_a + f_b + k)/2. */
+    double k = g->k_hw * fabs(b->r.headwater_m - a->r.headwater_m) +
+               g->k_tw * fabs(b->r.tailwater_m - a->r.tailwater_m);
+    double so = a->open_m + b->open_m, sa = a->alarm_m + b->alarm_m;
+    switch (a->state) {
+    case SW_STATE_OPEN:
+        return !(so + k <= 0.0);
+    case SW_STATE_LOW:
+        return !(so - k > 0.0 && sa + k < 0.0);
+    default:
+        return !(so - k > 0.0 && sa - k >= 0.0);
+    }
+}
+
+/* Settle [A, B] by bisection where needed, booking each piece. */
+static int settle(sw_stepper *st, gate_state *g, const point *A,
+                  const point *B, sw_error *err)
+{
+    point stack[MAX_DEPTH];
+    size_t top = 0;
+    point cur = *A;
+    int rc;
+    double t0 = (double)A->t, span = (double)(B->t - A->t);
+
+    stack[top++] = *B;
+    while (top > 0) {
+        const point *nx = &stack[top - 1];
+        sw_time_ms d = nx->t - cur.t;
+        if (d <= RESOLUTION_MS || !may_change(g, &cur, nx) ||
+            top == MAX_DEPTH) {
+            int state = cur.state > nx->state ? cur.state : nx->state;
+            if ((rc = account(st, g, cur.t, nx->t, state, &cur, nx, err)) !=
+                SW_OK)
+                return rc;
+            cur = *nx;
+            top--;
+            continue;
+        }
+        /* halve on whole seconds, so that times on whole seconds stay so */
+        sw_time_ms half = (d / 2000) * 1000;
+        sw_time_ms tm = cur.t + (half > 0 ? half : d / 2);
+        double w = ((double)tm - t0) / span;
+        double hw = A->r.headwater_m + (B->r.headwater_m - A->r.headwater_m) * w;
+        double tw = A->r.tailwater_m + (B->r.tailwater_m - A->r.tailwater_m) * w;
+        point mid;
+        evaluate(st, g, tm, hw, tw, &mid);
+        stack[top++] = mid;
+    }
+    return SW_OK;
+}
+
+/* Book [a, b] of gate g, cut at month boundaries when asked. */
+static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
+                         sw_time_ms b, int known, sw_error *err)
+{
+    gate_state *g = &st->gates[gi];
+    const series_state *h = &st->series[g->hw];
+    const series_state *w = &st->series[g->tw];
+    point A, B;
+    int rc;
+
+    if (known) {
+        if (g->last_known && g->last.t == a)
+            A = g->last;
+        else
+            evaluate(st, g, a, level_at(h, a), level_at(w, a), &A);
+        g->at.known = 1;
+        g->at.result = A.r;
+    } else if (g->last_known && g->last.t == a) {
+        g->at.known = 1;
+        g->at.result = g->last.r;
+    } else {
+        g->at.known = 0;
+    }
+
+    while (a < b) {
+        sw_time_ms cut = b;
+        if (st->opt.by_month) {
+            if ((rc = roll_month(st, g, gi, a, err)) != SW_OK)
+                return rc;
+            if (g->month_next < b)
+                cut = g->month_next;
+        }
+        if (!known) {
+            if ((rc = account(st, g, a, cut, SW_STATE_UNKNOWN, NULL, NULL,
+                              err)) != SW_OK)
+                return rc;
+        } else {
+            evaluate(st, g, cut, level_at(h, cut), level_at(w, cut), &B);
+            if ((rc = settle(st, g, &A, &B, err)) != SW_OK)
+                return rc;
+            A = B;
+        }
+        a = cut;
+    }
+    g->last_known = known;
+    if (known)
+        g->last = A;
+    return SW_OK;
+}
+
+/* ---- the loop ----------------------------------------------------------- */
+
+int sw_stepper_advance(sw_stepper *st, int *done, sw_error *err)
+{
+    ring *tl = &st->timeline;
+    int rc, none;
+
+    st->n_events = 0;
+    st->n_months = 0;
+    *done = 0;
+    for (;;) {
+        if (tl->count >= 2) {
+            sw_time_ms t0 = ring_at(tl, 0)->t, t1 = ring_at(tl, 1)->t;
+            int settled = 1;
+            for (size_t i = 0; i < st->n_series && settled; i++)
+                settled = series_settled(st, &st->series[i], t0,
+                                         &st->series[i].known);
+            if (settled) {
+                for (size_t gi = 0; gi < st->n_gates; gi++) {
+                    const gate_state *g = &st->gates[gi];
+                    int known = st->series[g->hw].known &&
+                                st->series[g->tw].known;
+                    if ((rc = book_interval(st, gi, t0, t1, known, err)) !=
+                        SW_OK)
+                        return rc;
+                }
+                st->now = t0;
+                ring_pop(tl);
+                return SW_OK;
+            }
+        }
+        if ((rc = take_record(st, &none, err)) != SW_OK)
+            return rc;
+        /* with every file done, the series all settle: only a last point
+         * with no interval after it can remain */
+        if (none && tl->count < 2) {
+            *done = 1;
+            return SW_OK;
+        }
+    }
+}
+
+int sw_stepper_finish(sw_stepper *st, sw_error *err)
+{
+    int rc = SW_OK;
+
+    st->n_events = 0;
+    st->n_months = 0;
+    st->now = st->span_end;
+    for (size_t gi = 0; gi < st->n_gates; gi++) {
+        gate_state *g = &st->gates[gi];
+        g->at.known = g->last_known && g->last.t == st->span_end;
+        if (g->at.known)
+            g->at.result = g->last.r;
+        close_event(st, g, st->span_end, SW_END_SERIES_END, err, &rc);
+        if (rc != SW_OK)
+            return rc;
+        if (st->opt.by_month && g->month_open &&
+            (rc = emit_month(st, g, gi, st->span_end, err)) != SW_OK)
+            return rc;
+    }
+    return SW_OK;
+}
+
+/* ---- accessors ---------------------------------------------------------- */
+
+sw_time_ms sw_stepper_time(const sw_stepper *st) { return st->now; }
+
+const sw_step_gate *sw_stepper_gate_at(const sw_stepper *st, size_t gate)
+{
+    return &st->gates[gate].at;
+}
+
+size_t sw_stepper_events(const sw_stepper *st, const sw_event **events)
+{
+    *events = st->events;
+    return st->n_events;
+}
+
+size_t sw_stepper_months(const sw_stepper *st, const sw_month_row **months)
+{
+    *months = st->months;
+    return st->n_months;
+}
+
+void sw_stepper_span(const sw_stepper *st, sw_time_ms *start, sw_time_ms *end)
+{
+    *start = st->started ? st->span_start : 0;
+    *end = st->started ? st->span_end : 0;
+}
+
+const sw_tally *sw_stepper_tally(const sw_stepper *st, size_t gate)
+{
+    return &st->gates[gate].run;
+}
+
+size_t sw_stepper_n_series(const sw_stepper *st) { return st->n_series; }
+
+const sw_site_series *sw_stepper_series(const sw_stepper *st, size_t i)
+{
+    return st->series[i].def;
+}
+
+const sw_reader_stats *sw_stepper_reader_stats(const sw_stepper *st, size_t i)
+{
+    return sw_reader_get_stats(st->readers[st->series[i].reader].rd);
+}
+
+const sw_column_stats *sw_stepper_column_stats(const sw_stepper *st, size_t i)
+{
+    return &sw_stepper_reader_stats(st, i)->column[st->series[i].column];
+}
+
+const sw_gap_stats *sw_stepper_gap_stats(const sw_stepper *st, size_t i)
+{
+    return &st->series[i].gaps;
+}
+
+long long sw_stepper_evaluations(const sw_stepper *st)
+{
+    return st->evaluations;
+}

@@ -1,0 +1,378 @@
+/* Unit tests of the stepping engine (src/stepper.c): hours, crossings,
+ * gaps, several files, time zones and months, against hand computations. */
+#include "testutil.h"
+
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include <gsl/gsl_errno.h>
+
+#include "sillwatch/stepper.h"
+
+/* The vertical leaf of the CLI case point_hand_vertical: hinge 10 m, sealed
+ * s = 0..2 m (sill at 8 m), width 1.5 m, rho 1000, g 9.81, weight moment
+ * 800 * 9.81 * 0.05 = 392.4 N*m; no volume.  With the tailwater below the
+ * sill, a headwater d metres over the sill gives
+ * M = 1000 * 9.81 * 1.5 * d^2 / 2 * (2 - d/3) (triangular pressure prism,
+ * common practice, no source). */
+#define GATE_V                                                              \
+    "[gate V]\nshape = rectangle\nhinge_level = 10\ninclination = 90\n"     \
+    "seal_top = 0\nseal_height = 2\nseal_width = 1.5\nmass = 800\n"         \
+    "cg_along = 1\ncg_offset = 0.05\nheadwater = hw\ntailwater = tw\n"
+
+#define WATERS                                                              \
+    "[water upstream]\ndensity = 1000\n[water downstream]\ndensity = 1000\n"
+
+static char dir[64];
+
+static void write_file(const char *name, const char *text)
+{
+    char path[128];
+    snprintf(path, sizeof path, "%s/%s", dir, name);
+    FILE *fp = fopen(path, "w");
+    assert_non_null(fp);
+    fputs(text, fp);
+    fclose(fp);
+}
+
+static int setup(void **state)
+{
+    (void)state;
+    snprintf(dir, sizeof dir, "/tmp/sw-stepper-XXXXXX");
+    return mkdtemp(dir) == NULL ? -1 : 0;
+}
+
+static int teardown(void **state)
+{
+    (void)state;
+    char cmd[128];
+    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
+    return system(cmd) == 0 ? 0 : -1;
+}
+
+typedef struct run_result {
+    sw_tally tally[4];
+    sw_event events[32];
+    size_t n_events;
+    sw_month_row months[32];
+    size_t n_months;
+    sw_time_ms start, end;
+    long steps;
+} run_result;
+
+/* Load site.ini from the temp folder, run it to the end, keep the results;
+ * returns the status of the first failing call. */
+static int run_site(int by_month, run_result *out, sw_error *err)
+{
+    char path[128];
+    sw_site site;
+    sw_stepper *st = NULL;
+    sw_stepper_options opt = {by_month};
+    int rc, done = 0;
+
+    memset(out, 0, sizeof *out);
+    snprintf(path, sizeof path, "%s/site.ini", dir);
+    if ((rc = sw_site_load(&site, path, err)) != SW_OK)
+        return rc;
+    if ((rc = sw_stepper_alloc(&st, &site, &opt, err)) != SW_OK)
+        goto done;
+    for (int last = 0; !last;) {
+        if (!done) {
+            if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK)
+                goto done;
+            if (!done)
+                out->steps++;
+        }
+        if (done) {
+            if ((rc = sw_stepper_finish(st, err)) != SW_OK)
+                goto done;
+            last = 1;
+        }
+        const sw_event *ev;
+        const sw_month_row *mo;
+        size_t n = sw_stepper_events(st, &ev);
+        for (size_t i = 0; i < n && out->n_events < 32; i++)
+            out->events[out->n_events++] = ev[i];
+        n = sw_stepper_months(st, &mo);
+        for (size_t i = 0; i < n && out->n_months < 32; i++)
+            out->months[out->n_months++] = mo[i];
+    }
+    for (size_t i = 0; i < site.n_gates && i < 4; i++)
+        out->tally[i] = *sw_stepper_tally(st, i);
+    sw_stepper_span(st, &out->start, &out->end);
+done:
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+    return rc;
+}
+
+/* Depth over the sill at which the headwater moment of gate V reaches m
+ * (bisection on the hand formula above, not on the library). */
+static double depth_for_moment(double m)
+{
+    double lo = 0.0, hi = 2.0;
+    for (int i = 0; i < 200; i++) {
+        double d = 0.5 * (lo + hi);
+        if (1000.0 * 9.81 * 1.5 * d * d / 2.0 * (2.0 - d / 3.0) < m)
+            lo = d;
+        else
+            hi = d;
+    }
+    return 0.5 * (lo + hi);
+}
+
+#define H (3600000LL) /* ms per hour */
+
+/* Constant levels: every hour of the span is evaluated in one state. */
+static void test_constant_levels(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                           "max_gap = 2h\n" WATERS GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    /* headwater 0.1 m over the sill: M = 7357.5 * 0.01 * (2 - 0.0333)
+     * = 144.7 N*m, fs = 392.4 / 144.7 = 2.71 > 1.5: ok throughout */
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-04-01T00:00:00Z,8.1,7.0\n"
+                        "2025-04-01T01:30:00Z,8.1,7.0\n"
+                        "2025-04-01T03:00:00Z,8.1,7.0\n"
+                        "2025-04-01T04:15:00Z,8.1,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+    assert_int_equal(r.end - r.start, 4 * H + H / 4);
+    assert_int_equal(r.tally[0].evaluated, 4 * H + H / 4);
+    assert_int_equal(r.tally[0].not_evaluated, 0);
+    assert_int_equal(r.tally[0].low + r.tally[0].open, 0);
+    assert_int_equal(r.n_events, 0);
+    double m = 7357.5 * 0.01 * (2.0 - 0.1 / 3.0);
+    assert_close(r.tally[0].min_fs, 392.4 / m, 1e-9);
+}
+
+/* A headwater rising linearly from the sill to 1 m over it in 10 h: the
+ * gate turns low, then open, at times fixed by the hand formula; hours
+ * must match to the engine's one-second resolution. */
+static void test_linear_ramp_crossings(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                           "max_gap = 12h\n" WATERS GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-04-01T00:00:00Z,8.0,7.0\n"
+                        "2025-04-01T10:00:00Z,9.0,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+
+    /* low where M > 392.4 / 1.5, open where M >= 392.4 */
+    double t_low = depth_for_moment(392.4 / 1.5) * 10.0 * 3600.0; /* s */
+    double t_open = depth_for_moment(392.4) * 10.0 * 3600.0;
+    double low_s = (double)r.tally[0].low / 1000.0;
+    double open_s = (double)r.tally[0].open / 1000.0;
+    assert_close_abs(open_s, 36000.0 - t_open, 1.0);
+    assert_close_abs(low_s, t_open - t_low, 2.0);
+    assert_int_equal(r.tally[0].evaluated, 10 * H);
+    /* one event from the first crossing to the end of the data */
+    assert_int_equal(r.n_events, 1);
+    assert_close_abs((double)(r.events[0].start - r.start) / 1000.0, t_low, 1.0);
+    assert_int_equal(r.events[0].ends, SW_END_SERIES_END);
+    assert_int_equal(r.events[0].worst, SW_STATE_OPEN);
+    /* the conservative side: the event never starts late */
+    assert_true((double)(r.events[0].start - r.start) / 1000.0 <= t_low + 1e-6);
+}
+
+/* A gap longer than max_gap is not evaluated; a shorter one is bridged. */
+static void test_gaps(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                           "max_gap = 45min\n" WATERS GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "missing = -9999\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    /* samples every 15 min; the headwater misses 00:30 (a 30 min interval,
+     * bridged) and 01:30 to 02:15 (a 60 min interval, not bridged) */
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-04-01T00:00:00Z,8.1,7.0\n"
+                        "2025-04-01T00:15:00Z,8.1,7.0\n"
+                        "2025-04-01T00:30:00Z,,7.0\n"
+                        "2025-04-01T00:45:00Z,8.1,7.0\n"
+                        "2025-04-01T01:00:00Z,8.1,7.0\n"
+                        "2025-04-01T01:15:00Z,8.1,7.0\n"
+                        "2025-04-01T01:30:00Z,NaN,7.0\n"
+                        "2025-04-01T01:45:00Z,-9999,7.0\n"
+                        "2025-04-01T02:00:00Z,,7.0\n"
+                        "2025-04-01T02:15:00Z,8.1,7.0\n"
+                        "2025-04-01T02:30:00Z,8.1,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+    assert_int_equal(r.end - r.start, 2 * H + H / 2);
+    assert_int_equal(r.tally[0].not_evaluated, H);
+    assert_int_equal(r.tally[0].evaluated, H + H / 2);
+    assert_int_equal(r.tally[0].evaluated + r.tally[0].not_evaluated,
+                     r.end - r.start);
+}
+
+/* An event cut by a gap ends with "gap". */
+static void test_event_ends_in_gap(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+                           GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-04-01T00:00:00Z,8.6,7.0\n"
+                        "2025-04-01T00:15:00Z,8.6,7.0\n"
+                        "2025-04-01T03:15:00Z,8.6,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+    /* the lone last sample after the gap starts no period: one event */
+    assert_int_equal(r.n_events, 1);
+    assert_int_equal(r.events[0].ends, SW_END_GAP);
+    assert_int_equal(r.events[0].end - r.events[0].start, H / 4);
+    assert_int_equal(r.events[0].worst, SW_STATE_OPEN);
+    assert_int_equal(r.tally[0].open, H / 4);
+    assert_int_equal(r.tally[0].not_evaluated, 3 * H);
+}
+
+/* Two files with interleaved times (the headwater on the hour, the
+ * tailwater on the half hour): the timeline is their union and each is
+ * interpolated at the other's times. */
+static void test_two_files_interleaved(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                           "max_gap = 90min\n" WATERS GATE_V
+                           "[series hw]\nfile = up.csv\nvalue_column = level\n"
+                           "[series tw]\nfile = down.csv\n"
+                           "time_column = when\nvalue_column = level\n");
+    write_file("up.csv", "time,level\n"
+                         "2025-04-01T00:00:00Z,8.1\n"
+                         "2025-04-01T01:00:00Z,8.1\n"
+                         "2025-04-01T02:00:00Z,8.1\n");
+    write_file("down.csv", "when;level\n"
+                           "2025-04-01T00:30:00Z;7,0\n"
+                           "2025-04-01T01:30:00Z;7,0\n"
+                           "2025-04-01T02:30:00Z;7,0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+    assert_int_equal(r.steps, 5); /* 6 points, the last one after finish */
+    assert_int_equal(r.end - r.start, 2 * H + H / 2);
+    /* known from 00:30 (tailwater starts) to 02:00 (headwater ends) */
+    assert_int_equal(r.tally[0].evaluated, H + H / 2);
+    assert_int_equal(r.tally[0].not_evaluated, H);
+}
+
+/* Feet with a gauge offset: 1 ft = 0.3048 m exactly (international foot,
+ * 1959).  A reading of 0.5 ft on a gauge whose zero is at 8.2476 m is
+ * 8.2476 + 0.1524 = 8.4 m: 0.4 m over the sill. */
+static void test_feet_with_offset(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+                           GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw_ft\n"
+                           "unit = ft\noffset = 8.2476\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    write_file("l.csv", "time,hw_ft,tw\n"
+                        "2025-04-01T00:00:00Z,0.5,7.0\n"
+                        "2025-04-01T00:15:00Z,0.5,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+    double m = 1000.0 * 9.81 * 1.5 * 0.16 / 2.0 * (2.0 - 0.4 / 3.0);
+    assert_close(r.tally[0].min_fs, 392.4 / m, 1e-9);
+}
+
+/* Months in a zone with daylight saving: Europe/Berlin changes to summer
+ * time at 01:00 UTC on the last Sunday of March (2025-03-30; Directive
+ * 2000/84/EC), so March 2025 there is 31 * 24 - 1 = 743 hours long, and
+ * April begins at 2025-03-31T22:00:00Z. */
+static void test_months_in_zone(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                           "timezone = Europe/Berlin\nmax_gap = 2d\n" WATERS
+                           GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    /* local times without offset, read in the site's zone */
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-03-01 00:00,8.1,7.0\n"
+                        "2025-03-02 00:00,8.1,7.0\n"
+                        "2025-03-29 12:00,8.1,7.0\n"
+                        "2025-03-31 00:00,8.1,7.0\n"
+                        "2025-04-01 12:00,8.1,7.0\n");
+    assert_int_equal(run_site(1, &r, &err), SW_OK);
+    assert_int_equal(r.n_months, 2);
+    assert_int_equal(r.months[0].yyyymm, 202503);
+    assert_int_equal(r.months[1].yyyymm, 202504);
+    /* from 2025-03-01 00:00 CET (= 2025-02-28T23:00Z) */
+    assert_int_equal(r.months[0].end - r.months[0].start, 743 * H);
+    assert_int_equal(r.months[1].end - r.months[1].start, 12 * H);
+    /* 2025-03-02 to 03-29 12:00 is 27.5 days > max_gap 2 d (and spans the
+     * change, so 27.5 * 24 - 0 hours: the change is on 03-30) */
+    assert_int_equal(r.months[0].tally.not_evaluated, 660 * H);
+    assert_int_equal(r.months[0].tally.evaluated + r.months[1].tally.evaluated,
+                     r.tally[0].evaluated);
+}
+
+/* Bad data: time going backwards stops the run with file and line. */
+static void test_backwards_time_is_an_error(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+                           GATE_V
+                           "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                           "[series tw]\nfile = l.csv\nvalue_column = tw\n");
+    write_file("l.csv", "time,hw,tw\n"
+                        "2025-04-01T00:00:00Z,8.1,7.0\n"
+                        "2025-04-01T00:15:00Z,8.1,7.0\n"
+                        "2025-04-01T00:10:00Z,8.1,7.0\n");
+    assert_int_equal(run_site(0, &r, &err), SW_EDATA);
+    assert_int_equal(err.line, 4);
+    assert_non_null(strstr(err.file, "l.csv"));
+}
+
+/* A gate without series cannot be replayed. */
+static void test_gate_without_series(void **state)
+{
+    (void)state;
+    run_result r;
+    sw_error err;
+    write_file("site.ini", "[site]\nrequired_fs = 1.5\n" WATERS
+                           "[gate W]\nshape = circle\nhinge_level = 3\n"
+                           "inclination = 70\nseal_top = 0.1\ndiameter = 0.6\n"
+                           "mass = 90\ncg_along = 0.35\n");
+    assert_int_equal(run_site(0, &r, &err), SW_ESITE);
+    assert_non_null(strstr(err.message, "gate 'W' has no headwater series"));
+}
+
+int main(void)
+{
+    gsl_set_error_handler_off();
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_constant_levels),
+        cmocka_unit_test(test_linear_ramp_crossings),
+        cmocka_unit_test(test_gaps),
+        cmocka_unit_test(test_event_ends_in_gap),
+        cmocka_unit_test(test_two_files_interleaved),
+        cmocka_unit_test(test_feet_with_offset),
+        cmocka_unit_test(test_months_in_zone),
+        cmocka_unit_test(test_backwards_time_is_an_error),
+        cmocka_unit_test(test_gate_without_series),
+    };
+    return cmocka_run_group_tests(tests, setup, teardown);
+}
