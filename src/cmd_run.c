@@ -307,7 +307,7 @@ int sw_cmd_run(int argc, char **argv)
 
     signal(SIGINT, on_signal);
     signal(SIGTERM, on_signal);
-    sw_stepper_options sopt = {o.by_month};
+    sw_stepper_options sopt = {o.by_month, o.steps};
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
         goto fail;
     if ((rc = make_outdir(o.outdir, &err)) != SW_OK)

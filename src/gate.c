@@ -400,13 +400,12 @@ static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
         out->fs = 0.0;
     out->sill_reaction_N = out->net_moment_Nm / g->s_sill_m;
 
-    if (out->net_moment_Nm <= 0.0)
-        out->state = SW_STATE_OPEN;
-    else if (out->fs < g->required_fs ||
-             out->sill_reaction_N < g->min_sill_reaction_N)
-        out->state = SW_STATE_LOW;
-    else
-        out->state = SW_STATE_OK;
+    /* one rule for the state, shared with the stepping engine: open where
+     * net <= 0; low where fs < required_fs or the sill reaction is below
+     * its minimum, written as margins so that no division decides */
+    double m[SW_N_MARGINS];
+    sw_gate_margins(g, out, m);
+    out->state = sw_gate_state_of(m);
 }
 
 void sw_gate_evaluate(const sw_gate *g, double hw_m, double tw_m,
@@ -431,28 +430,50 @@ typedef struct margin_ctx {
 } margin_ctx;
 
 void sw_gate_margins(const sw_gate *g, const sw_gate_result *r,
-                     double *open_margin, double *alarm_margin)
+                     double m[SW_N_MARGINS])
 {
-    double by_fs = r->resisting_moment_Nm - g->required_fs * r->hw_moment_Nm;
-    double by_reaction =
-        r->net_moment_Nm - g->min_sill_reaction_N * g->s_sill_m;
-    *open_margin = r->net_moment_Nm;
-    *alarm_margin = by_fs < by_reaction ? by_fs : by_reaction;
+    m[0] = r->net_moment_Nm;
+    m[1] = r->resisting_moment_Nm - g->required_fs * r->hw_moment_Nm;
+    m[2] = r->net_moment_Nm - g->min_sill_reaction_N * g->s_sill_m;
 }
 
-void sw_gate_margin_slopes(const sw_gate *g, double *per_hw, double *per_tw)
+sw_state sw_gate_state_of(const double m[SW_N_MARGINS])
 {
-    /* A water's moment changes at rho g (wetted first moment) <= rho g
-     * (first moment of the whole opening); the buoyancy moment at most at
-     * rho g V |cot a|; the alarm margin weighs the headwater moment by
-     * required_fs. */
+    if (m[0] <= 0.0)
+        return SW_STATE_OPEN;
+    if (m[1] < 0.0 || m[2] < 0.0)
+        return SW_STATE_LOW;
+    return SW_STATE_OK;
+}
+
+void sw_gate_get_bounds(const sw_gate *g, sw_gate_bounds *b)
+{
+    /* A water's moment M(level) has dM/dz = rho g (first moment of the
+     * wetted opening), at most rho g * first_moment_m3, and
+     * d2M/dz2 = rho g s_w w(s_w) / sin a, at most rho g s_sill w_max /
+     * sin a.  The buoyancy moment rho g V cos a (L^2 - s0^2) / (2 L), with
+     * s0 = (hinge - z) / sin a, has slope rho g V |cos a| s0 / (L sin a)
+     * <= rho g V |cot a|, curvature rho g V |cos a| / (L sin^2 a), and
+     * its slope falls to 0 where z passes the leaf's far end (s0 = L).
+     * m[1] weighs the headwater moment by required_fs. */
     double rho_max = fmax(g->rho_kgm3[SW_UPSTREAM], g->rho_kgm3[SW_DOWNSTREAM]);
-    double buoy = rho_max * g->g_ms2 * g->volume_m3 * fabs(g->cos_a / g->sin_a);
+    double w_max = g->shape == SW_SHAPE_RECTANGLE ? g->seal_width_m
+                                                  : g->diameter_m;
     double fs = fmax(1.0, g->required_fs);
-    *per_hw = fs * g->rho_kgm3[SW_UPSTREAM] * g->g_ms2 * g->first_moment_m3 +
-              buoy;
-    *per_tw = g->rho_kgm3[SW_DOWNSTREAM] * g->g_ms2 * g->first_moment_m3 +
-              buoy;
+    double cot = fabs(g->cos_a / g->sin_a);
+    double buoy_slope = rho_max * g->g_ms2 * g->volume_m3 * cot;
+    double buoy_curv = rho_max * g->g_ms2 * g->volume_m3 * fabs(g->cos_a) /
+                       (g->leaf_length_m * g->sin_a * g->sin_a);
+    double m_curv = g->g_ms2 * g->s_sill_m * w_max / g->sin_a;
+
+    b->slope_hw = fs * g->rho_kgm3[SW_UPSTREAM] * g->g_ms2 * g->first_moment_m3 +
+                  buoy_slope;
+    b->slope_tw = g->rho_kgm3[SW_DOWNSTREAM] * g->g_ms2 * g->first_moment_m3 +
+                  buoy_slope;
+    b->curv_hw = fs * g->rho_kgm3[SW_UPSTREAM] * m_curv + buoy_curv;
+    b->curv_tw = g->rho_kgm3[SW_DOWNSTREAM] * m_curv + buoy_curv;
+    b->kink = buoy_slope;
+    b->kink_level_m = g->leaf_bottom_level_m;
 }
 
 static double margin(double x, void *p)
@@ -460,14 +481,15 @@ static double margin(double x, void *p)
     const margin_ctx *c = p;
     const sw_gate *g = c->gate;
     sw_gate_result r;
-    double open_m, alarm_m;
+    double m[SW_N_MARGINS];
 
     if (c->vary_tailwater)
         evaluate_side(g, c->fixed, x, c->side, &r);
     else
         evaluate_side(g, x, c->fixed, c->side, &r);
-    sw_gate_margins(g, &r, &open_m, &alarm_m);
-    return c->limit == SW_LIMIT_OPEN ? open_m : alarm_m;
+    sw_gate_margins(g, &r, m);
+    /* alarm: >= 0 exactly where the state is ok */
+    return c->limit == SW_LIMIT_OPEN ? m[0] : fmin(m[1], m[2]);
 }
 
 /* Does the limit fail at margin value m? (open: net <= 0; alarm: < 0) */

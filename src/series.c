@@ -220,14 +220,14 @@ static int next_line(sw_reader *r, char **line, size_t *len, int *has_nl,
         char *nl = memchr(start, '\n', avail);
         size_t got;
 
-        if (nl != NULL) {
+        if (nl != NULL && (size_t)(nl - start) <= LINE_MAX_BYTES) {
             *line = start;
             *len = (size_t)(nl - start) + 1;
             *has_nl = 1;
             r->pos += *len;
             return SW_OK;
         }
-        if (avail > LINE_MAX_BYTES)
+        if (nl != NULL || avail > LINE_MAX_BYTES)
             return fail_at(r, err, SW_EDATA, r->line + 1, 0,
                            "line longer than 1 MiB (is this a level "
                            "file?)");

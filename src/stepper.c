@@ -8,16 +8,22 @@
  * or after T1 within max_gap of its last sample at or before T0; until then
  * more records are read.  So the FIFOs hold at most max_gap of data.
  *
- * Within an interval both levels of a gate are linear in time.  The state
- * is settled on a piece [a, b] when both ends agree and a bound on how far
- * the margins can move between them (sw_gate_margin_slopes times the
- * change of each level) shows that neither margin can cross zero inside;
- * otherwise the piece is halved, down to one second, where the worse of
- * the two end states is taken (a conservative one-second resolution).
+ * Within an interval both levels of a gate are linear in time, so each
+ * margin (sw_gate_margins) stays within E of the straight line between its
+ * end values, E from the margins' curvature bounds (sw_gate_bounds).
+ * Where that line is farther than E from zero the margin's sign is
+ * certain; where a margin changes sign, its crossing lies in the stretch
+ * where the line is within E of zero.  When every such stretch is at most
+ * a second long, the states between are certain and each stretch is booked
+ * at the worse state it may hold (a conservative one-second resolution);
+ * otherwise the piece is halved and each half evaluated, down to a second.
+ * So a gate costs one evaluation per time step away from trouble, and few
+ * more near it.
  */
 #include "sillwatch/stepper.h"
 
 #include <math.h>
+#include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -47,30 +53,54 @@ typedef struct series_state {
     sw_gap_stats gaps;
 } series_state;
 
+/* Records read ahead by a reader's own thread, handed over in batches. */
+#define BATCH_ROWS 2048
+#define N_BATCHES 4
+
+typedef struct batch {
+    size_t n;                   /* records held */
+    int status;                 /* SW_OK, or the error after the records */
+    int eof;                    /* the file ends after these records */
+    sw_error err;
+    sw_time_ms *t;              /* [BATCH_ROWS] */
+    double *v;                  /* [BATCH_ROWS * n_cols] */
+} batch;
+
 typedef struct reader_state {
     sw_reader *rd;
     const sw_site_series *first; /* the series that opened it */
     size_t n_cols;
     size_t series_of[SW_SERIES_MAX_COLUMNS];
-    int pending;                /* a record is held */
+    int pending;                /* a record is held in t and v */
     sw_time_ms t;
-    double v[SW_SERIES_MAX_COLUMNS];
+    const double *v;
+    /* the read-ahead: the worker fills batches, the stepper drains them */
+    int threaded;
+    pthread_t thread;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;
+    batch b[N_BATCHES];
+    size_t head, count;         /* consumer's batch, batches full */
+    size_t pos;                 /* next record in b[head] */
+    int taken;                  /* b[head] is in use by the consumer */
+    int stop, done;
 } reader_state;
 
 /* A gate evaluated at one instant. */
 typedef struct point {
     sw_time_ms t;
     sw_gate_result r;
-    double open_m, alarm_m;
+    double m[SW_N_MARGINS];
     int state;
 } point;
 
 typedef struct gate_state {
     const sw_gate *gate;
     size_t hw, tw;           /* series indices */
-    double k_hw, k_tw;       /* margin slope bounds */
+    sw_gate_bounds bounds;
     int last_known;          /* the previous interval was known ... */
-    point last;              /* ... and this is its right end */
+    point pt[2];             /* ... and pt[cur] is its right end; the */
+    int cur;                 /* other slot is scratch */
     int in_event;
     sw_event ev;
     sw_tally run, month;
@@ -186,14 +216,126 @@ static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
     return 0;
 }
 
+/* The worker: read records into free batches until the file ends, an
+ * error comes, or the stepper stops it. */
+static void *read_ahead(void *arg)
+{
+    reader_state *rs = arg;
+    size_t tail = 0;
+
+    for (;;) {
+        pthread_mutex_lock(&rs->mu);
+        while (rs->count == N_BATCHES && !rs->stop)
+            pthread_cond_wait(&rs->cv, &rs->mu);
+        int stop = rs->stop;
+        pthread_mutex_unlock(&rs->mu);
+        if (stop)
+            return NULL;
+
+        batch *bt = &rs->b[tail];
+        bt->n = 0;
+        bt->status = SW_OK;
+        bt->eof = 0;
+        while (bt->n < BATCH_ROWS) {
+            int has_row = 0;
+            bt->status = sw_reader_next(rs->rd, &has_row, &bt->t[bt->n],
+                                        &bt->v[bt->n * rs->n_cols], &bt->err);
+            if (bt->status != SW_OK || !has_row) {
+                bt->eof = 1;
+                break;
+            }
+            bt->n++;
+        }
+        pthread_mutex_lock(&rs->mu);
+        rs->count++;
+        pthread_cond_signal(&rs->cv);
+        pthread_mutex_unlock(&rs->mu);
+        if (bt->eof)
+            return NULL;
+        tail = (tail + 1) % N_BATCHES;
+    }
+}
+
+/* Hold the reader's next record (or none at the end). */
 static int read_record(reader_state *rs, sw_error *err)
 {
-    int has_row = 0;
-    int rc = sw_reader_next(rs->rd, &has_row, &rs->t, rs->v, err);
-    if (rc != SW_OK)
-        return rc;
-    rs->pending = has_row;
+    for (;;) {
+        if (rs->taken) {
+            batch *bt = &rs->b[rs->head];
+            if (rs->pos < bt->n) {
+                rs->t = bt->t[rs->pos];
+                rs->v = &bt->v[rs->pos * rs->n_cols];
+                rs->pos++;
+                rs->pending = 1;
+                return SW_OK;
+            }
+            if (bt->eof) {
+                rs->pending = 0;
+                if (bt->status != SW_OK) {
+                    *err = bt->err;
+                    return bt->status;
+                }
+                return SW_OK;
+            }
+            /* give the drained batch back */
+            pthread_mutex_lock(&rs->mu);
+            rs->count--;
+            pthread_cond_signal(&rs->cv);
+            pthread_mutex_unlock(&rs->mu);
+            rs->head = (rs->head + 1) % N_BATCHES;
+            rs->taken = 0;
+        }
+        pthread_mutex_lock(&rs->mu);
+        while (rs->count == 0)
+            pthread_cond_wait(&rs->cv, &rs->mu);
+        pthread_mutex_unlock(&rs->mu);
+        rs->taken = 1;
+        rs->pos = 0;
+    }
+}
+
+static int start_read_ahead(reader_state *rs, sw_error *err)
+{
+    for (int i = 0; i < N_BATCHES; i++) {
+        rs->b[i].t = malloc(BATCH_ROWS * sizeof *rs->b[i].t);
+        rs->b[i].v = malloc(BATCH_ROWS * rs->n_cols * sizeof *rs->b[i].v);
+        if (rs->b[i].t == NULL || rs->b[i].v == NULL)
+            return nomem(err);
+    }
+    if (pthread_mutex_init(&rs->mu, NULL) != 0)
+        return nomem(err);
+    if (pthread_cond_init(&rs->cv, NULL) != 0) {
+        pthread_mutex_destroy(&rs->mu);
+        return nomem(err);
+    }
+    if (pthread_create(&rs->thread, NULL, read_ahead, rs) != 0) {
+        pthread_cond_destroy(&rs->cv);
+        pthread_mutex_destroy(&rs->mu);
+        return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
+                            "cannot start the reading thread");
+    }
+    rs->threaded = 1;
     return SW_OK;
+}
+
+static void stop_read_ahead(reader_state *rs)
+{
+    if (rs->threaded) {
+        pthread_mutex_lock(&rs->mu);
+        rs->stop = 1;
+        pthread_cond_broadcast(&rs->cv);
+        pthread_mutex_unlock(&rs->mu);
+        pthread_join(rs->thread, NULL);
+        pthread_cond_destroy(&rs->cv);
+        pthread_mutex_destroy(&rs->mu);
+        rs->threaded = 0;
+    }
+    for (int i = 0; i < N_BATCHES; i++) {
+        free(rs->b[i].t);
+        free(rs->b[i].v);
+        rs->b[i].t = NULL;
+        rs->b[i].v = NULL;
+    }
 }
 
 static int open_readers(sw_stepper *st, sw_error *err)
@@ -219,6 +361,8 @@ static int open_readers(sw_stepper *st, sw_error *err)
         }
         int rc = sw_reader_open(&rs->rd, &cfg, cols, rs->n_cols, err);
         if (rc != SW_OK)
+            return rc;
+        if ((rc = start_read_ahead(rs, err)) != SW_OK)
             return rc;
         if ((rc = read_record(rs, err)) != SW_OK)
             return rc;
@@ -263,7 +407,7 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
         g->gate = &sg->gate;
         use_series(st, h, &g->hw);
         use_series(st, t, &g->tw);
-        sw_gate_margin_slopes(g->gate, &g->k_hw, &g->k_tw);
+        sw_gate_get_bounds(g->gate, &g->bounds);
         g->run.min_fs = INFINITY;
         g->month.min_fs = INFINITY;
     }
@@ -280,8 +424,10 @@ void sw_stepper_free(sw_stepper *st)
 {
     if (st == NULL)
         return;
-    for (size_t r = 0; r < st->n_readers; r++)
+    for (size_t r = 0; r < st->n_readers; r++) {
+        stop_read_ahead(&st->readers[r]);
         sw_reader_free(st->readers[r].rd);
+    }
     for (size_t i = 0; i < st->n_series; i++)
         free(st->series[i].fifo.items);
     free(st->timeline.items);
@@ -389,7 +535,7 @@ static void evaluate(sw_stepper *st, gate_state *g, sw_time_ms t, double hw,
 {
     p->t = t;
     sw_gate_evaluate(g->gate, hw, tw, &p->r);
-    sw_gate_margins(g->gate, &p->r, &p->open_m, &p->alarm_m);
+    sw_gate_margins(g->gate, &p->r, p->m);
     p->state = (int)p->r.state;
     st->evaluations++;
     if (p->r.fs < g->run.min_fs) {
@@ -418,6 +564,8 @@ static void close_event(sw_stepper *st, gate_state *g, sw_time_ms end,
 
 static void event_point(gate_state *g, const point *p)
 {
+    if (p == NULL)
+        return;
     if (p->r.fs < g->ev.min_fs || isnan(g->ev.min_fs)) {
         g->ev.min_fs = p->r.fs;
         g->ev.min_fs_t = p->t;
@@ -515,66 +663,164 @@ static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
     return rc;
 }
 
-/* Can the state change inside [a, b]?  0 when the bound rules it out. */
-static int may_change(const gate_state *g, const point *a, const point *b)
+/* How far, at most, a margin strays from the straight line between its
+ * values at a and b (see the notes at the top). */
+static double stray(const gate_state *g, const point *a, const point *b)
+{
+    const sw_gate_bounds *k = &g->bounds;
+    double dh = b->r.headwater_m - a->r.headwater_m;
+    double dt = b->r.tailwater_m - a->r.tailwater_m;
+    double e = (k->curv_hw * dh * dh + k->curv_tw * dt * dt) / 8.0;
+    /* the water holding the buoyancy (the same at both ends here) */
+    int up = a->r.buoyancy_side == SW_UPSTREAM;
+    double za = up ? a->r.headwater_m : a->r.tailwater_m;
+    double zb = up ? b->r.headwater_m : b->r.tailwater_m;
+    if ((za - k->kink_level_m) * (zb - k->kink_level_m) <= 0.0)
+        e += k->kink * fabs(zb - za) / 4.0;
+    return e;
+}
+
+/* Does the buoyancy change water inside [a, b]?  (a jump in the margins) */
+static int side_changes(const point *a, const point *b)
 {
     double da = a->r.headwater_m - a->r.tailwater_m;
     double db = b->r.headwater_m - b->r.tailwater_m;
-
-    if (a->state != b->state)
-        return 1;
-    /* the buoyancy changes water where the levels cross: a jump */
-    if ((da > 0.0) != (db > 0.0) || (da < 0.0) != (db < 0.0))
-        return 1;
-    /* A margin moves by at most k over the piece, so its least value there
-     * is at least (f_a + f_b - k)/2 and its greatest at most
-     * (f_a + f_b + k)/2. */
-    double k = g->k_hw * fabs(b->r.headwater_m - a->r.headwater_m) +
-               g->k_tw * fabs(b->r.tailwater_m - a->r.tailwater_m);
-    double so = a->open_m + b->open_m, sa = a->alarm_m + b->alarm_m;
-    switch (a->state) {
-    case SW_STATE_OPEN:
-        return !(so + k <= 0.0);
-    case SW_STATE_LOW:
-        return !(so - k > 0.0 && sa + k < 0.0);
-    default:
-        return !(so - k > 0.0 && sa - k >= 0.0);
-    }
+    return a->r.buoyancy_side != b->r.buoyancy_side ||
+           (da == 0.0) != (db == 0.0);
 }
 
-/* Settle [A, B] by bisection where needed, booking each piece. */
+/* The worst state the margins can take where the uncertain ones (bit k of
+ * `unsure`) may have either sign and the others the sign of line[k]. */
+static int worst_state(const double line[SW_N_MARGINS], unsigned unsure)
+{
+    double m[SW_N_MARGINS];
+    for (int k = 0; k < SW_N_MARGINS; k++)
+        m[k] = (unsure & (1u << k)) ? -1.0 : line[k];
+    return (int)sw_gate_state_of(m);
+}
+
+/* Try to settle [a, b] without evaluating inside it.  Returns 0 if it
+ * needs halving; else books it (status in *rc) and returns 1. */
+static int settle_piece(sw_stepper *st, gate_state *g, const point *a,
+                        const point *b, int *rc, sw_error *err)
+{
+    double span = (double)(b->t - a->t);
+    double e, z0[SW_N_MARGINS], z1[SW_N_MARGINS];
+    sw_time_ms cuts[2 * SW_N_MARGINS + 1];
+    size_t n_cuts = 0;
+
+    *rc = SW_OK;
+    if (b->t - a->t <= RESOLUTION_MS) {
+        int state = a->state > b->state ? a->state : b->state;
+        *rc = account(st, g, a->t, b->t, state, a, b, err);
+        return 1;
+    }
+    if (side_changes(a, b))
+        return 0;
+    e = stray(g, a, b);
+    for (int k = 0; k < SW_N_MARGINS; k++) {
+        double fa = a->m[k], fb = b->m[k];
+        z0[k] = z1[k] = -1.0; /* no uncertain stretch (fractions of span) */
+        if ((fa > e && fb > e) || (fa < -e && fb < -e))
+            continue;
+        if (!((fa > e && fb < -e) || (fa < -e && fb > e)))
+            return 0; /* near zero at an end: look closer */
+        /* the line is within e of zero for fractions in [z0, z1] */
+        double u0 = (fa - e) / (fa - fb), u1 = (fa + e) / (fa - fb);
+        z0[k] = fmin(u0, u1);
+        z1[k] = fmax(u0, u1);
+        if ((z1[k] - z0[k]) * span > (double)RESOLUTION_MS)
+            return 0;
+        cuts[n_cuts++] = a->t + (sw_time_ms)floor(z0[k] * span);
+        cuts[n_cuts++] = a->t + (sw_time_ms)ceil(z1[k] * span);
+    }
+    /* sort the cuts (a handful) and book each stretch between them */
+    cuts[n_cuts++] = b->t;
+    for (size_t i = 1; i < n_cuts; i++)
+        for (size_t j = i; j > 0 && cuts[j] < cuts[j - 1]; j--) {
+            sw_time_ms tmp = cuts[j];
+            cuts[j] = cuts[j - 1];
+            cuts[j - 1] = tmp;
+        }
+    sw_time_ms from = a->t;
+    for (size_t i = 0; i < n_cuts && *rc == SW_OK; i++) {
+        sw_time_ms to = cuts[i] > b->t ? b->t : cuts[i];
+        if (to <= from)
+            continue;
+        double mid = ((double)(from - a->t) + (double)(to - a->t)) / 2.0 / span;
+        double line[SW_N_MARGINS];
+        unsigned unsure = 0;
+        for (int k = 0; k < SW_N_MARGINS; k++) {
+            line[k] = a->m[k] + (b->m[k] - a->m[k]) * mid;
+            /* a stretch touching the uncertain zone may hold either sign */
+            double lo = (double)(from - a->t) / span;
+            double hi = (double)(to - a->t) / span;
+            if (z1[k] >= 0.0 && hi > z0[k] && lo < z1[k])
+                unsure |= 1u << k;
+        }
+        *rc = account(st, g, from, to, worst_state(line, unsure),
+                      from == a->t ? a : NULL, to == b->t ? b : NULL, err);
+        from = to;
+    }
+    return 1;
+}
+
+/* Settle [A, B], halving where needed, booking each piece in order. */
 static int settle(sw_stepper *st, gate_state *g, const point *A,
                   const point *B, sw_error *err)
 {
     point stack[MAX_DEPTH];
     size_t top = 0;
-    point cur = *A;
-    int rc;
+    point cur;
+    int rc = SW_OK;
     double t0 = (double)A->t, span = (double)(B->t - A->t);
 
+    /* most pieces settle at once: no copies then */
+    if (settle_piece(st, g, A, B, &rc, err))
+        return rc;
+    cur = *A;
     stack[top++] = *B;
     while (top > 0) {
         const point *nx = &stack[top - 1];
-        sw_time_ms d = nx->t - cur.t;
-        if (d <= RESOLUTION_MS || !may_change(g, &cur, nx) ||
-            top == MAX_DEPTH) {
-            int state = cur.state > nx->state ? cur.state : nx->state;
-            if ((rc = account(st, g, cur.t, nx->t, state, &cur, nx, err)) !=
-                SW_OK)
+        if (top == MAX_DEPTH) /* never: halving 2^63 ms takes 63 levels */
+            rc = account(st, g, cur.t, nx->t,
+                         cur.state > nx->state ? cur.state : nx->state,
+                         &cur, nx, err);
+        if (top == MAX_DEPTH || settle_piece(st, g, &cur, nx, &rc, err)) {
+            if (rc != SW_OK)
                 return rc;
             cur = *nx;
             top--;
             continue;
         }
-        /* halve on whole seconds, so that times on whole seconds stay so */
-        sw_time_ms half = (d / 2000) * 1000;
-        sw_time_ms tm = cur.t + (half > 0 ? half : d / 2);
-        double w = ((double)tm - t0) / span;
-        double hw = A->r.headwater_m + (B->r.headwater_m - A->r.headwater_m) * w;
-        double tw = A->r.tailwater_m + (B->r.tailwater_m - A->r.tailwater_m) * w;
-        point mid;
-        evaluate(st, g, tm, hw, tw, &mid);
-        stack[top++] = mid;
+        sw_time_ms d = nx->t - cur.t, cut[2];
+        int n_cut = 1;
+        if (side_changes(&cur, nx) && d > 2 && top + 2 < MAX_DEPTH) {
+            /* the levels cross at a time we can solve for: cut the piece
+             * there, leaving a millisecond across the jump */
+            double da = cur.r.headwater_m - cur.r.tailwater_m;
+            double db = nx->r.headwater_m - nx->r.tailwater_m;
+            double u = da == db ? 0.5 : da / (da - db);
+            sw_time_ms t1 = cur.t + (sw_time_ms)floor(fmin(fmax(u, 0.0), 1.0) *
+                                                      (double)d);
+            if (t1 >= nx->t - 1)
+                t1 = nx->t - 2;
+            cut[0] = t1 + 1; /* pushed first: reached second */
+            cut[1] = t1 > cur.t ? t1 : cur.t + 1;
+            n_cut = cut[1] < cut[0] ? 2 : 1;
+        } else {
+            /* halve on whole seconds, so that whole seconds stay so */
+            sw_time_ms half = (d / 2000) * 1000;
+            cut[0] = cur.t + (half > 0 ? half : d / 2);
+        }
+        for (int i = 0; i < n_cut; i++) {
+            double w = ((double)cut[i] - t0) / span;
+            double hw = A->r.headwater_m +
+                        (B->r.headwater_m - A->r.headwater_m) * w;
+            double tw = A->r.tailwater_m +
+                        (B->r.tailwater_m - A->r.tailwater_m) * w;
+            evaluate(st, g, cut[i], hw, tw, &stack[top++]);
+        }
     }
     return SW_OK;
 }
@@ -586,22 +832,16 @@ static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
     gate_state *g = &st->gates[gi];
     const series_state *h = &st->series[g->hw];
     const series_state *w = &st->series[g->tw];
-    point A, B;
+    int have_last = g->last_known && g->pt[g->cur].t == a;
     int rc;
 
-    if (known) {
-        if (g->last_known && g->last.t == a)
-            A = g->last;
-        else
-            evaluate(st, g, a, level_at(h, a), level_at(w, a), &A);
-        g->at.known = 1;
-        g->at.result = A.r;
-    } else if (g->last_known && g->last.t == a) {
-        g->at.known = 1;
-        g->at.result = g->last.r;
-    } else {
-        g->at.known = 0;
+    if (known && !have_last) {
+        evaluate(st, g, a, level_at(h, a), level_at(w, a), &g->pt[g->cur]);
+        have_last = 1;
     }
+    g->at.known = have_last;
+    if (have_last && st->opt.keep_points)
+        g->at.result = g->pt[g->cur].r;
 
     while (a < b) {
         sw_time_ms cut = b;
@@ -612,20 +852,18 @@ static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
                 cut = g->month_next;
         }
         if (!known) {
-            if ((rc = account(st, g, a, cut, SW_STATE_UNKNOWN, NULL, NULL,
-                              err)) != SW_OK)
-                return rc;
+            rc = account(st, g, a, cut, SW_STATE_UNKNOWN, NULL, NULL, err);
         } else {
-            evaluate(st, g, cut, level_at(h, cut), level_at(w, cut), &B);
-            if ((rc = settle(st, g, &A, &B, err)) != SW_OK)
-                return rc;
-            A = B;
+            point *A = &g->pt[g->cur], *B = &g->pt[1 - g->cur];
+            evaluate(st, g, cut, level_at(h, cut), level_at(w, cut), B);
+            rc = settle(st, g, A, B, err);
+            g->cur = 1 - g->cur;
         }
+        if (rc != SW_OK)
+            return rc;
         a = cut;
     }
     g->last_known = known;
-    if (known)
-        g->last = A;
     return SW_OK;
 }
 
@@ -680,9 +918,9 @@ int sw_stepper_finish(sw_stepper *st, sw_error *err)
     st->now = st->span_end;
     for (size_t gi = 0; gi < st->n_gates; gi++) {
         gate_state *g = &st->gates[gi];
-        g->at.known = g->last_known && g->last.t == st->span_end;
-        if (g->at.known)
-            g->at.result = g->last.r;
+        g->at.known = g->last_known && g->pt[g->cur].t == st->span_end;
+        if (g->at.known && st->opt.keep_points)
+            g->at.result = g->pt[g->cur].r;
         close_event(st, g, st->span_end, SW_END_SERIES_END, err, &rc);
         if (rc != SW_OK)
             return rc;

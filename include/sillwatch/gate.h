@@ -105,19 +105,36 @@ void sw_gate_evaluate(const sw_gate *gate, double hw_m, double tw_m,
 void sw_gate_water_load(const sw_gate *gate, double level_m, double rho_kgm3,
                         double *force_N, double *moment_Nm);
 
-/* The two margins behind the state of a result: `open_margin` is the net
- * moment (the leaf is open where it is <= 0); `alarm_margin` is
- * min(Mr - required_fs * hw_moment, net - min_sill_reaction * s_sill),
- * which is >= 0 exactly where the state is ok (N*m both). */
+/* The margins behind the state of a result, N*m:
+ *   m[0] = net moment                                  (open where <= 0)
+ *   m[1] = Mr - required_fs * hw_moment                (low where < 0)
+ *   m[2] = net - min_sill_reaction * s_sill            (low where < 0)
+ * The state is open where m[0] <= 0, else low where m[1] < 0 or m[2] < 0,
+ * else ok.  Each is a smooth function of each level (see
+ * sw_gate_bounds). */
+#define SW_N_MARGINS 3
 void sw_gate_margins(const sw_gate *gate, const sw_gate_result *r,
-                     double *open_margin, double *alarm_margin);
+                     double m[SW_N_MARGINS]);
 
-/* Bounds on how fast either margin can change with the headwater and with
- * the tailwater, N*m per m, valid at any levels as long as neither water
- * passes the other (where the buoyancy changes water, a margin may jump;
- * see sw_gate_evaluate()). */
-void sw_gate_margin_slopes(const sw_gate *gate, double *per_hw,
-                           double *per_tw);
+/* The state that margins m imply (as sw_gate_evaluate() sets it). */
+sw_state sw_gate_state_of(const double m[SW_N_MARGINS]);
+
+/* Bounds on how the margins can vary with the levels, valid as long as
+ * neither water passes the other (where the buoyancy changes water, a
+ * margin may jump; see sw_gate_evaluate()):
+ *   slope_*   |d m / d level| <= slope, N*m per m;
+ *   curv_*    |d2 m / d level2| <= curv, N*m per m^2, except that
+ *   the buoyancy moment's slope jumps by at most `kink` N*m per m where the
+ *   water holding the buoyancy passes `kink_level_m` (the leaf's far end).
+ * So along a straight change of the levels by (dh, dt), every margin
+ * stays within (curv_hw dh^2 + curv_tw dt^2)/8 (+ kink |d|/4 where the
+ * kink is passed) of the straight line between its end values. */
+typedef struct sw_gate_bounds {
+    double slope_hw, slope_tw;
+    double curv_hw, curv_tw;
+    double kink, kink_level_m;
+} sw_gate_bounds;
+void sw_gate_get_bounds(const sw_gate *gate, sw_gate_bounds *b);
 
 /* Which limit a critical level belongs to. */
 typedef enum sw_limit {

@@ -73,7 +73,8 @@ typedef struct sw_month_row {
 /* A gate at the timeline point just passed. */
 typedef struct sw_step_gate {
     int known;                /* levels known at this point */
-    sw_gate_result result;    /* valid when known */
+    sw_gate_result result;    /* valid when known and the options asked
+                                 for keep_points */
 } sw_step_gate;
 
 /* Gaps found in a series (intervals between valid samples > max_gap). */
@@ -85,6 +86,7 @@ typedef struct sw_gap_stats {
 
 typedef struct sw_stepper_options {
     int by_month;             /* split hours by calendar month (site zone) */
+    int keep_points;          /* fill sw_step_gate.result at each point */
 } sw_stepper_options;
 
 typedef struct sw_stepper sw_stepper; /* opaque */

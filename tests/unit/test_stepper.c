@@ -2,6 +2,7 @@
  * gaps, several files, time zones and months, against hand computations. */
 #include "testutil.h"
 
+#include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
@@ -68,7 +69,7 @@ static int run_site(int by_month, run_result *out, sw_error *err)
     char path[128];
     sw_site site;
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {by_month};
+    sw_stepper_options opt = {by_month, 0};
     int rc, done = 0;
 
     memset(out, 0, sizeof *out);
@@ -360,6 +361,89 @@ static void test_gate_without_series(void **state)
     assert_non_null(strstr(err.message, "gate 'W' has no headwater series"));
 }
 
+/* The engine's hours against brute force: the levels of a tidal day with
+ * many state changes (and the tailwater crossing the headwater, where the
+ * buoyancy changes water) are evaluated at every second of the run on the
+ * same linear interpolation; the hours in each state must agree within one
+ * second per state change (the engine's resolution).  Two gates: a
+ * buoyant rectangle and a circle (reference: the model evaluated
+ * directly, sample by sample). */
+static void test_hours_match_brute_force(void **state)
+{
+    (void)state;
+    enum { N = 97 };
+    double hw[N], tw[N];
+    char csv[N * 64 + 64], *q = csv;
+    run_result r;
+    sw_error err;
+
+    q += sprintf(q, "time,hw,tw\n");
+    for (int i = 0; i < N; i++) {
+        double h = i * 0.25;
+        hw[i] = 11.64 + 0.05 * sin(h / 5.0) + 0.003 * sin(7.7 * h);
+        tw[i] = 11.35 + 0.6 * sin(6.283185307 * h / 12.42) + 0.004 * cos(5.1 * h);
+        /* round as the file will be read */
+        char a[32], b[32];
+        sprintf(a, "%.4f", hw[i]);
+        sprintf(b, "%.4f", tw[i]);
+        hw[i] = atof(a);
+        tw[i] = atof(b);
+        q += sprintf(q, "2025-04-01T%02d:%02d:00Z,%s,%s\n", (i * 15) / 60,
+                     (i * 15) % 60, a, b);
+    }
+    q += sprintf(q, "2025-04-02T00:00:00Z,%.4f,%.4f\n", hw[N - 1], tw[N - 1]);
+    write_file("l.csv", csv);
+    write_file("site.ini",
+               "[site]\nrequired_fs = 1.5\nmin_sill_reaction = 300\n"
+               "[water upstream]\ntemperature = 9\n"
+               "[water downstream]\ntemperature = 12.5\nsalinity = 8\n"
+               "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+               "[series tw]\nfile = l.csv\nvalue_column = tw\n"
+               "[gate west]\nshape = rectangle\nhinge_level = 12.4\n"
+               "inclination = 80\nseal_top = 0.15\nseal_height = 1.4\n"
+               "seal_width = 1.6\nleaf_length = 1.65\nmass = 1450\n"
+               "cg_along = 0.86\nvolume = 0.185\nextra_moment = 4200\n"
+               "headwater = hw\ntailwater = tw\n"
+               "[gate bypass]\nshape = circle\nhinge_level = 11.95\n"
+               "inclination = 75\nseal_top = 0.12\ndiameter = 0.9\n"
+               "leaf_length = 1.1\nmass = 420\ncg_along = 0.55\n"
+               "volume = 0.054\nextra_moment = 700\n"
+               "headwater = hw\ntailwater = tw\n");
+    assert_int_equal(run_site(0, &r, &err), SW_OK);
+
+    char path[128];
+    sw_site site;
+    snprintf(path, sizeof path, "%s/site.ini", dir);
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    for (size_t gi = 0; gi < 2; gi++) {
+        long secs[3] = {0, 0, 0}, changes = 0;
+        int prev = -1;
+        /* 96 intervals of 900 s, then the row at 24:00 repeats the last
+         * levels (a flat quarter hour) */
+        for (long t = 0; t < 24 * 3600; t++) {
+            int i = (int)(t / 900);
+            double w = (double)(t % 900) / 900.0;
+            double h1 = i + 1 < N ? hw[i + 1] : hw[N - 1];
+            double t1 = i + 1 < N ? tw[i + 1] : tw[N - 1];
+            sw_gate_result res;
+            /* evaluate mid-second: the state held over [t, t+1) */
+            w += 0.5 / 900.0;
+            sw_gate_evaluate(&site.gates[gi].gate, hw[i] + (h1 - hw[i]) * w,
+                             tw[i] + (t1 - tw[i]) * w, &res);
+            secs[res.state]++;
+            if (prev >= 0 && (int)res.state != prev)
+                changes++;
+            prev = (int)res.state;
+        }
+        assert_true(changes >= 4); /* the case has state changes */
+        double tol = (double)changes + 1.0;
+        assert_close_abs((double)r.tally[gi].low / 1000.0, (double)secs[1], tol);
+        assert_close_abs((double)r.tally[gi].open / 1000.0, (double)secs[2], tol);
+        assert_int_equal(r.tally[gi].evaluated, 24 * H);
+    }
+    sw_site_fini(&site);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -373,6 +457,7 @@ int main(void)
         cmocka_unit_test(test_months_in_zone),
         cmocka_unit_test(test_backwards_time_is_an_error),
         cmocka_unit_test(test_gate_without_series),
+        cmocka_unit_test(test_hours_match_brute_force),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
 }

@@ -1,0 +1,201 @@
+/* Benchmark (not a test): the replay of `sillwatch run` on long synthetic
+ * level files, against a bare libcsv parse of the same files.
+ *
+ * Generates (once, under build/bench/data/) files of 500,000 and 5,000,000
+ * rows at 15-minute steps, "time,headwater,tailwater", and a site with
+ * three gates (two rectangles, one circle).  For each file it prints the
+ * bare parse time, the replay time, MB/s, rows/s, gate-steps/s, the ratio
+ * replay / bare parse (target <= 2) and the replay's peak RSS (target
+ * <= 16 MiB, the same for both lengths).  Figures only; never fails on
+ * time.  Run from the repository root (make bench does). */
+#define _DEFAULT_SOURCE
+#include <csv.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/resource.h>
+#include <sys/stat.h>
+#include <sys/time.h>
+#include <sys/wait.h>
+#include <time.h>
+#include <unistd.h>
+
+#define DATA_DIR "build/bench/data"
+
+static double now_s(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+/* Civil date from days since 1970-01-01 (H. Hinnant's algorithm). */
+static void civil(long z, int *y, int *m, int *d)
+{
+    z += 719468;
+    long era = (z >= 0 ? z : z - 146096) / 146097;
+    long doe = z - era * 146097;
+    long yoe = (doe - doe / 1460 + doe / 36524 - doe / 146096) / 365;
+    long doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    long mp = (5 * doy + 2) / 153;
+    *d = (int)(doy - (153 * mp + 2) / 5 + 1);
+    *m = (int)(mp < 10 ? mp + 3 : mp - 9);
+    *y = (int)(yoe + era * 400 + (*m <= 2));
+}
+
+/* Levels that cross the gates' limits now and then: a slow seasonal
+ * headwater with floods, a tidal tailwater, and a little noise. */
+static int generate(const char *path, long rows)
+{
+    struct stat sb;
+    if (stat(path, &sb) == 0)
+        return 0;
+    FILE *fp = fopen(path, "w");
+    if (fp == NULL)
+        return -1;
+    unsigned long seed = 12345;
+    long t0 = 1577836800; /* 2020-01-01T00:00:00Z */
+    fputs("time,headwater,tailwater\n", fp);
+    for (long i = 0; i < rows; i++) {
+        long t = t0 + i * 900;
+        int y, m, d;
+        civil(t / 86400, &y, &m, &d);
+        long s = t % 86400;
+        double h = (double)i / 4.0;
+        seed = (seed * 16807) % 2147483647;
+        double noise = (double)seed / 2147483647.0 - 0.5;
+        double hw = 11.45 + 0.08 * sin(h / 1300.0) +
+                    0.5 * pow(sin(h / 410.0), 16) + 0.004 * noise;
+        double tw = 11.35 + 0.55 * sin(2.0 * M_PI * h / 12.42) + 0.006 * noise;
+        fprintf(fp, "%04d-%02d-%02dT%02ld:%02ld:00Z,%.3f,%.3f\n", y, m, d,
+                s / 3600, (s % 3600) / 60, hw, tw);
+    }
+    return fclose(fp);
+}
+
+static int write_site(const char *path, const char *levels)
+{
+    FILE *fp = fopen(path, "w");
+    if (fp == NULL)
+        return -1;
+    fprintf(fp,
+            "[site]\nrequired_fs = 1.5\nmin_sill_reaction = 300\n"
+            "[water upstream]\ntemperature = 9\n"
+            "[water downstream]\ntemperature = 12.5\nsalinity = 8\n"
+            "[series hw]\nfile = %s\nvalue_column = headwater\n"
+            "[series tw]\nfile = %s\nvalue_column = tailwater\n"
+            "[gate r1]\nshape = rectangle\nhinge_level = 12.4\n"
+            "inclination = 80\nseal_top = 0.15\nseal_height = 1.4\n"
+            "seal_width = 1.6\nleaf_length = 1.65\nmass = 1450\n"
+            "cg_along = 0.86\nvolume = 0.185\nextra_moment = 4200\n"
+            "headwater = hw\ntailwater = tw\n"
+            "[gate r2]\nshape = rectangle\nhinge_level = 12.4\n"
+            "inclination = 78\nseal_top = 0.2\nseal_height = 1.3\n"
+            "seal_width = 1.2\nmass = 1100\ncg_along = 0.8\n"
+            "extra_moment = 3900\nheadwater = hw\ntailwater = tw\n"
+            "[gate c1]\nshape = circle\nhinge_level = 11.95\n"
+            "inclination = 75\nseal_top = 0.12\ndiameter = 0.9\n"
+            "leaf_length = 1.1\nmass = 420\ncg_along = 0.55\n"
+            "volume = 0.054\nextra_moment = 700\n"
+            "headwater = hw\ntailwater = tw\n",
+            levels, levels);
+    return fclose(fp);
+}
+
+static void on_field(void *s, size_t len, void *data)
+{
+    (void)s;
+    *(size_t *)data += len;
+}
+
+static void on_row(int c, void *data)
+{
+    (void)c;
+    (void)data;
+}
+
+/* A bare libcsv parse of the whole file, callbacks doing nothing. */
+static double bare_parse(const char *path)
+{
+    static char buf[1 << 20];
+    struct csv_parser p;
+    size_t n, sink = 0;
+    FILE *fp = fopen(path, "rb");
+    if (fp == NULL || csv_init(&p, 0) != 0)
+        return -1.0;
+    double t0 = now_s();
+    while ((n = fread(buf, 1, sizeof buf, fp)) > 0)
+        csv_parse(&p, buf, n, on_field, on_row, &sink);
+    csv_fini(&p, on_field, on_row, &sink);
+    double t = now_s() - t0;
+    csv_free(&p);
+    fclose(fp);
+    return sink > 0 ? t : -1.0;
+}
+
+/* Run the program; return wall seconds and peak RSS in KiB. */
+static int run_replay(const char *site, double *secs, long *rss_kib)
+{
+    double t0 = now_s();
+    pid_t pid = fork();
+    if (pid < 0)
+        return -1;
+    if (pid == 0) {
+        execl("build/sillwatch", "sillwatch", "run", site, "-o",
+              "build/bench/out", "-q", (char *)NULL);
+        _exit(127);
+    }
+    int status;
+    struct rusage ru;
+    if (wait4(pid, &status, 0, &ru) < 0)
+        return -1;
+    *secs = now_s() - t0;
+    *rss_kib = ru.ru_maxrss;
+    if (!WIFEXITED(status) || WEXITSTATUS(status) > 1) {
+        fprintf(stderr, "bench: sillwatch exited with %d\n",
+                WIFEXITED(status) ? WEXITSTATUS(status) : -1);
+        return -1;
+    }
+    return 0;
+}
+
+int main(void)
+{
+    static const long sizes[2] = {500000, 5000000};
+
+    mkdir("build/bench", 0777);
+    mkdir(DATA_DIR, 0777);
+    mkdir("build/bench/out", 0777);
+    for (int k = 0; k < 2; k++) {
+        char levels[128], site[128];
+        struct stat sb;
+        snprintf(levels, sizeof levels, DATA_DIR "/levels-%ld.csv", sizes[k]);
+        snprintf(site, sizeof site, DATA_DIR "/site-%ld.ini", sizes[k]);
+        if (generate(levels, sizes[k]) != 0 ||
+            write_site(site, strrchr(levels, '/') + 1) != 0 ||
+            stat(levels, &sb) != 0) {
+            fprintf(stderr, "bench: cannot write %s: %s\n", levels,
+                    strerror(errno));
+            return 1;
+        }
+        double mb = (double)sb.st_size / 1e6;
+        double bare = bare_parse(levels);
+        double secs;
+        long rss;
+        if (bare < 0 || run_replay(site, &secs, &rss) != 0)
+            return 1;
+        printf("replay of %ld rows (%.1f MB), 3 gates:\n", sizes[k], mb);
+        printf("  bare libcsv parse   %7.3f s  %7.1f MB/s\n", bare, mb / bare);
+        printf("  sillwatch run       %7.3f s  %7.1f MB/s  %.3g rows/s  "
+               "%.3g gate-steps/s\n",
+               secs, mb / secs, (double)sizes[k] / secs,
+               3.0 * (double)sizes[k] / secs);
+        printf("  replay / bare parse %7.2f    (target <= 2)\n", secs / bare);
+        printf("  peak RSS            %7.1f MiB (target <= 16 MiB, "
+               "independent of length)\n",
+               (double)rss / 1024.0);
+    }
+    return 0;
+}
