@@ -84,7 +84,7 @@ typedef struct section_def {
 
 enum site_key {
     SK_NAME, SK_GRAVITY, SK_LATITUDE, SK_ELEVATION, SK_REQUIRED_FS,
-    SK_MIN_SILL_REACTION, SK_MAX_GAP, SK_TIMEZONE, SK_COUNT
+    SK_MIN_SILL_REACTION, SK_MAX_GAP, SK_TIMEZONE, SK_ENSEMBLE, SK_COUNT
 };
 
 static const key_def site_keys[SK_COUNT] = {
@@ -110,6 +110,8 @@ static const key_def site_keys[SK_COUNT] = {
     [SK_MAX_GAP] = {"max_gap", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
                     NULL, NULL},
     [SK_TIMEZONE] = {"timezone", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
+    [SK_ENSEMBLE] = {"ensemble", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
                      NULL, NULL, NULL},
 };
 
@@ -1138,6 +1140,16 @@ static int resolve_site(parser *p, const section *s, sw_site *site)
         const slot *sl = &s->slots[SK_MAX_GAP];
         if (sw_duration_parse(sl->text, &site->max_gap_ms, p->err) != SW_OK)
             return relocate(p, sl, "[site]: key 'max_gap'");
+    }
+    if (s->slots[SK_ENSEMBLE].given) {
+        const slot *sl = &s->slots[SK_ENSEMBLE];
+        if (strcmp(sl->text, "crossed") == 0)
+            site->ensemble_crossed = 1;
+        else if (strcmp(sl->text, "paired") != 0)
+            return fail(p, sl->line, sl->val_col,
+                        "[site]: key 'ensemble': '%.40s' is not paired (members "
+                        "matched by label) or crossed (every combination)",
+                        sl->text);
     }
     if (s->slots[SK_TIMEZONE].given) {
         const slot *sl = &s->slots[SK_TIMEZONE];

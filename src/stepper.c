@@ -639,12 +639,20 @@ static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
         close_event(st, g, a, SW_END_RECOVERED, err, &rc);
         return rc;
     }
+    if (!g->run.below_seen) {
+        g->run.below_seen = 1;
+        g->run.first_below = a;
+    }
     if (state == SW_STATE_LOW) {
         g->run.low += d;
         g->month.low += d;
     } else {
         g->run.open += d;
         g->month.open += d;
+        if (!g->run.open_seen) {
+            g->run.open_seen = 1;
+            g->run.first_open = a;
+        }
     }
     if (!g->in_event) {
         g->in_event = 1;

@@ -4,7 +4,8 @@
  * of the model document:
  *
  *   [site]             name, gravity | latitude (+ elevation),
- *                      required_fs, min_sill_reaction, max_gap, timezone
+ *                      required_fs, min_sill_reaction, max_gap, timezone,
+ *                      ensemble
  *   [water upstream]   density | temperature (+ salinity)
  *   [water downstream] density | temperature (+ salinity)
  *   [gate NAME]        shape, hinge_level, inclination, seal_top,
@@ -75,6 +76,9 @@ typedef struct sw_site {
                                        default one hour */
     sw_zone *zone;                  /* for timestamps without an offset;
                                        NULL when no timezone is given */
+    int ensemble_crossed;           /* ensemble = crossed: every
+                                       combination of members; 0: paired
+                                       by member label (the default) */
     size_t n_gates;
     sw_site_gate *gates;            /* in file order; owned by the site */
     size_t n_series;

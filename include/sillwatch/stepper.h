@@ -60,6 +60,9 @@ typedef struct sw_tally {
     sw_time_ms longest_event; /* (run tally only) */
     double min_fs;            /* +inf when never evaluated */
     sw_time_ms min_fs_t;
+    int below_seen, open_seen; /* the first instants below the margin */
+    sw_time_ms first_below;    /* (low or open) and open, when seen */
+    sw_time_ms first_open;
 } sw_tally;
 
 /* One gate's month, closed. */

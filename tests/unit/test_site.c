@@ -831,8 +831,14 @@ static void test_replay_keys(void **state)
     assert_int_equal(site.max_gap_ms, 9000000);
     assert_non_null(site.zone);
     assert_string_equal(sw_zone_name(site.zone), "+10:00");
+    assert_int_equal(site.ensemble_crossed, 0);
     sw_site_fini(&site);
 
+    load_ok(WATER GATE_G1 "[site]\nensemble = crossed\n", &site);
+    assert_int_equal(site.ensemble_crossed, 1);
+    sw_site_fini(&site);
+    expect_error(WATER GATE_G1 "[site]\nensemble = every\n", 16, 12,
+                 "'every' is not paired (members matched by label) or crossed");
     expect_error(WATER GATE_G1 "[site]\nmax_gap = 90 m\n", 16, 11,
                  "[site]: key 'max_gap'");
     expect_error(WATER GATE_G1 "[site]\ntimezone = Europe/Atlantis\n", 16,
