@@ -46,5 +46,7 @@ extern const char sw_cli_caution[];
 int sw_cmd_check(int argc, char **argv);
 int sw_cmd_point(int argc, char **argv);
 int sw_cmd_run(int argc, char **argv);
+int sw_cmd_screen(int argc, char **argv);
+int sw_cmd_thresholds(int argc, char **argv);
 
 #endif

@@ -5,7 +5,7 @@
  * an integer.  When that integer and the power of ten are both exact as
  * doubles, one IEEE multiplication or division gives the correctly rounded
  * result (Clinger's fast path).  Everything else is handed to strtod on a
- * canonical copy of the number ("[-]DIGITSeEXP", '.' as the separator).
+ * canonical copy of the number, "[-]DIGITSeEXP" without a separator.
  *
  * strtod depends on the locale (LC_NUMERIC sets the separator it reads).
  * The program never calls setlocale, so the "C" locale is in force; and
@@ -28,7 +28,8 @@
  * decimal digits, so keeping 768 digits and replacing the rest by one
  * nonzero "sticky" digit (when any of them was nonzero) never changes on
  * which side of such a halfway point the number lies (Lemire 2021, "Number
- * parsing at a gigabyte per second", Softw. Pract. Exp. 51(8), sec. 11). */
+ * parsing at a gigabyte per second", Software: Practice and Experience
+ * 51(8)). */
 #define KEEP_DIGITS 768
 
 /* Explicit exponents are saturated here: beyond it every number with at
@@ -44,7 +45,7 @@
 #endif
 
 /* 10^0 .. 10^22: every one is exactly representable as a double, since
- * 10^22 = 2^22 * 5^22 and 5^22 < 2^53 (Clinger 1990, sec. 7). */
+ * 10^22 = 2^22 * 5^22 and 5^22 < 2^53 (Clinger 1990). */
 static const double exact_pow10[23] = {
     1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
     1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22

@@ -28,6 +28,10 @@ static const char usage_text[] =
     "  point SITE.ini     hand-check the gates at one headwater and tailwater\n"
     "  run SITE.ini -o D  replay the site's level series through every gate;\n"
     "                     write summary, exceedance log and more to D\n"
+    "  screen SITE.ini -o D  screen forecast levels (ensembles too) and the\n"
+    "                     tailwater a headwater-only forecast needs\n"
+    "  thresholds SITE.ini (--headwater | --tailwater) FROM:TO:STEP -o FILE\n"
+    "                     write a table of alarm thresholds for controllers\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -112,6 +116,8 @@ int main(int argc, char **argv)
         {"check", sw_cmd_check},
         {"point", sw_cmd_point},
         {"run", sw_cmd_run},
+        {"screen", sw_cmd_screen},
+        {"thresholds", sw_cmd_thresholds},
     };
 
     /* Failures are reported through status codes, never by abort(). */

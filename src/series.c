@@ -5,8 +5,9 @@
  *
  *   1. Lines.  The file is read with fread into one buffer, 64 KiB at a
  *      time; memchr finds each '\n'.  A line that does not fit is kept
- *      across refills, the buffer growing up to 1 MiB, so the physical line
- *      number of every line is known.  Trailing carriage returns are cut off
+ *      across refills (the buffer grows for a line longer than a chunk,
+ *      up to the 1 MiB line limit), so the physical line number of every
+ *      line is known.  Trailing carriage returns are cut off
  *      a line and its end handed to libcsv as a single '\n', so a CRLF line
  *      is one record and a CR never ends up inside a field.
  *   2. Records.  At a record boundary (not inside a quoted field) comment
@@ -24,9 +25,14 @@
  *      hours), its order against the previous record checked, and only then
  *      are its counts added to the statistics.
  *
+ * Records skipped (exact duplicates, local times in a skipped hour) are
+ * counted as such and add nothing to the per-column counts, which describe
+ * the rows handed out.
+ *
  * Memory: the read buffer (64 KiB, up to 1 MiB + 64 KiB for long lines),
- * libcsv's field buffer (bounded by the 1 MiB record limit), the header's
- * names, and fixed-size per-column state.  Nothing grows with the file.
+ * libcsv's field buffer (bounded by the 4 MiB record limit), the header's
+ * names while the reader opens, and fixed-size per-column state.  Nothing
+ * grows with the length of the file.
  */
 #include "sillwatch/series.h"
 
@@ -110,7 +116,7 @@ struct sw_reader {
     long line;         /* physical lines taken so far */
 
     /* the record being read */
-    int in_record;     /* inside a record that spans lines */
+    int in_record;     /* a record has begun and not ended yet */
     int rec_done;      /* libcsv reported its end */
     int stray_cr;      /* a CR inside a line ended a record */
     size_t cr_fields;  /* fields seen when it did */
@@ -543,6 +549,15 @@ static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
     }
 }
 
+/* A reading for a message: "12.345 m", or "no reading" for NAN. */
+static void format_level(char *buf, size_t n, double v)
+{
+    if (isnan(v))
+        snprintf(buf, n, "no reading");
+    else
+        snprintf(buf, n, "%.10g m", v);
+}
+
 /* Compare two readings: equal numbers, or both missing. */
 static int same_value(double a, double b)
 {
@@ -558,7 +573,7 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
     sw_reader_stats *st = &r->stats;
     long time_col = (long)r->time_idx + 1;
     sw_time_ms t;
-    char a[48], b[48];
+    char a[48], b[48], v[48];
 
     *keep = 0;
     st->records++;
@@ -619,11 +634,12 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
         for (size_t c = 0; c < r->n_columns; c++) {
             if (!same_value(r->val[c], r->prev_val[c])) {
                 sw_time_format(a, sizeof a, t, r->zone);
+                format_level(b, sizeof b, r->prev_val[c]);
+                format_level(v, sizeof v, r->val[c]);
                 return fail_at(r, err, SW_EDATA, r->rec_line, r->col[c].field,
                                "duplicate time %s with a different value "
-                               "(line %ld has %s = %.10g m, this line %.10g "
-                               "m)", a, r->prev_line, r->col[c].name,
-                               r->prev_val[c], r->val[c]);
+                               "(line %ld has %s = %s, this line %s)", a,
+                               r->prev_line, r->col[c].name, b, v);
             }
         }
         if (st->duplicates++ == 0)
@@ -896,6 +912,67 @@ const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader)
 char sw_reader_delimiter(const sw_reader *reader)
 {
     return reader->delim;
+}
+
+int sw_csv_header(const char *path, char delimiter, char ***names, size_t *n,
+                  sw_error *err)
+{
+    sw_reader_config cfg = {path, "", SW_TIME_ISO8601, delimiter, NULL};
+    sw_reader *r;
+    int got = 0, rc;
+
+    *names = NULL;
+    *n = 0;
+    if ((r = calloc(1, sizeof *r)) == NULL)
+        return sw_error_set(err, SW_ENOMEM, path, 0, 0, "out of memory");
+    if ((rc = copy_config(r, &cfg, NULL, 0, err)) != SW_OK)
+        goto cleanup;
+    if ((r->fp = fopen(r->path, "rb")) == NULL) {
+        rc = fail_at(r, err, SW_EDATA, 0, 0, "cannot open the level file: %s",
+                     strerror(errno));
+        goto cleanup;
+    }
+    if ((r->buf = malloc(CHUNK_BYTES)) == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+        goto cleanup;
+    }
+    r->cap = CHUNK_BYTES;
+    csv_init(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
+    r->csv_ready = 1;
+    if (r->delim != 0)
+        csv_set_delim(&r->csv, (unsigned char)r->delim);
+    if ((rc = read_record(r, on_header_field, &got, err)) != SW_OK)
+        goto cleanup;
+    if (!got) {
+        rc = fail_at(r, err, SW_EDATA, 0, 0,
+                     "the level file has no header row");
+        goto cleanup;
+    }
+    if ((*names = calloc(r->hdr_n ? r->hdr_n : 1, sizeof **names)) == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+        goto cleanup;
+    }
+    for (size_t i = 0; i < r->hdr_n; i++) {
+        if (((*names)[i] = copy_string(r->hdr + r->hdr_off[i])) == NULL) {
+            sw_csv_header_free(*names, i);
+            *names = NULL;
+            rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+            goto cleanup;
+        }
+    }
+    *n = r->hdr_n;
+cleanup:
+    sw_reader_free(r);
+    return rc;
+}
+
+void sw_csv_header_free(char **names, size_t n)
+{
+    if (names == NULL)
+        return;
+    for (size_t i = 0; i < n; i++)
+        free(names[i]);
+    free(names);
 }
 
 void sw_reader_free(sw_reader *reader)

@@ -35,7 +35,8 @@ typedef struct sample {
     double v;
 } sample;
 
-/* A ring buffer of samples or of times, growing by doubling. */
+/* A ring buffer of samples or of times, growing by doubling (its capacity
+ * stays a power of two, so that indices wrap with a mask). */
 typedef struct ring {
     sample *items;
     size_t head, count, cap;
@@ -98,6 +99,10 @@ typedef struct gate_state {
     const sw_gate *gate;
     size_t hw, tw;           /* series indices */
     sw_gate_bounds bounds;
+    double rate_hw;          /* bound on d hw_moment / d hw, N*m per m */
+    /* Since the last evaluated point pt[cur] (the anchor), the levels have
+     * strayed from it by at most these, without the waters crossing. */
+    double drift_hw, drift_tw;
     int last_known;          /* the previous interval was known ... */
     point pt[2];             /* ... and pt[cur] is its right end; the */
     int cur;                 /* other slot is scratch */
@@ -137,26 +142,26 @@ static int ring_push(ring *q, sample s)
         if (items == NULL)
             return -1;
         for (size_t i = 0; i < q->count; i++)
-            items[i] = q->items[(q->head + i) % q->cap];
+            items[i] = q->items[(q->head + i) & (q->cap - 1)];
         free(q->items);
         q->items = items;
         q->head = 0;
         q->cap = cap;
     }
-    q->items[(q->head + q->count) % q->cap] = s;
+    q->items[(q->head + q->count) & (q->cap - 1)] = s;
     q->count++;
     return 0;
 }
 
 static const sample *ring_at(const ring *q, size_t i)
 {
-    return &q->items[(q->head + i) % q->cap];
+    return &q->items[(q->head + i) & (q->cap - 1)];
 }
 
 static sample ring_pop(ring *q)
 {
     sample s = q->items[q->head];
-    q->head = (q->head + 1) % q->cap;
+    q->head = (q->head + 1) & (q->cap - 1);
     q->count--;
     return s;
 }
@@ -408,6 +413,8 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
         use_series(st, h, &g->hw);
         use_series(st, t, &g->tw);
         sw_gate_get_bounds(g->gate, &g->bounds);
+        g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
+                     g->gate->first_moment_m3;
         g->run.min_fs = INFINITY;
         g->month.min_fs = INFINITY;
     }
@@ -742,6 +749,8 @@ static int settle_piece(sw_stepper *st, gate_state *g, const point *a,
         cuts[n_cuts++] = a->t + (sw_time_ms)floor(z0[k] * span);
         cuts[n_cuts++] = a->t + (sw_time_ms)ceil(z1[k] * span);
     }
+    if (n_cuts == 0) /* every margin keeps its sign: the usual case */
+        return *rc = account(st, g, a->t, b->t, a->state, a, b, err), 1;
     /* sort the cuts (a handful) and book each stretch between them */
     cuts[n_cuts++] = b->t;
     for (size_t i = 1; i < n_cuts; i++)
@@ -834,21 +843,55 @@ static int settle(sw_stepper *st, gate_state *g, const point *A,
 }
 
 /* Book [a, b] of gate g, cut at month boundaries when asked. */
+/* May the gate's evaluation at the end of a piece ending at levels
+ * (hw, tw) be skipped?  Yes where the margins at the anchor, less the most
+ * the levels' travel since it can change them (the slope bounds, valid
+ * while the waters do not cross), stay positive, so the state is ok
+ * throughout; and where the factor of safety cannot have fallen below the
+ * least one recorded (fs >= required_fs + m[1] / hw_moment), so that the
+ * reported minima are those at every time step.  A quiet stretch then
+ * costs no evaluation at all. */
+static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
+{
+    const point *p = &g->pt[g->cur];
+    const sw_gate_bounds *k = &g->bounds;
+    double side_p = p->r.headwater_m - p->r.tailwater_m, side = hw - tw;
+    double dh = fmax(g->drift_hw, fabs(hw - p->r.headwater_m));
+    double dt = fmax(g->drift_tw, fabs(tw - p->r.tailwater_m));
+    double loss = k->slope_hw * dh + k->slope_tw * dt;
+
+    if (st->opt.keep_points || p->state != SW_STATE_OK ||
+        !((side_p > 0.0 && side > 0.0) || (side_p < 0.0 && side < 0.0)))
+        return 0;
+    for (int m = 0; m < SW_N_MARGINS; m++)
+        if (!(p->m[m] - loss > 0.0))
+            return 0;
+    double hwm = p->r.hw_moment_Nm + g->rate_hw * dh;
+    double fs_low = hwm > 0.0 ? g->gate->required_fs + (p->m[1] - loss) / hwm
+                              : INFINITY;
+    if (fs_low < g->run.min_fs ||
+        (st->opt.by_month && fs_low < g->month.min_fs))
+        return 0;
+    g->drift_hw = dh;
+    g->drift_tw = dt;
+    return 1;
+}
+
 static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
                          sw_time_ms b, int known, sw_error *err)
 {
     gate_state *g = &st->gates[gi];
     const series_state *h = &st->series[g->hw];
     const series_state *w = &st->series[g->tw];
-    int have_last = g->last_known && g->pt[g->cur].t == a;
     int rc;
 
-    if (known && !have_last) {
+    /* a run of known levels starts with an evaluation: the anchor */
+    if (known && !g->last_known) {
         evaluate(st, g, a, level_at(h, a), level_at(w, a), &g->pt[g->cur]);
-        have_last = 1;
+        g->drift_hw = g->drift_tw = 0.0;
     }
-    g->at.known = have_last;
-    if (have_last && st->opt.keep_points)
+    g->at.known = known || (g->last_known && g->pt[g->cur].t == a);
+    if (g->at.known && st->opt.keep_points)
         g->at.result = g->pt[g->cur].r;
 
     while (a < b) {
@@ -862,10 +905,18 @@ static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
         if (!known) {
             rc = account(st, g, a, cut, SW_STATE_UNKNOWN, NULL, NULL, err);
         } else {
-            point *A = &g->pt[g->cur], *B = &g->pt[1 - g->cur];
-            evaluate(st, g, cut, level_at(h, cut), level_at(w, cut), B);
-            rc = settle(st, g, A, B, err);
-            g->cur = 1 - g->cur;
+            double hw = level_at(h, cut), tw = level_at(w, cut);
+            if (may_skip(st, g, hw, tw)) {
+                rc = account(st, g, a, cut, SW_STATE_OK, NULL, NULL, err);
+            } else {
+                point *A = &g->pt[g->cur], *B = &g->pt[1 - g->cur];
+                if (A->t != a) /* skipped: evaluate where this piece starts */
+                    evaluate(st, g, a, level_at(h, a), level_at(w, a), A);
+                evaluate(st, g, cut, hw, tw, B);
+                rc = settle(st, g, A, B, err);
+                g->cur = 1 - g->cur;
+                g->drift_hw = g->drift_tw = 0.0;
+            }
         }
         if (rc != SW_OK)
             return rc;

@@ -119,14 +119,15 @@ typedef struct tz_rule {
 /* Day number (days since 1970-01-01) of a rule date in year y. */
 static int64_t tz_date_day(const tz_date *td, int64_t y)
 {
-    int64_t jan1 = sw_days_from_civil(y, 1, 1), first, day;
+    int64_t first, day;
     int wd1, dim;
 
     switch (td->kind) {
     case 'J':
-        return jan1 + td->n - 1 + (is_leap(y) && td->n >= 60);
+        return sw_days_from_civil(y, 1, 1) + td->n - 1
+               + (is_leap(y) && td->n >= 60);
     case 'N':
-        return jan1 + td->n;
+        return sw_days_from_civil(y, 1, 1) + td->n;
     default:
         /* 1970-01-01 was a Thursday (weekday 4, Sunday = 0). */
         first = sw_days_from_civil(y, td->m, 1);
@@ -139,16 +140,19 @@ static int64_t tz_date_day(const tz_date *td, int64_t y)
     }
 }
 
-/* Offset of the rule at t_s, and the next change after it (INT64_MAX if
- * none).  The six changes of the years around t are put in order; the
- * latest at or before t sets the state.  Of two changes at the same
- * instant the one of the later year wins, which makes a rule such as
- * "EST5EDT,0/0,J365/25" (daylight time all year) come out right. */
-static int32_t tz_rule_info(const tz_rule *r, int64_t t_s, int64_t *until_s)
+/* Offset of the rule at t_s, whether it is daylight time, and the next
+ * change after t_s (INT64_MAX if none).  The six changes of the years
+ * around t are put in order; the latest at or before t sets the state.
+ * Of two changes at the same instant the one of the later year wins,
+ * which makes a rule such as "EST5EDT,0/0,J365/25" (daylight time all
+ * year, RFC 8536 sec. 3.3.1) come out right. */
+static int32_t tz_rule_info(const tz_rule *r, int64_t t_s, int64_t *until_s,
+                            int *is_dst)
 {
     int64_t days, y, best = INT64_MIN, next = INT64_MAX;
     int m, d, dst = 0;
 
+    *is_dst = 0;
     if (!r->has_dst) {
         *until_s = INT64_MAX;
         return r->std_off_s;
@@ -179,6 +183,7 @@ static int32_t tz_rule_info(const tz_rule *r, int64_t t_s, int64_t *until_s)
         }
     }
     *until_s = next;
+    *is_dst = dst;
     return dst ? r->dst_off_s : r->std_off_s;
 }
 
@@ -336,7 +341,9 @@ struct sw_zone {
     int32_t fixed_s;        /* fixed zones: the offset */
     int32_t before_s;       /* offset before the first transition */
     size_t n_trans;
-    int64_t *trans_s;       /* transition instants, strictly ascending */
+    int64_t *trans_s;       /* transition instants, strictly ascending:
+                               the file's, then the footer rule's up to
+                               EXTEND_UNTIL_S (see extend_table) */
     int32_t *trans_off_s;   /* offset in force from trans_s[i] on */
     unsigned char *trans_dst; /* 1 if that offset is daylight time */
     int has_rule;           /* footer rule for t >= the last transition */
@@ -355,8 +362,10 @@ static int32_t zone_info(const sw_zone *z, int64_t t_s, int64_t *until_s)
         return z->fixed_s;
     }
     if (n == 0 || t_s >= z->trans_s[n - 1]) {
-        if (z->has_rule)
-            return tz_rule_info(&z->rule, t_s, until_s);
+        if (z->has_rule) {
+            int is_dst;
+            return tz_rule_info(&z->rule, t_s, until_s, &is_dst);
+        }
         *until_s = INT64_MAX;
         return n == 0 ? z->before_s : z->trans_off_s[n - 1];
     }
@@ -503,7 +512,8 @@ typedef struct tzif_header {
     uint32_t isutcnt, isstdcnt, leapcnt, timecnt, typecnt, charcnt;
 } tzif_header;
 
-/* Read a header at buf[pos..); returns a reason for a message or NULL. */
+/* Read a header at buf[pos..): magic, version and counts; returns a
+ * reason for a message or NULL. */
 static const char *tzif_read_header(const unsigned char *buf, size_t n,
                                     size_t pos, tzif_header *h)
 {
@@ -523,6 +533,14 @@ static const char *tzif_read_header(const unsigned char *buf, size_t n,
     h->timecnt = (uint32_t)be32(p + 32);
     h->typecnt = (uint32_t)be32(p + 36);
     h->charcnt = (uint32_t)be32(p + 40);
+    return NULL;
+}
+
+/* Check the counts of the header whose data block is read; returns a
+ * reason for a message or NULL.  (RFC 8536 sec. 4: a reader of version 2+
+ * checks the version 1 header only enough to skip its block.) */
+static const char *tzif_check_counts(const tzif_header *h)
+{
     if (h->typecnt == 0 || h->typecnt > 256 || h->charcnt == 0
         || (h->isutcnt != 0 && h->isutcnt != h->typecnt)
         || (h->isstdcnt != 0 && h->isstdcnt != h->typecnt))
@@ -602,6 +620,78 @@ static const char *tzif_read_block(sw_zone *z, const unsigned char *buf,
     return NULL;
 }
 
+/* Transitions are generated from the footer rule up to this instant
+ * (2100-01-01T00:00:00Z) when a zone is loaded, so that the usual years
+ * cost a binary search rather than an evaluation of the rule. */
+#define EXTEND_UNTIL_S INT64_C(4102444800)
+#define EXTEND_MAX 1024
+
+/* Append to the table the changes of the footer rule after the last
+ * transition and before EXTEND_UNTIL_S.  The result is the same function
+ * of time: the rule is walked from change to change with tz_rule_info()
+ * itself, changes that change nothing are left out, and nothing is added
+ * unless the table's last offset is the rule's (RFC 8536 sec. 3.3 asks
+ * for that agreement; without it the rule keeps deciding).  Returns 0,
+ * or -1 when memory runs out. */
+static int extend_table(sw_zone *z)
+{
+    size_t n = z->n_trans, added = 0;
+    int64_t t0, until0, *ts;
+    int32_t off0, *offs;
+    unsigned char *dsts;
+    int dst0;
+
+    if (!z->has_rule || !z->rule.has_dst || n == 0
+        || z->trans_s[n - 1] >= EXTEND_UNTIL_S)
+        return 0;
+    t0 = z->trans_s[n - 1];
+    off0 = tz_rule_info(&z->rule, t0, &until0, &dst0);
+    if (off0 != z->trans_off_s[n - 1] || dst0 != z->trans_dst[n - 1])
+        return 0;
+    /* Two walks: the first counts, the second fills. */
+    for (int fill = 0; fill < 2; fill++) {
+        int64_t t, until = until0;
+        int32_t off = off0;
+        int dst = dst0;
+
+        if (fill) {
+            if (added == 0)
+                return 0;
+            ts = realloc(z->trans_s, (n + added) * sizeof *ts);
+            if (ts == NULL)
+                return -1;
+            z->trans_s = ts;
+            offs = realloc(z->trans_off_s, (n + added) * sizeof *offs);
+            if (offs == NULL)
+                return -1;
+            z->trans_off_s = offs;
+            dsts = realloc(z->trans_dst, n + added);
+            if (dsts == NULL)
+                return -1;
+            z->trans_dst = dsts;
+            added = 0;
+        }
+        while (until < EXTEND_UNTIL_S && added < EXTEND_MAX) {
+            int32_t next_off;
+            int next_dst;
+            t = until;
+            next_off = tz_rule_info(&z->rule, t, &until, &next_dst);
+            if (next_off == off && next_dst == dst)
+                continue;
+            if (fill) {
+                z->trans_s[n + added] = t;
+                z->trans_off_s[n + added] = next_off;
+                z->trans_dst[n + added] = (unsigned char)next_dst;
+            }
+            added++;
+            off = next_off;
+            dst = next_dst;
+        }
+    }
+    z->n_trans = n + added;
+    return 0;
+}
+
 /* Parse a whole TZif file into z; returns a reason (tzif_oom when memory
  * runs out) or NULL. */
 static const char *tzif_parse(sw_zone *z, const unsigned char *buf, size_t n)
@@ -624,9 +714,13 @@ static const char *tzif_parse(sw_zone *z, const unsigned char *buf, size_t n)
         if (why != NULL)
             return why;
         pos += 44;
-        why = tzif_read_block(z, buf, n, pos, &h, 8, &footer_at);
+        why = tzif_check_counts(&h);
+        if (why == NULL)
+            why = tzif_read_block(z, buf, n, pos, &h, 8, &footer_at);
     } else {
-        why = tzif_read_block(z, buf, n, 44, &h, 4, &footer_at);
+        why = tzif_check_counts(&h);
+        if (why == NULL)
+            why = tzif_read_block(z, buf, n, 44, &h, 4, &footer_at);
     }
     if (why != NULL)
         return why;
@@ -647,16 +741,14 @@ static const char *tzif_parse(sw_zone *z, const unsigned char *buf, size_t n)
         memcpy(tz, f + 1, tz_len);
         tz[tz_len] = '\0';
         if (tz_len > 0) {
+            /* POSIX offsets have at most 24:59:59, inside the bounds
+             * that OFFSET_MIN_S and OFFSET_MAX_S set for the table. */
             if (tz_rule_parse(tz, &z->rule) != 0)
                 return "its footer TZ string is not a POSIX TZ rule this "
                        "program can read";
-            if (z->rule.std_off_s < OFFSET_MIN_S
-                || z->rule.std_off_s > OFFSET_MAX_S
-                || z->rule.dst_off_s < OFFSET_MIN_S
-                || z->rule.dst_off_s > OFFSET_MAX_S)
-                return "its footer rule has a UT offset outside -25 h to "
-                       "+26 h";
             z->has_rule = 1;
+            if (extend_table(z) != 0)
+                return tzif_oom;
             if (z->rule.std_off_s < z->min_off_s)
                 z->min_off_s = z->rule.std_off_s;
             if (z->rule.dst_off_s < z->min_off_s)
@@ -1206,7 +1298,7 @@ int sw_duration_parse(const char *text, sw_time_ms *out, sw_error *err)
     static const char accepted[] =
         "write a positive number and one of the units s, min, h or d "
         "(e.g. 90s, 30min, 1.5h, 1d)";
-    const char *p = text == NULL ? "" : text, *num, *unit;
+    const char *p = text == NULL ? "" : text, *num, *unit, *end;
     size_t n = strlen(p), int_digits = 0, frac_digits = 0, unit_len;
     int64_t whole = 0, frac = 0, scale = 1, unit_ms, ms;
     quote q;
@@ -1221,16 +1313,18 @@ int sw_duration_parse(const char *text, sw_time_ms *out, sw_error *err)
     if (n == 0)
         return sw_error_set(err, SW_ESITE, NULL, 0, 0,
                             "duration is empty; %s", accepted);
+    end = p + n;
     num = p;
     if (*num == '-' || *num == '+')
         return sw_error_set(err, SW_ESITE, NULL, 0, 0,
                             "duration '%.*s%s' has a sign; %s",
                             q.len, p, q.more, accepted);
-    for (; digit(*num) <= 9u; num++, int_digits++)
+    /* Every scan stops at end: the text may go on in trailing blanks. */
+    for (; num < end && digit(*num) <= 9u; num++, int_digits++)
         if (int_digits < 10)
             whole = whole * 10 + digit(*num);
-    if (*num == '.') {
-        for (num++; digit(*num) <= 9u; num++, frac_digits++)
+    if (num < end && *num == '.') {
+        for (num++; num < end && digit(*num) <= 9u; num++, frac_digits++)
             if (frac_digits < 9) {
                 frac = frac * 10 + digit(*num);
                 scale *= 10;
@@ -1247,9 +1341,9 @@ int sw_duration_parse(const char *text, sw_time_ms *out, sw_error *err)
                             "before or after the decimal point; %s",
                             q.len, p, q.more, accepted);
     unit = num;
-    while (is_blank(*unit))
+    while (unit < end && is_blank(*unit))
         unit++;
-    unit_len = n - (size_t)(unit - p);
+    unit_len = (size_t)(end - unit);
     if (unit_len == 0)
         return sw_error_set(err, SW_ESITE, NULL, 0, 0,
                             "duration '%.*s%s' has no unit; %s",

@@ -16,6 +16,8 @@ have_header gsl/gsl_roots.h || missing="$missing libgsl-dev"
 printf '#include <stdarg.h>\n#include <stddef.h>\n#include <setjmp.h>\n#include <cmocka.h>\n' \
     | ${CC:-cc} -E -x c - >/dev/null 2>&1 || missing="$missing libcmocka-dev"
 have_header ini.h || missing="$missing libinih-dev"
+# SHA-256 of the site file in threshold tables.
+have_header nettle/sha2.h || missing="$missing nettle-dev"
 # The tz database: zone names in site files and the tests' zones.
 [ -f "${TZDIR:-/usr/share/zoneinfo}/Europe/Berlin" ] || missing="$missing tzdata"
 

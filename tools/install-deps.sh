@@ -4,7 +4,7 @@
 # Usage: tools/install-deps.sh [PACKAGE...]   (default: every build/test dependency)
 set -eu
 
-PACKAGES=${*:-"build-essential pkg-config libcsv-dev libgsl-dev libcmocka-dev libinih-dev tzdata"}
+PACKAGES=${*:-"build-essential pkg-config libcsv-dev libgsl-dev libcmocka-dev libinih-dev nettle-dev tzdata"}
 
 if [ "$(id -u)" = 0 ]; then
     SUDO=

@@ -23,7 +23,8 @@
 #include "sillwatch/error.h"
 #include "sillwatch/timeutil.h"
 
-#define SW_SERIES_MAX_COLUMNS 16  /* value columns one reader can serve */
+#define SW_SERIES_MAX_COLUMNS 128 /* value columns one reader can serve
+                                     (ensemble members in one file) */
 #define SW_SERIES_MAX_MISSING 8   /* extra missing tokens per column */
 #define SW_SERIES_TOKEN_MAX 32
 #define SW_SERIES_REJECTS_KEPT 10 /* positions kept of rejected fields */
@@ -114,5 +115,14 @@ char sw_reader_delimiter(const sw_reader *reader);
 
 /* Release a reader and close its file; NULL is accepted. */
 void sw_reader_free(sw_reader *reader);
+
+/* The column names of the header row of the CSV file at `path` (comments,
+ * blank lines and a byte-order mark skipped; delimiter 0: detected), as
+ * the reader sees them: trimmed, unquoted.  On SW_OK *names is an array of
+ * *n strings the caller releases with sw_csv_header_free().  Errors as
+ * sw_reader_open(): SW_EDATA (unreadable or empty file), SW_ENOMEM. */
+int sw_csv_header(const char *path, char delimiter, char ***names, size_t *n,
+                  sw_error *err);
+void sw_csv_header_free(char **names, size_t n);
 
 #endif

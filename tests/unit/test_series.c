@@ -894,7 +894,9 @@ static void test_error_duplicate_time_different_value(void **state)
     read_hw_tw("time,headwater,tailwater\n"
                "2025-01-01T00:15:00Z,12.345,11.234\n"
                "2025-01-01T00:15:00Z,,11.234\n", &o);
-    expect_next_error(&o, SW_EDATA, 3, 2, "duplicate time");
+    expect_next_error(&o, SW_EDATA, 3, 2,
+                      "(line 2 has headwater = 12.345 m, this line no "
+                      "reading)");
 }
 
 static void test_error_ragged(void **state)
@@ -982,11 +984,14 @@ static void test_error_missing_column(void **state)
                       "time column 'Zeit' is not in the header (delimiter "
                       "';')");
 
-    /* Names are matched trimmed, on both sides. */
+    /* Names are matched trimmed, on both sides, quoted or not. */
     default_config(&cfg);
     set_column(&cols[0], " headwater");
     read_all("time ,  headwater \n2025-01-01T00:15:00Z,2.385\n", &cfg, cols,
              1, &o);
+    expect_ok(&o, 1);
+    read_all("\"\ttime\",\" headwater \"\n2025-01-01T00:15:00Z,2.385\n", &cfg,
+             cols, 1, &o);
     expect_ok(&o, 1);
 
     /* A name the header has twice is ambiguous. */

@@ -1,0 +1,536 @@
+/* sillwatch screen: screen a forecast (deterministic or an ensemble)
+ * through every gate, and the tailwater a headwater-only forecast needs. */
+#define _DEFAULT_SOURCE /* getopt_long */
+#include <errno.h>
+#include <getopt.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "cli.h"
+#include "sillwatch/ensemble.h"
+#include "sillwatch/outfile.h"
+#include "sillwatch/report.h"
+#include "sillwatch/series.h"
+#include "sillwatch/site.h"
+#include "sillwatch/stepper.h"
+
+static const char screen_help[] =
+    "Usage: sillwatch screen SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
+    "                        [--issued TIME] [--quiet]\n"
+    "Screen forecast levels through every gate with the model and stepping\n"
+    "of 'run'.  A series whose value_column holds a '*' (tw_*) is an\n"
+    "ensemble: each matching column is a member, and each gate is replayed\n"
+    "per member (members of its two series paired by label, or every\n"
+    "combination with 'ensemble = crossed' in [site]).  Writes in OUTDIR:\n"
+    "  forecast.csv   per time step and gate: members known, the fraction\n"
+    "                 low and open, and the 10th/50th/90th percentiles of\n"
+    "                 factor of safety and sill reaction across members\n"
+    "  screen.csv     per gate, for low and for open: the earliest time any\n"
+    "                 member gets there, the lead time from --issued, how\n"
+    "                 many members do, and the median hours across members\n"
+    "  required.csv   for a gate with a headwater series and no tailwater\n"
+    "                 series: the tailwater it needs (tw_alarm, tw_open) at\n"
+    "                 each time step, per member\n"
+    "  required_max.csv  their maxima and when they occur\n"
+    "\n"
+    "  -o, --output OUTDIR    the folder for the outputs\n"
+    "  --series NAME=FILE     read series NAME from FILE\n"
+    "  --issued TIME          ISO 8601 time the forecast was issued (lead\n"
+    "                         times count from it; default: its first time)\n"
+    "  -q, --quiet            print nothing but errors\n"
+    "  -h, --help             show this help and exit\n"
+    "\n"
+    "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
+    "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
+    "\n";
+
+enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
+static const char *const out_names[N_OUT] = {
+    "forecast.csv", "screen.csv", "required.csv", "required_max.csv"};
+
+typedef struct screen_opts {
+    const char *site_path, *outdir, *issued;
+    int quiet;
+    const char *series[64];
+    size_t n_series;
+} screen_opts;
+
+static int parse_args(int argc, char **argv, screen_opts *o)
+{
+    static const struct option opts[] = {
+        {"output", required_argument, NULL, 'o'},
+        {"series", required_argument, NULL, 's'},
+        {"issued", required_argument, NULL, 'i'},
+        {"quiet", no_argument, NULL, 'q'},
+        {"help", no_argument, NULL, 'h'},
+        {NULL, 0, NULL, 0},
+    };
+    int opt;
+
+    memset(o, 0, sizeof *o);
+    opterr = 0;
+    while ((opt = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+        switch (opt) {
+        case 'o':
+            o->outdir = optarg;
+            break;
+        case 's':
+            if (strchr(optarg, '=') == NULL || optarg[0] == '=')
+                return sw_cli_usage_error("screen", "--series takes "
+                                                    "NAME=FILE, not '%s'",
+                                          optarg);
+            if (o->n_series == sizeof o->series / sizeof o->series[0])
+                return sw_cli_usage_error("screen", "too many --series");
+            o->series[o->n_series++] = optarg;
+            break;
+        case 'i':
+            o->issued = optarg;
+            break;
+        case 'q':
+            o->quiet = 1;
+            break;
+        case 'h':
+            fputs(screen_help, stdout);
+            fputs(sw_cli_caution, stdout);
+            return -1;
+        case ':':
+            return sw_cli_usage_error("screen", "option '%s' needs a value",
+                                      argv[optind - 1]);
+        default:
+            return sw_cli_usage_error("screen", "unknown option '%s'",
+                                      argv[optind - 1]);
+        }
+    }
+    if (optind != argc - 1)
+        return sw_cli_usage_error("screen", optind >= argc
+                                                ? "no site file given"
+                                                : "give one site file, not %d",
+                                  argc - optind);
+    if (o->outdir == NULL)
+        return sw_cli_usage_error("screen", "give the output folder with -o "
+                                            "OUTDIR");
+    o->site_path = argv[optind];
+    return 0;
+}
+
+static void put_time(FILE *fp, sw_time_ms t, const sw_zone *zone)
+{
+    char buf[64];
+    sw_time_format(buf, sizeof buf, t, zone);
+    fputs(buf, fp);
+}
+
+static void put_hours(FILE *fp, sw_time_ms ms)
+{
+    long long h4 = sw_report_hours4(ms < 0 ? -ms : ms);
+    fprintf(fp, "%s%lld.%04lld", ms < 0 ? "-" : "", h4 / 10000, h4 % 10000);
+}
+
+/* A number with `decimals` decimals, or inf / -inf. */
+static void put_number(FILE *fp, double v, int decimals)
+{
+    if (isinf(v))
+        fputs(v > 0 ? "inf" : "-inf", fp);
+    else
+        fprintf(fp, "%.*f", decimals, v);
+}
+
+/* One gate's verdict over its members, for screen.csv and the table. */
+typedef struct verdict {
+    size_t gate, members;
+    int low_seen, open_seen;
+    sw_time_ms low_first, open_first;
+    size_t low_members, open_members;
+    sw_time_ms low_median, open_median; /* hours as ms */
+} verdict;
+
+static sw_time_ms median_ms(double *v, size_t n)
+{
+    return n == 0 ? 0 : (sw_time_ms)llround(sw_quantile(v, n, 0.5));
+}
+
+static int cmp_verdict(const void *a, const void *b)
+{
+    const verdict *x = a, *y = b;
+    if (x->low_seen != y->low_seen)
+        return y->low_seen - x->low_seen;
+    if (x->low_seen && x->low_first != y->low_first)
+        return x->low_first < y->low_first ? -1 : 1;
+    return (x->gate > y->gate) - (x->gate < y->gate);
+}
+
+/* Replay the expanded site: forecast.csv per step; verdicts at the end. */
+static int screen_members(const sw_site *site, const sw_ensemble *ens,
+                          sw_outfile *out, verdict *vd, sw_time_ms *t0,
+                          sw_error *err)
+{
+    sw_stepper *st = NULL;
+    sw_stepper_options opt = {0, 1};
+    size_t n = ens->site.n_gates;
+    double *fs = malloc((n ? n : 1) * sizeof *fs);
+    double *sr = malloc((n ? n : 1) * sizeof *sr);
+    int rc, done = 0;
+    FILE *fp = out[OUT_FORECAST].fp;
+
+    if (fs == NULL || sr == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+        goto cleanup;
+    }
+    if ((rc = sw_stepper_alloc(&st, &ens->site, &opt, err)) != SW_OK)
+        goto cleanup;
+    fputs("time,gate,members,fraction_low,fraction_open,fs_p10,fs_p50,"
+          "fs_p90,sill_reaction_p10,sill_reaction_p50,sill_reaction_p90\n",
+          fp);
+    for (int last = 0; !last;) {
+        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK)
+            goto cleanup;
+        if (done) {
+            if ((rc = sw_stepper_finish(st, err)) != SW_OK)
+                goto cleanup;
+            last = 1;
+        }
+        for (size_t g = 0; g < ens->n_orig; g++) {
+            size_t k = 0, low = 0, open = 0;
+            if (ens->n_members[g] == 0)
+                continue;
+            for (size_t e = 0; e < n; e++) {
+                const sw_step_gate *sg = sw_stepper_gate_at(st, e);
+                if (ens->orig[e] != g || !sg->known)
+                    continue;
+                fs[k] = sg->result.fs;
+                sr[k] = sg->result.sill_reaction_N;
+                low += sg->result.state == SW_STATE_LOW;
+                open += sg->result.state == SW_STATE_OPEN;
+                k++;
+            }
+            if (k == 0)
+                continue;
+            put_time(fp, sw_stepper_time(st), site->zone);
+            fprintf(fp, ",%s,%zu,%.4f,%.4f", site->gates[g].gate.name, k,
+                    (double)low / (double)k, (double)open / (double)k);
+            const double p[3] = {0.1, 0.5, 0.9};
+            for (int i = 0; i < 3; i++) {
+                fputc(',', fp);
+                put_number(fp, sw_quantile(fs, k, p[i]), 4);
+            }
+            for (int i = 0; i < 3; i++) {
+                fputc(',', fp);
+                put_number(fp, sw_quantile(sr, k, p[i]), 2);
+            }
+            fputc('\n', fp);
+        }
+    }
+
+    sw_time_ms end;
+    sw_stepper_span(st, t0, &end);
+    for (size_t g = 0; g < ens->n_orig; g++) {
+        verdict *v = &vd[g];
+        size_t k = 0;
+        memset(v, 0, sizeof *v);
+        v->gate = g;
+        for (size_t e = 0; e < n; e++) {
+            const sw_tally *t = sw_stepper_tally(st, e);
+            if (ens->orig[e] != g)
+                continue;
+            v->members++;
+            if (t->below_seen) {
+                v->low_members++;
+                if (!v->low_seen || t->first_below < v->low_first)
+                    v->low_first = t->first_below;
+                v->low_seen = 1;
+            }
+            if (t->open_seen) {
+                v->open_members++;
+                if (!v->open_seen || t->first_open < v->open_first)
+                    v->open_first = t->first_open;
+                v->open_seen = 1;
+            }
+            fs[k] = (double)(t->low + t->open);
+            sr[k] = (double)t->open;
+            k++;
+        }
+        v->low_median = median_ms(fs, k);
+        v->open_median = median_ms(sr, k);
+    }
+cleanup:
+    sw_stepper_free(st);
+    free(fs);
+    free(sr);
+    return rc;
+}
+
+/* The tailwater the headwater-only gates need, step by step. */
+static int screen_required(const sw_site *site, const sw_ensemble *ens,
+                           sw_outfile *out, int quiet, sw_error *err)
+{
+    FILE *fp = out[OUT_REQUIRED].fp, *mx = out[OUT_REQUIRED_MAX].fp;
+    int rc = SW_OK;
+
+    fputs("time,gate,member,headwater,tw_alarm,tw_open\n", fp);
+    fputs("gate,member,tw_alarm_max,tw_alarm_max_time,tw_open_max,"
+          "tw_open_max_time\n", mx);
+    for (size_t s = 0; s < ens->n_hw_series && rc == SW_OK; s++) {
+        const sw_site_series *sr = &ens->hw_series[s];
+        const sw_gate *g = &site->gates[ens->hw_series_gate[s]].gate;
+        sw_reader_config cfg = {sr->path, sr->time_column, sr->time_format,
+                                sr->delimiter, site->zone};
+        sw_column_config col;
+        sw_reader *rd = NULL;
+        double max[2] = {-INFINITY, -INFINITY};
+        sw_time_ms when[2] = {0, 0};
+        int seen[2] = {0, 0}, has_row = 1;
+
+        memset(&col, 0, sizeof col);
+        col.name = sr->value_column;
+        col.scale = sr->scale;
+        col.offset_m = sr->offset_m;
+        col.n_missing = sr->n_missing;
+        for (size_t k = 0; k < sr->n_missing; k++)
+            col.missing[k] = sr->missing[k];
+        if ((rc = sw_reader_open(&rd, &cfg, &col, 1, err)) != SW_OK)
+            break;
+        while (rc == SW_OK) {
+            sw_time_ms t;
+            double hw;
+            sw_crit c[2];
+            if ((rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
+                !has_row)
+                break;
+            if (isnan(hw))
+                continue;
+            if ((rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_ALARM, &c[0],
+                                                 err)) != SW_OK ||
+                (rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_OPEN, &c[1],
+                                                 err)) != SW_OK)
+                break;
+            put_time(fp, t, site->zone);
+            fprintf(fp, ",%s,%s,%.4f,", g->name, sr->name, hw);
+            for (int i = 0; i < 2; i++) {
+                if (c[i].kind == SW_CRIT_LEVEL) {
+                    fprintf(fp, "%.4f", c[i].level_m);
+                    if (!seen[i] || c[i].level_m > max[i]) {
+                        max[i] = c[i].level_m;
+                        when[i] = t;
+                    }
+                    seen[i] = 1;
+                }
+                fputc(i == 0 ? ',' : '\n', fp);
+            }
+        }
+        sw_reader_free(rd);
+        if (rc != SW_OK)
+            break;
+        fprintf(mx, "%s,%s,", g->name, sr->name);
+        for (int i = 0; i < 2; i++) {
+            if (seen[i]) {
+                fprintf(mx, "%.4f,", max[i]);
+                put_time(mx, when[i], site->zone);
+            } else {
+                fputc(',', mx); /* not needed at any step */
+            }
+            fputc(i == 0 ? ',' : '\n', mx);
+        }
+        if (!quiet) {
+            char a[64] = "not needed", b[64] = "not needed", ta[64] = "",
+                 tb[64] = "";
+            if (seen[0]) {
+                snprintf(a, sizeof a, "%.3f m", max[0]);
+                sw_time_format(ta, sizeof ta, when[0], site->zone);
+            }
+            if (seen[1]) {
+                snprintf(b, sizeof b, "%.3f m", max[1]);
+                sw_time_format(tb, sizeof tb, when[1], site->zone);
+            }
+            printf("  %-10s %-8s  tw_alarm max %-11s %-26s  tw_open max "
+                   "%-11s %s\n",
+                   g->name, sr->name[0] ? sr->name : "-", a, ta, b, tb);
+        }
+    }
+    return rc;
+}
+
+static int make_outdir(const char *dir, sw_error *err)
+{
+    struct stat sb;
+    if (stat(dir, &sb) == 0)
+        return S_ISDIR(sb.st_mode)
+                   ? SW_OK
+                   : sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                                  "the output folder exists but is not a "
+                                  "folder");
+    if (mkdir(dir, 0777) != 0)
+        return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                            "cannot create the output folder: %s",
+                            strerror(errno));
+    return SW_OK;
+}
+
+int sw_cmd_screen(int argc, char **argv)
+{
+    screen_opts o;
+    sw_site site;
+    sw_ensemble ens;
+    sw_outfile out[N_OUT];
+    sw_error err;
+    verdict *vd = NULL;
+    sw_time_ms t0 = 0, issued = 0;
+    int rc, have_issued = 0, exit_code = SW_EXIT_OK;
+
+    memset(out, 0, sizeof out);
+    memset(&ens, 0, sizeof ens);
+    if ((rc = parse_args(argc, argv, &o)) != 0)
+        return rc < 0 ? SW_EXIT_OK : rc;
+    if (sw_site_load(&site, o.site_path, &err) != SW_OK)
+        return sw_cli_report(&err);
+    for (size_t i = 0; i < o.n_series; i++) {
+        char name[SW_SITE_NAME_MAX];
+        const char *eq = strchr(o.series[i], '=');
+        snprintf(name, sizeof name, "%.*s", (int)(eq - o.series[i]),
+                 o.series[i]);
+        if (sw_site_set_series_file(&site, name, eq + 1, &err) != SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_usage_error("screen", "%s", err.message);
+        }
+    }
+    if (o.issued != NULL) {
+        sw_stamp stamp;
+        sw_time_ms utc[2];
+        if (sw_stamp_parse(o.issued, strlen(o.issued), &stamp, &err) !=
+            SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_usage_error("screen", "--issued: %s", err.message);
+        }
+        if (stamp.has_offset) {
+            issued = stamp.wall_ms - (sw_time_ms)stamp.offset_s * 1000;
+        } else if (site.zone != NULL &&
+                   sw_zone_local_to_utc(site.zone, stamp.wall_ms, utc) > 0) {
+            issued = utc[0];
+        } else {
+            sw_site_fini(&site);
+            return sw_cli_usage_error("screen", "--issued: '%s' needs a UTC "
+                                                "offset (the site sets no "
+                                                "timezone, or the local time "
+                                                "does not exist)",
+                                      o.issued);
+        }
+        have_issued = 1;
+    }
+
+    if ((rc = sw_ensemble_expand(&ens, &site, &err)) != SW_OK)
+        goto fail;
+    if ((rc = make_outdir(o.outdir, &err)) != SW_OK)
+        goto fail;
+    for (int k = 0; k < N_OUT; k++)
+        if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
+            SW_OK)
+            goto fail;
+    vd = calloc(site.n_gates ? site.n_gates : 1, sizeof *vd);
+    if (vd == NULL) {
+        rc = sw_error_set(&err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+        goto fail;
+    }
+
+    if (!o.quiet && ens.n_hw_only > 0)
+        printf("tailwater needed by the headwater-only forecasts:\n");
+    if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
+        goto fail;
+    if (ens.site.n_gates > 0 &&
+        (rc = screen_members(&site, &ens, out, vd, &t0, &err)) != SW_OK)
+        goto fail;
+    if (!have_issued)
+        issued = t0;
+
+    FILE *sc = out[OUT_SCREEN].fp;
+    fputs("gate,members,low_first_time,low_lead_hours,low_members,"
+          "low_median_hours,open_first_time,open_lead_hours,open_members,"
+          "open_median_hours\n", sc);
+    size_t n_v = 0;
+    for (size_t g = 0; g < site.n_gates; g++)
+        if (ens.n_members[g] > 0)
+            vd[n_v++] = vd[g];
+    qsort(vd, n_v, sizeof *vd, cmp_verdict);
+    for (size_t i = 0; i < n_v; i++) {
+        const verdict *v = &vd[i];
+        fprintf(sc, "%s,%zu,", site.gates[v->gate].gate.name, v->members);
+        if (v->low_seen) {
+            put_time(sc, v->low_first, site.zone);
+            fputc(',', sc);
+            put_hours(sc, v->low_first - issued);
+        } else {
+            fputc(',', sc);
+        }
+        fprintf(sc, ",%zu,", v->low_members);
+        put_hours(sc, v->low_median);
+        fputc(',', sc);
+        if (v->open_seen) {
+            put_time(sc, v->open_first, site.zone);
+            fputc(',', sc);
+            put_hours(sc, v->open_first - issued);
+        } else {
+            fputc(',', sc);
+        }
+        fprintf(sc, ",%zu,", v->open_members);
+        put_hours(sc, v->open_median);
+        fputc('\n', sc);
+        if (v->low_seen)
+            exit_code = SW_EXIT_BELOW;
+    }
+
+    for (int k = 0; k < N_OUT; k++)
+        if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
+            goto fail;
+    for (int k = 0; k < N_OUT; k++)
+        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+            goto fail;
+
+    if (!o.quiet && n_v > 0) {
+        char when[64];
+        sw_time_format(when, sizeof when, issued, site.zone);
+        printf("%sforecast screened from %s (issued), earliest trouble "
+               "first:\n",
+               ens.n_hw_only > 0 ? "\n" : "", when);
+        printf("%-10s %7s  %-26s %8s %7s %8s  %-26s %8s %7s %8s\n", "gate",
+               "members", "first below margin", "lead h", "members",
+               "median h", "first open", "lead h", "members", "median h");
+        for (size_t i = 0; i < n_v; i++) {
+            const verdict *v = &vd[i];
+            char a[64] = "-", b[64] = "-", la[24] = "-", lb[24] = "-";
+            if (v->low_seen) {
+                sw_time_format(a, sizeof a, v->low_first, site.zone);
+                snprintf(la, sizeof la, "%.2f",
+                         (double)(v->low_first - issued) / 3.6e6);
+            }
+            if (v->open_seen) {
+                sw_time_format(b, sizeof b, v->open_first, site.zone);
+                snprintf(lb, sizeof lb, "%.2f",
+                         (double)(v->open_first - issued) / 3.6e6);
+            }
+            printf("%-10s %7zu  %-26s %8s %3zu/%-3zu %8.2f  %-26s %8s "
+                   "%3zu/%-3zu %8.2f\n",
+                   site.gates[v->gate].gate.name, v->members, a, la,
+                   v->low_members, v->members,
+                   (double)v->low_median / 3.6e6, b, lb, v->open_members,
+                   v->members, (double)v->open_median / 3.6e6);
+        }
+    }
+    if (!o.quiet) {
+        printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
+               "required_max.csv\n", o.outdir);
+        fputs(sw_cli_caution, stdout);
+    }
+    free(vd);
+    sw_ensemble_fini(&ens);
+    sw_site_fini(&site);
+    return exit_code;
+
+fail:
+    for (int k = 0; k < N_OUT; k++)
+        sw_outfile_abort(&out[k]);
+    free(vd);
+    sw_ensemble_fini(&ens);
+    sw_site_fini(&site);
+    return sw_cli_report(&err);
+}

@@ -1,0 +1,317 @@
+/* sillwatch: forecast ensembles (see include/sillwatch/ensemble.h). */
+#include "sillwatch/ensemble.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "sillwatch/series.h"
+
+/* The members of one series: labels and their column names. */
+typedef struct members {
+    size_t n;
+    char (*label)[SW_MEMBER_MAX];
+    char (*column)[SW_SITE_NAME_MAX * 2];
+} members;
+
+static void members_free(members *m)
+{
+    free(m->label);
+    free(m->column);
+    memset(m, 0, sizeof *m);
+}
+
+static int nomem(sw_error *err)
+{
+    return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                        "out of memory expanding the forecast ensemble");
+}
+
+/* Match `name` against `pattern` with one '*'; store what it stands for. */
+static int match(const char *pattern, const char *name, char *label,
+                 size_t size)
+{
+    const char *star = strchr(pattern, '*');
+    size_t pre = (size_t)(star - pattern), post = strlen(star + 1);
+    size_t n = strlen(name);
+
+    if (n < pre + post || strncmp(name, pattern, pre) != 0 ||
+        strcmp(name + n - post, star + 1) != 0)
+        return 0;
+    if (n - pre - post >= size)
+        return 0;
+    memcpy(label, name + pre, n - pre - post);
+    label[n - pre - post] = '\0';
+    return 1;
+}
+
+/* The members of series `sr`: its matches if its column is a pattern,
+ * else one member with an empty label. */
+static int find_members(const sw_site *site, const sw_site_series *sr,
+                        members *out, sw_error *err)
+{
+    const char *star = strchr(sr->value_column, '*');
+    char **names = NULL;
+    size_t n_names = 0;
+    int rc = SW_OK;
+
+    memset(out, 0, sizeof *out);
+    if (star == NULL) {
+        out->label = calloc(1, sizeof *out->label);
+        out->column = calloc(1, sizeof *out->column);
+        if (out->label == NULL || out->column == NULL)
+            return nomem(err);
+        snprintf(out->column[0], sizeof out->column[0], "%s",
+                 sr->value_column);
+        out->n = 1;
+        return SW_OK;
+    }
+    if (strchr(star + 1, '*') != NULL)
+        return sw_error_set(err, SW_ESITE, site->path, sr->line, 0,
+                            "[series %s]: value_column '%s' has more than "
+                            "one '*': a member pattern has one",
+                            sr->name, sr->value_column);
+    if ((rc = sw_csv_header(sr->path, sr->delimiter, &names, &n_names,
+                            err)) != SW_OK)
+        return rc;
+    out->label = calloc(n_names ? n_names : 1, sizeof *out->label);
+    out->column = calloc(n_names ? n_names : 1, sizeof *out->column);
+    if (out->label == NULL || out->column == NULL) {
+        rc = nomem(err);
+        goto cleanup;
+    }
+    for (size_t i = 0; i < n_names; i++) {
+        if (strcmp(names[i], sr->time_column) == 0 ||
+            !match(sr->value_column, names[i], out->label[out->n],
+                   sizeof out->label[0]))
+            continue;
+        snprintf(out->column[out->n], sizeof out->column[0], "%.127s",
+                 names[i]);
+        out->n++;
+    }
+    if (out->n == 0)
+        rc = sw_error_set(err, SW_EDATA, sr->path, 1, 0,
+                          "[series %s]: the member pattern '%s' matches no "
+                          "column of the header",
+                          sr->name, sr->value_column);
+cleanup:
+    sw_csv_header_free(names, n_names);
+    if (rc != SW_OK)
+        members_free(out);
+    return rc;
+}
+
+/* Append a series (a member column of `sr`) to the expanded site and
+ * return its name there. */
+static const char *add_series(sw_ensemble *ens, size_t *cap,
+                              const sw_site_series *sr, const members *m,
+                              size_t k)
+{
+    sw_site *s = &ens->site;
+    char name[SW_SITE_NAME_MAX];
+
+    if (m->label[k][0] != '\0')
+        snprintf(name, sizeof name, "%.40s#%.20s", sr->name, m->label[k]);
+    else
+        snprintf(name, sizeof name, "%s", sr->name);
+    if (sw_site_find_series(s, name) != NULL)
+        return sw_site_find_series(s, name)->name;
+    if (s->n_series == *cap) {
+        size_t c = *cap ? 2 * *cap : 16;
+        sw_site_series *grown = realloc(s->series, c * sizeof *grown);
+        if (grown == NULL)
+            return NULL;
+        s->series = grown;
+        *cap = c;
+    }
+    sw_site_series *out = &s->series[s->n_series++];
+    *out = *sr;
+    snprintf(out->name, sizeof out->name, "%s", name);
+    snprintf(out->value_column, sizeof out->value_column, "%s", m->column[k]);
+    return out->name;
+}
+
+static int add_gate(sw_ensemble *ens, size_t *cap, size_t orig,
+                    const sw_site_gate *g, const char *hw, const char *tw,
+                    const char *label)
+{
+    sw_site *s = &ens->site;
+    if (s->n_gates == *cap) {
+        size_t c = *cap ? 2 * *cap : 16;
+        sw_site_gate *gates = realloc(s->gates, c * sizeof *gates);
+        size_t *o = realloc(ens->orig, c * sizeof *o);
+        if (gates != NULL)
+            s->gates = gates;
+        if (o != NULL)
+            ens->orig = o;
+        char (*mem)[SW_MEMBER_MAX] = realloc(ens->member, c * sizeof *mem);
+        if (mem != NULL)
+            ens->member = mem;
+        if (gates == NULL || o == NULL || mem == NULL)
+            return -1;
+        *cap = c;
+    }
+    sw_site_gate *out = &s->gates[s->n_gates];
+    *out = *g;
+    snprintf(out->headwater, sizeof out->headwater, "%s", hw);
+    snprintf(out->tailwater, sizeof out->tailwater, "%s", tw);
+    ens->orig[s->n_gates] = orig;
+    snprintf(ens->member[s->n_gates], SW_MEMBER_MAX, "%s", label);
+    s->n_gates++;
+    ens->n_members[orig]++;
+    return 0;
+}
+
+int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
+{
+    size_t cap_series = 0, cap_gates = 0, cap_hw = 0;
+    members mh, mt;
+    int rc = SW_OK;
+
+    memset(ens, 0, sizeof *ens);
+    memset(&mh, 0, sizeof mh);
+    memset(&mt, 0, sizeof mt);
+    ens->site = *site;
+    ens->site.n_gates = ens->site.n_series = 0;
+    ens->site.gates = NULL;
+    ens->site.series = NULL;
+    ens->n_orig = site->n_gates;
+    ens->n_members = calloc(site->n_gates ? site->n_gates : 1,
+                            sizeof *ens->n_members);
+    ens->hw_only = calloc(site->n_gates ? site->n_gates : 1,
+                          sizeof *ens->hw_only);
+    if (ens->n_members == NULL || ens->hw_only == NULL) {
+        rc = nomem(err);
+        goto fail;
+    }
+
+    for (size_t gi = 0; gi < site->n_gates; gi++) {
+        const sw_site_gate *g = &site->gates[gi];
+        const sw_site_series *h = sw_site_find_series(site, g->headwater);
+        const sw_site_series *t = sw_site_find_series(site, g->tailwater);
+        if (h == NULL) {
+            rc = sw_error_set(err, SW_ESITE, site->path, g->line, 0,
+                              "gate '%s' has no headwater series: give it "
+                              "'headwater = NAME' naming a [series NAME]",
+                              g->gate.name);
+            goto fail;
+        }
+        if ((rc = find_members(site, h, &mh, err)) != SW_OK)
+            goto fail;
+        if (t == NULL) {
+            /* headwater only: the tailwater it needs, member by member */
+            ens->hw_only[ens->n_hw_only++] = gi;
+            for (size_t k = 0; k < mh.n; k++) {
+                if (ens->n_hw_series == cap_hw) {
+                    size_t c = cap_hw ? 2 * cap_hw : 8;
+                    sw_site_series *s2 =
+                        realloc(ens->hw_series, c * sizeof *s2);
+                    if (s2 != NULL)
+                        ens->hw_series = s2;
+                    size_t *g2 = realloc(ens->hw_series_gate, c * sizeof *g2);
+                    if (g2 != NULL)
+                        ens->hw_series_gate = g2;
+                    if (s2 == NULL || g2 == NULL) {
+                        rc = nomem(err);
+                        goto fail;
+                    }
+                    cap_hw = c;
+                }
+                sw_site_series *out = &ens->hw_series[ens->n_hw_series];
+                *out = *h;
+                snprintf(out->value_column, sizeof out->value_column, "%s",
+                         mh.column[k]);
+                snprintf(out->name, sizeof out->name, "%.63s", mh.label[k]);
+                ens->hw_series_gate[ens->n_hw_series++] = gi;
+            }
+            members_free(&mh);
+            continue;
+        }
+        if ((rc = find_members(site, t, &mt, err)) != SW_OK)
+            goto fail;
+        int crossed = site->ensemble_crossed;
+        for (size_t a = 0; a < mh.n; a++)
+            for (size_t b = 0; b < mt.n; b++) {
+                int pair = mh.n == 1 || mt.n == 1 || crossed ||
+                           strcmp(mh.label[a], mt.label[b]) == 0;
+                if (!pair)
+                    continue;
+                /* copies: adding a series may move the array */
+                char hn[SW_SITE_NAME_MAX], tn[SW_SITE_NAME_MAX];
+                const char *got = add_series(ens, &cap_series, h, &mh, a);
+                if (got != NULL)
+                    snprintf(hn, sizeof hn, "%s", got);
+                got = got ? add_series(ens, &cap_series, t, &mt, b) : NULL;
+                if (got != NULL)
+                    snprintf(tn, sizeof tn, "%s", got);
+                char label[SW_MEMBER_MAX];
+                if (mh.label[a][0] && mt.label[b][0] &&
+                    strcmp(mh.label[a], mt.label[b]) != 0)
+                    snprintf(label, sizeof label, "%.30s+%.30s", mh.label[a],
+                             mt.label[b]);
+                else
+                    snprintf(label, sizeof label, "%s",
+                             mh.label[a][0] ? mh.label[a] : mt.label[b]);
+                if (got == NULL || add_gate(ens, &cap_gates, gi, g, hn, tn,
+                                            label) != 0) {
+                    rc = nomem(err);
+                    goto fail;
+                }
+            }
+        if (ens->n_members[gi] == 0 || (!crossed && mh.n > 1 && mt.n > 1 &&
+                                        ens->n_members[gi] != mh.n)) {
+            rc = sw_error_set(err, SW_ESITE, site->path, g->line, 0,
+                              "gate '%s': the members of series '%s' (%zu) "
+                              "and '%s' (%zu) do not pair by label; name "
+                              "them alike, or set 'ensemble = crossed' in "
+                              "[site] for every combination",
+                              g->gate.name, h->name, mh.n, t->name, mt.n);
+            goto fail;
+        }
+        members_free(&mh);
+        members_free(&mt);
+    }
+    return SW_OK;
+fail:
+    members_free(&mh);
+    members_free(&mt);
+    sw_ensemble_fini(ens);
+    return rc;
+}
+
+void sw_ensemble_fini(sw_ensemble *ens)
+{
+    if (ens == NULL)
+        return;
+    /* the zone and settings are the original site's: not freed here */
+    free(ens->site.gates);
+    free(ens->site.series);
+    free(ens->orig);
+    free(ens->member);
+    free(ens->n_members);
+    free(ens->hw_only);
+    free(ens->hw_series);
+    free(ens->hw_series_gate);
+    memset(ens, 0, sizeof *ens);
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+double sw_quantile(double *v, size_t n, double p)
+{
+    qsort(v, n, sizeof *v, cmp_double);
+    /* Hyndman and Fan (1996) definition 7: h = (n - 1) p */
+    double h = (double)(n - 1) * p;
+    size_t lo = (size_t)floor(h);
+    double w = h - (double)lo;
+    if (lo + 1 >= n || w == 0.0)
+        return v[lo < n ? lo : n - 1];
+    if (isinf(v[lo]) || isinf(v[lo + 1]))
+        return isinf(v[lo + 1]) && v[lo + 1] > 0 ? INFINITY : v[lo];
+    return v[lo] + w * (v[lo + 1] - v[lo]);
+}
