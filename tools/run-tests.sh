@@ -16,8 +16,9 @@ prog=$(cd "$build" && pwd)/sillwatch
 for dir in tests/cli/*/; do
     [ -f "$dir/cmd" ] || continue
     name=$(basename "$dir")
-    out=$(mktemp -d)
-    ( cd "$dir" && LC_ALL=C SW="${SW_WRAPPER:+$SW_WRAPPER }$prog" TMP="$out" \
+    out=$(mktemp -d)   # what the case printed
+    work=$(mktemp -d)  # the case's own scratch folder, $TMP
+    ( cd "$dir" && LC_ALL=C SW="${SW_WRAPPER:+$SW_WRAPPER }$prog" TMP="$work" \
         sh ./cmd >"$out/stdout" 2>"$out/stderr" </dev/null; echo $? >"$out/status" )
     ok=1
     for f in stdout stderr status; do
@@ -28,7 +29,7 @@ for dir in tests/cli/*/; do
         fi
     done
     if [ $ok = 1 ]; then passed=$((passed + 1)); else failed=$((failed + 1)); fi
-    rm -rf "$out"
+    rm -rf "$out" "$work"
 done
 
 echo "$passed passed, $failed failed"
