@@ -6,6 +6,7 @@
 #include <stdio.h>
 
 #include "sillwatch/error.h"
+#include "sillwatch/site.h"
 
 /* Exit codes, documented in the README, the man page and --help. */
 enum sw_exit {
@@ -38,6 +39,15 @@ int sw_cli_usage_error(const char *command, const char *fmt, ...)
 /* Parse a level or other number from the command line: the whole string
  * must be a finite decimal number.  Returns 0 and stores it, or -1. */
 int sw_cli_parse_number(const char *text, double *value);
+
+/* Create the output folder `dir` if it does not exist.  Returns SW_OK, or
+ * SW_EOUTPUT when it cannot be made or exists but is not a folder. */
+int sw_cli_make_outdir(const char *dir, sw_error *err);
+
+/* Apply --series NAME=FILE options (already checked to hold an '=') to
+ * the site.  Returns 0, or the usage exit code after printing why. */
+int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
+                        const char *command);
 
 /* The caution printed by --help and the reports. */
 extern const char sw_cli_caution[];

@@ -260,23 +260,6 @@ static void write_step(const sw_stepper *st, const sw_site *site,
     }
 }
 
-static int make_outdir(const char *dir, sw_error *err)
-{
-    struct stat sb;
-    if (stat(dir, &sb) == 0) {
-        if (!S_ISDIR(sb.st_mode))
-            return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
-                                "the output folder exists but is not a "
-                                "folder");
-        return SW_OK;
-    }
-    if (mkdir(dir, 0777) != 0)
-        return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
-                            "cannot create the output folder: %s",
-                            strerror(errno));
-    return SW_OK;
-}
-
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
@@ -294,15 +277,9 @@ int sw_cmd_run(int argc, char **argv)
         return rc < 0 ? SW_EXIT_OK : rc;
     if (sw_site_load(&site, o.site_path, &err) != SW_OK)
         return sw_cli_report(&err);
-    for (size_t i = 0; i < o.n_series; i++) {
-        char name[SW_SITE_NAME_MAX];
-        const char *eq = strchr(o.series[i], '=');
-        snprintf(name, sizeof name, "%.*s", (int)(eq - o.series[i]),
-                 o.series[i]);
-        if (sw_site_set_series_file(&site, name, eq + 1, &err) != SW_OK) {
-            sw_site_fini(&site);
-            return sw_cli_usage_error("run", "%s", err.message);
-        }
+    if ((rc = sw_cli_apply_series(&site, o.series, o.n_series, "run")) != 0) {
+        sw_site_fini(&site);
+        return rc;
     }
 
     signal(SIGINT, on_signal);
@@ -310,7 +287,7 @@ int sw_cmd_run(int argc, char **argv)
     sw_stepper_options sopt = {o.by_month, o.steps};
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
         goto fail;
-    if ((rc = make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
         if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month))

@@ -352,22 +352,6 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
     return rc;
 }
 
-static int make_outdir(const char *dir, sw_error *err)
-{
-    struct stat sb;
-    if (stat(dir, &sb) == 0)
-        return S_ISDIR(sb.st_mode)
-                   ? SW_OK
-                   : sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
-                                  "the output folder exists but is not a "
-                                  "folder");
-    if (mkdir(dir, 0777) != 0)
-        return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
-                            "cannot create the output folder: %s",
-                            strerror(errno));
-    return SW_OK;
-}
-
 int sw_cmd_screen(int argc, char **argv)
 {
     screen_opts o;
@@ -385,15 +369,9 @@ int sw_cmd_screen(int argc, char **argv)
         return rc < 0 ? SW_EXIT_OK : rc;
     if (sw_site_load(&site, o.site_path, &err) != SW_OK)
         return sw_cli_report(&err);
-    for (size_t i = 0; i < o.n_series; i++) {
-        char name[SW_SITE_NAME_MAX];
-        const char *eq = strchr(o.series[i], '=');
-        snprintf(name, sizeof name, "%.*s", (int)(eq - o.series[i]),
-                 o.series[i]);
-        if (sw_site_set_series_file(&site, name, eq + 1, &err) != SW_OK) {
-            sw_site_fini(&site);
-            return sw_cli_usage_error("screen", "%s", err.message);
-        }
+    if ((rc = sw_cli_apply_series(&site, o.series, o.n_series, "screen")) != 0) {
+        sw_site_fini(&site);
+        return rc;
     }
     if (o.issued != NULL) {
         sw_stamp stamp;
@@ -421,7 +399,7 @@ int sw_cmd_screen(int argc, char **argv)
 
     if ((rc = sw_ensemble_expand(&ens, &site, &err)) != SW_OK)
         goto fail;
-    if ((rc = make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=

@@ -7,6 +7,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include <gsl/gsl_errno.h>
 
@@ -104,6 +105,36 @@ int sw_cli_parse_number(const char *text, double *value)
     if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
         return -1;
     *value = v;
+    return 0;
+}
+
+int sw_cli_make_outdir(const char *dir, sw_error *err)
+{
+    struct stat sb;
+    if (stat(dir, &sb) == 0)
+        return S_ISDIR(sb.st_mode)
+                   ? SW_OK
+                   : sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                                  "the output folder exists but is not a "
+                                  "folder");
+    if (mkdir(dir, 0777) != 0)
+        return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
+                            "cannot create the output folder: %s",
+                            strerror(errno));
+    return SW_OK;
+}
+
+int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
+                        const char *command)
+{
+    for (size_t i = 0; i < n; i++) {
+        char name[SW_SITE_NAME_MAX];
+        sw_error err;
+        const char *eq = strchr(specs[i], '=');
+        snprintf(name, sizeof name, "%.*s", (int)(eq - specs[i]), specs[i]);
+        if (sw_site_set_series_file(site, name, eq + 1, &err) != SW_OK)
+            return sw_cli_usage_error(command, "%s", err.message);
+    }
     return 0;
 }
 

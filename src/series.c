@@ -30,7 +30,8 @@
  * the rows handed out.
  *
  * Memory: the read buffer (64 KiB, up to 1 MiB + 64 KiB for long lines),
- * libcsv's field buffer (bounded by the 4 MiB record limit), the header's
+ * libcsv's field buffer (bounded through the 4 MiB record limit: below
+ * 2 x 4 MiB + 1 MiB, see grow_geometrically()), the header's
  * names while the reader opens, and fixed-size per-column state.  Nothing
  * grows with the length of the file.
  */
@@ -459,6 +460,25 @@ static void on_field(void *s, size_t len, void *data)
 
 /* ---- records ------------------------------------------------------------ */
 
+/* libcsv (3.0.3) grows its field buffer by a fixed block (blk_size, 128
+ * bytes by default), and each growth is a realloc that may copy the whole
+ * buffer: a field of n bytes costs n / 128 copies, quadratic in n (a quote
+ * left open over 4 MiB took minutes under AddressSanitizer, whose realloc
+ * always copies).  Before each line is fed, the block is set to at least
+ * the buffer's present size and the line's length, so the buffer at least
+ * doubles when it grows and a line needs at most one growth.  The buffer
+ * stays below twice the longest field plus one line. */
+static void grow_geometrically(struct csv_parser *csv, size_t feed)
+{
+    size_t blk = csv_get_buffer_size(csv);
+
+    if (blk < feed)
+        blk = feed;
+    if (blk < 128)
+        blk = 128;
+    csv_set_blk_size(csv, blk);
+}
+
 /* Read lines until libcsv ends a record (*got = 1) or the file ends
  * (*got = 0), with `field_cb` called for each field. */
 static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
@@ -514,6 +534,7 @@ static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
             feed--;
         if (has_nl)
             s[feed++] = '\n';
+        grow_geometrically(&r->csv, feed);
         if (csv_parse(&r->csv, s, feed, field_cb, on_row, r) != feed) {
             if (csv_error(&r->csv) == CSV_EPARSE)
                 return fail_at(r, err, SW_EDATA, r->line,
@@ -786,6 +807,23 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
     return SW_OK;
 }
 
+/* Open the file of a configured reader, set up libcsv and read the header
+ * row; *got is 0 if the file holds no record at all. */
+static int read_header(sw_reader *r, int *got, sw_error *err)
+{
+    if ((r->fp = fopen(r->path, "rb")) == NULL)
+        return fail_at(r, err, SW_EDATA, 0, 0,
+                       "cannot open the level file: %s", strerror(errno));
+    if ((r->buf = malloc(CHUNK_BYTES)) == NULL)
+        return sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+    r->cap = CHUNK_BYTES;
+    csv_init(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
+    r->csv_ready = 1;
+    if (r->delim != 0)
+        csv_set_delim(&r->csv, (unsigned char)r->delim);
+    return read_record(r, on_header_field, got, err);
+}
+
 int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
                    const sw_column_config *columns, size_t n_columns,
                    sw_error *err)
@@ -804,24 +842,8 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
                           "sw_reader_open: no configuration");
         goto cleanup;
     }
-    if ((rc = copy_config(r, cfg, columns, n_columns, err)) != SW_OK)
-        goto cleanup;
-    if ((r->fp = fopen(r->path, "rb")) == NULL) {
-        rc = fail_at(r, err, SW_EDATA, 0, 0, "cannot open the level file: %s",
-                     strerror(errno));
-        goto cleanup;
-    }
-    if ((r->buf = malloc(CHUNK_BYTES)) == NULL) {
-        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
-        goto cleanup;
-    }
-    r->cap = CHUNK_BYTES;
-    csv_init(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
-    r->csv_ready = 1;
-    if (r->delim != 0)
-        csv_set_delim(&r->csv, (unsigned char)r->delim);
-
-    if ((rc = read_record(r, on_header_field, &got, err)) != SW_OK)
+    if ((rc = copy_config(r, cfg, columns, n_columns, err)) != SW_OK ||
+        (rc = read_header(r, &got, err)) != SW_OK)
         goto cleanup;
     if (!got) {
         rc = fail_at(r, err, SW_EDATA, 0, 0, "%s", r->line == 0
@@ -925,23 +947,8 @@ int sw_csv_header(const char *path, char delimiter, char ***names, size_t *n,
     *n = 0;
     if ((r = calloc(1, sizeof *r)) == NULL)
         return sw_error_set(err, SW_ENOMEM, path, 0, 0, "out of memory");
-    if ((rc = copy_config(r, &cfg, NULL, 0, err)) != SW_OK)
-        goto cleanup;
-    if ((r->fp = fopen(r->path, "rb")) == NULL) {
-        rc = fail_at(r, err, SW_EDATA, 0, 0, "cannot open the level file: %s",
-                     strerror(errno));
-        goto cleanup;
-    }
-    if ((r->buf = malloc(CHUNK_BYTES)) == NULL) {
-        rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
-        goto cleanup;
-    }
-    r->cap = CHUNK_BYTES;
-    csv_init(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
-    r->csv_ready = 1;
-    if (r->delim != 0)
-        csv_set_delim(&r->csv, (unsigned char)r->delim);
-    if ((rc = read_record(r, on_header_field, &got, err)) != SW_OK)
+    if ((rc = copy_config(r, &cfg, NULL, 0, err)) != SW_OK ||
+        (rc = read_header(r, &got, err)) != SW_OK)
         goto cleanup;
     if (!got) {
         rc = fail_at(r, err, SW_EDATA, 0, 0,
