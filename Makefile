@@ -1,6 +1,6 @@
 # sillwatch — hydrostatic screening of hinged flap gates.
 # Targets: all (default), check, bench, install, uninstall, clean,
-#          check-sanitize, check-valgrind.  See DEVELOPERS.md.
+#          check-sanitize, check-valgrind, fuzz.  See DEVELOPERS.md.
 
 VERSION   := 0.1.0
 PREFIX    ?= /usr/local
@@ -40,7 +40,8 @@ BENCH_SRC := $(wildcard tests/bench/bench_*.c)
 BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 DEPS_OK   := $(BUILD)/.deps-ok
 
-.PHONY: all check bench install uninstall clean check-sanitize check-valgrind deps
+.PHONY: all check bench install uninstall clean check-sanitize check-valgrind deps \
+        fuzz fuzz-build
 
 all: $(PROG)
 
@@ -87,6 +88,54 @@ check-sanitize:
 check-valgrind: $(PROG) $(UNIT_BIN)
 	@SW_WRAPPER="valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all" \
 	  tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+
+# Fuzzing with libFuzzer (clang's -fsanitize=fuzzer), not part of check:
+# `make fuzz FUZZ_SECONDS=600`.  Each target runs for FUZZ_SECONDS on its
+# working corpus build/fuzz/corpus-NAME, into which the seeds of
+# tests/fuzz/corpus/NAME and the fixed findings of tests/fuzz/regressions/NAME
+# are copied first (a run never writes into tests/); crashes go to
+# build/fuzz/artifacts-NAME/.
+FUZZ_CC      ?= clang-14
+FUZZ_SECONDS ?= 60
+FUZZ_DIR     := $(BUILD)/fuzz
+FUZZ_NAMES   := site levels range
+FUZZ_BIN     := $(FUZZ_NAMES:%=$(FUZZ_DIR)/fuzz_%)
+FUZZ_SAN     := -fsanitize=address,undefined -fno-sanitize-recover=all \
+                -fno-omit-frame-pointer
+# -max_len per target: a site file of several sections; a level file of a
+# header and a few dozen rows; a range is three short numbers.
+FUZZ_MAXLEN_site   := 4096
+FUZZ_MAXLEN_levels := 4096
+FUZZ_MAXLEN_range  := 96
+
+# The library, instrumented for the fuzzer, built by this Makefile itself.
+# clang and its fuzzer runtime are needed by this target only, so they are
+# installed here (Debian 12: clang-14, libclang-rt-14-dev), not by `make`.
+$(FUZZ_DIR)/libsillwatch.a: $(LIB_SRC) $(wildcard include/sillwatch/*.h)
+	@echo 'int LLVMFuzzerTestOneInput(const char *d, long n) { return 0; }' \
+	  | $(FUZZ_CC) -fsanitize=fuzzer -x c - -o /dev/null 2>/dev/null \
+	  || tools/install-deps.sh clang-14 libclang-rt-14-dev
+	$(MAKE) BUILD=$(FUZZ_DIR) CC=$(FUZZ_CC) CFLAGS="-O1 -g" \
+	  EXTRA_CFLAGS="-fsanitize=fuzzer-no-link $(FUZZ_SAN)" $@
+
+$(FUZZ_DIR)/fuzz_%: tests/fuzz/fuzz_%.c $(FUZZ_DIR)/libsillwatch.a
+	$(FUZZ_CC) -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
+	  -Iinclude -O1 -g -fsanitize=fuzzer $(FUZZ_SAN) -o $@ $< \
+	  $(FUZZ_DIR)/libsillwatch.a $(LDLIBS_ALL)
+
+fuzz-build: $(FUZZ_BIN)
+
+fuzz: $(FUZZ_NAMES:%=fuzz-run-%)
+
+fuzz-run-%: $(FUZZ_DIR)/fuzz_%
+	@mkdir -p $(FUZZ_DIR)/corpus-$* $(FUZZ_DIR)/artifacts-$*
+	cp tests/fuzz/corpus/$*/* $(wildcard tests/fuzz/regressions/$*/*) \
+	  $(FUZZ_DIR)/corpus-$*/
+	$(FUZZ_DIR)/fuzz_$* -max_total_time=$(FUZZ_SECONDS) \
+	  -max_len=$(FUZZ_MAXLEN_$*) -artifact_prefix=$(FUZZ_DIR)/artifacts-$*/ \
+	  -print_final_stats=1 -timeout=10 \
+	  $(if $(wildcard tests/fuzz/$*.dict),-dict=tests/fuzz/$*.dict) \
+	  $(FUZZ_DIR)/corpus-$*
 
 install: $(PROG)
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1

@@ -248,7 +248,17 @@ static void rect_integrals(const sw_gate *g, double s_w, double *f, double *m)
 static void segment_integrals(double r, double y0, double *j0, double *j1,
                               double *j2)
 {
-    double root = sqrt((r - y0) * (r + y0));
+    double root;
+
+    /* A surface at the top of the opening can give y0 a rounding below -r
+     * (s_w - c with c = seal_top + r), and then the root of a negative
+     * number: NaN loads and a NaN verdict (found by fuzzing).  The chord
+     * cannot lie outside the circle. */
+    if (y0 < -r)
+        y0 = -r;
+    else if (y0 > r)
+        y0 = r;
+    root = sqrt((r - y0) * (r + y0));
     double theta = atan2(root, y0);
     *j0 = r * r * theta - y0 * root;
     *j1 = (2.0 / 3.0) * root * root * root;

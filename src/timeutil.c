@@ -1018,6 +1018,12 @@ int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
         return sw_error_set(err, SW_EDATA, NULL, 0, 0,
                             "timestamp is blank; expected "
                             "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
+    /* A NUL byte would cut the text quoted in any message below short
+     * (a binary field was quoted as ''): name it instead. */
+    if (memchr(p, '\0', n) != NULL)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp holds a NUL byte (is this a text "
+                            "file?)");
 
     /* YYYY-MM-DD */
     if (n < 10) {
@@ -1196,6 +1202,11 @@ int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,
         end--;
     n = (size_t)(end - p);
     q = quote_of(n);
+    /* As in sw_stamp_parse(): a NUL would cut the quoted text short. */
+    if (n > 0 && memchr(p, '\0', n) != NULL)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "Unix time holds a NUL byte (is this a text "
+                            "file?)");
     if (p < end && (*p == '-' || *p == '+')) {
         negative = *p == '-';
         p++;

@@ -11,11 +11,13 @@ for t in "$@"; do
         echo "FAILED: $t"; failed=$((failed + 1)); fi
 done
 
-# CLI cases: tests/cli/NAME/{cmd,stdout,stderr,status}; see DEVELOPERS.md.
+# CLI cases: tests/cli/NAME/{cmd,stdout,stderr,status}, and the bad-input
+# corpus tests/bad/NAME/ in the same format (a folder without `cmd`, such as
+# tests/bad/common, holds shared inputs); see DEVELOPERS.md.
 prog=$(cd "$build" && pwd)/sillwatch
-for dir in tests/cli/*/; do
+for dir in tests/cli/*/ tests/bad/*/; do
     [ -f "$dir/cmd" ] || continue
-    name=$(basename "$dir")
+    name=$(basename "$(dirname "$dir")")/$(basename "$dir")
     out=$(mktemp -d)   # what the case printed
     work=$(mktemp -d)  # the case's own scratch folder, $TMP
     ( cd "$dir" && LC_ALL=C SW="${SW_WRAPPER:+$SW_WRAPPER }$prog" TMP="$work" \
@@ -23,7 +25,7 @@ for dir in tests/cli/*/; do
     ok=1
     for f in stdout stderr status; do
         if ! cmp -s "$dir/$f" "$out/$f"; then
-            [ $ok = 1 ] && echo "FAILED: cli/$name"
+            [ $ok = 1 ] && echo "FAILED: $name"
             ok=0
             diff -u "$dir/$f" "$out/$f" | head -n 40 | sed 's/^/    /'
         fi

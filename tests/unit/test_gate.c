@@ -213,6 +213,58 @@ static void test_circular_segment_reference(void **state)
     assert_close(m / k, inertia - y0 * area * ybar + c * area * (ybar - y0), 2e-8);
 }
 
+/* Water exactly at the top of a circular opening.  The gate is that of the
+ * fuzzer input tests/fuzz/regressions/site/circle-seal-top.ini (gate
+ * 'bypass'): there the surface's s came out a rounding below the circle, a
+ * square root of a negative number made both water loads NaN, and a NaN
+ * verdict read as `ok`.  The load must be that of the fully wetted disc:
+ * F/k = d pi r^2 with d = r (the surface at the top of the disc), and
+ * M/k = pi r^4 / 4 + c d pi r^2 (a disc's second moment about its
+ * diameter, pi r^4 / 4: common practice, no source).  Then the same over
+ * random circular gates, each at its own seal top. */
+static void test_circle_surface_at_seal_top(void **state)
+{
+    (void)state;
+    sw_gate g = circle_gate(0.95, 75.0, 0.12, 0.90);
+    double r = 0.45, c = 0.12 + r, area = M_PI * r * r;
+    double k = RHO_FRESH * G * sin(75.0 * M_PI / 180.0), f, m;
+    sw_gate_result res;
+    gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
+
+    g.leaf_length_m = 1.10;
+    g.mass_kg = 420.0;
+    g.cg_along_m = 0.55;
+    g.volume_m3 = 1.3;
+    g.min_sill_reaction_N = 200.0;
+    sw_gate_prepare(&g);
+    sw_gate_water_load(&g, g.seal_top_level_m, RHO_FRESH, &f, &m);
+    assert_close(f / k, r * area, 1e-9);
+    assert_close(m / k, 0.25 * area * r * r + c * r * area, 1e-9);
+    sw_gate_evaluate(&g, g.seal_top_level_m, 0.83408890084531173, &res);
+    assert_false(isnan(res.net_moment_Nm) || isnan(res.fs) ||
+                 isnan(res.sill_reaction_N));
+    sw_gate_evaluate(&g, 1.357, g.seal_top_level_m, &res);
+    assert_false(isnan(res.net_moment_Nm) || isnan(res.fs) ||
+                 isnan(res.sill_reaction_N));
+
+    assert_non_null(rng);
+    gsl_rng_set(rng, 24071);
+    for (int i = 0; i < 20000; i++) {
+        double hinge = -50.0 + 100.0 * gsl_rng_uniform(rng);
+        double incl = 5.0 + 170.0 * gsl_rng_uniform(rng);
+        double top = 1.5 * gsl_rng_uniform(rng);
+        double dia = 0.05 + 2.95 * gsl_rng_uniform(rng);
+        sw_gate h = circle_gate(hinge, incl, top, dia);
+        double rr = 0.5 * dia, kk = RHO_FRESH * G * h.sin_a;
+
+        sw_gate_water_load(&h, h.seal_top_level_m, RHO_FRESH, &f, &m);
+        assert_close(f / kk, rr * M_PI * rr * rr, 1e-9);
+        assert_close(m / kk, 0.25 * M_PI * rr * rr * rr * rr +
+                     (top + rr) * rr * M_PI * rr * rr, 1e-9);
+    }
+    gsl_rng_free(rng);
+}
+
 /* Regime boundaries: water exactly at the sill gives nothing; at the seal
  * top the partial and full forms agree; at the hinge s_w = 0.  Each load is
  * continuous across them (common practice, no source). */
@@ -599,6 +651,7 @@ int main(void)
     gsl_set_error_handler_off();
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_closed_forms_match_quadrature),
+        cmocka_unit_test(test_circle_surface_at_seal_top),
         cmocka_unit_test(test_centre_of_pressure_rectangle),
         cmocka_unit_test(test_centre_of_pressure_circle),
         cmocka_unit_test(test_circular_segment_reference),

@@ -327,6 +327,29 @@ static void test_stamp_errors(void **state)
     expect_stamp_error("  \t ", "timestamp is blank; expected YYYY-MM-DD "
                        "hh:mm[:ss[.fff]][Z|+hh:mm]");
 #define SHAPE "; expected YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]"
+    /* A NUL byte (a binary file) is named, not quoted: quoting stopped at
+     * it, and a message once read "timestamp '' does not begin with a
+     * date" for a field of four bytes (tests/bad/csv_binary_junk). */
+    {
+        sw_stamp st = { 123, 7, 99 };
+        sw_time_ms t = 42;
+        sw_error err;
+
+        assert_int_equal(sw_stamp_parse("2025-04-01T00:00\0:00Z", 21, &st,
+                                        &err), SW_EDATA);
+        assert_string_equal(err.message, "timestamp holds a NUL byte (is "
+                            "this a text file?)");
+        assert_int_equal(st.wall_ms, 123);
+        assert_int_equal(sw_stamp_parse("\0\xff\xfe\x01", 4, &st, &err),
+                         SW_EDATA);
+        assert_string_equal(err.message, "timestamp holds a NUL byte (is "
+                            "this a text file?)");
+        assert_int_equal(sw_unix_parse("17\0" "43465600", 11, &t, &err),
+                         SW_EDATA);
+        assert_string_equal(err.message, "Unix time holds a NUL byte (is "
+                            "this a text file?)");
+        assert_int_equal(t, 42);
+    }
     expect_stamp_error("2025", "timestamp '2025' has no complete date" SHAPE);
     expect_stamp_error("01.02.2025 10:00", "timestamp '01.02.2025 10:00' "
                        "does not begin with a four-digit year" SHAPE);
