@@ -324,6 +324,12 @@ int sw_cmd_run(int argc, char **argv)
     }
     if ((rc = sw_stepper_finish(st, &err)) != SW_OK)
         goto fail;
+    if (!sw_stepper_has_data(st)) {
+        rc = sw_error_set(&err, SW_EDATA, site.path, 0, 0,
+                          "the level series hold no valid reading: nothing "
+                          "to replay");
+        goto fail;
+    }
     write_step(st, &site, out, o.steps, o.by_month);
     if (show_progress)
         fputs("\r\033[K", stderr);

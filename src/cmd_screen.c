@@ -225,6 +225,12 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
     }
 
     sw_time_ms end;
+    if (!sw_stepper_has_data(st)) {
+        rc = sw_error_set(err, SW_EDATA, site->path, 0, 0,
+                          "the forecast series hold no valid reading: "
+                          "nothing to screen");
+        goto cleanup;
+    }
     sw_stepper_span(st, t0, &end);
     for (size_t g = 0; g < ens->n_orig; g++) {
         verdict *v = &vd[g];

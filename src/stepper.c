@@ -1011,6 +1011,8 @@ size_t sw_stepper_months(const sw_stepper *st, const sw_month_row **months)
     return st->n_months;
 }
 
+int sw_stepper_has_data(const sw_stepper *st) { return st->started; }
+
 void sw_stepper_span(const sw_stepper *st, sw_time_ms *start, sw_time_ms *end)
 {
     *start = st->started ? st->span_start : 0;

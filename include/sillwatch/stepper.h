@@ -123,6 +123,9 @@ size_t sw_stepper_events(const sw_stepper *stepper, const sw_event **events);
 size_t sw_stepper_months(const sw_stepper *stepper,
                          const sw_month_row **months);
 
+/* Whether any valid sample was read (the timeline has a point). */
+int sw_stepper_has_data(const sw_stepper *stepper);
+
 /* The run: its span, and a gate's tally so far. */
 void sw_stepper_span(const sw_stepper *stepper, sw_time_ms *start,
                      sw_time_ms *end);
