@@ -646,6 +646,71 @@ static void test_critical_finds_narrow_band(void **state)
     assert_close_abs(crit.level_m, top, 5e-5 + SW_CRIT_TOL_M);
 }
 
+/* Numeric safety: extreme inclinations, tiny and huge gates, levels exactly
+ * at the sill, the seal top and the hinge and a hair either side: every
+ * result is finite (fs may be +-inf by definition, never NaN), the state
+ * agrees with the margins, and the critical-level searches succeed with a
+ * finite level or an explicit kind (common practice, no source: a
+ * screening tool must never report NaN as a verdict). */
+static void check_finite(const sw_gate *g, double hw, double tw)
+{
+    sw_gate_result r;
+    sw_gate_evaluate(g, hw, tw, &r);
+    const double v[] = {r.hw_force_N, r.hw_moment_Nm, r.tw_force_N,
+                        r.tw_moment_Nm, r.weight_moment_Nm,
+                        r.buoyancy_force_N, r.buoyancy_moment_Nm,
+                        r.resisting_moment_Nm, r.net_moment_Nm,
+                        r.sill_reaction_N, r.hw_cp_m, r.tw_cp_m};
+    for (size_t i = 0; i < sizeof v / sizeof v[0]; i++)
+        if (!isfinite(v[i]))
+            fail_msg("gate incl %g size %g: field %zu = %g at hw %.17g tw %.17g",
+                     g->inclination_deg, g->s_sill_m, i, v[i], hw, tw);
+    assert_true(isnan(r.fs) == 0);
+    double m[SW_N_MARGINS];
+    sw_gate_margins(g, &r, m);
+    assert_int_equal(r.state, sw_gate_state_of(m));
+    sw_crit c;
+    sw_error err;
+    for (int lim = 0; lim < 2; lim++) {
+        assert_int_equal(sw_gate_critical_tailwater(g, hw, (sw_limit)lim, &c,
+                                                    &err), SW_OK);
+        assert_true(c.kind != SW_CRIT_LEVEL || isfinite(c.level_m));
+        assert_int_equal(sw_gate_critical_headwater(g, tw, (sw_limit)lim, &c,
+                                                    &err), SW_OK);
+        assert_true(c.kind != SW_CRIT_LEVEL || isfinite(c.level_m));
+    }
+}
+
+static void test_numeric_extremes(void **state)
+{
+    (void)state;
+    const double incl[] = {0.01, 0.5, 45.0, 89.999, 90.0, 90.001, 135.0,
+                           179.5, 179.99};
+    const double size[] = {0.002, 0.35, 12.0, 480.0};
+    for (size_t i = 0; i < sizeof incl / sizeof incl[0]; i++)
+        for (size_t j = 0; j < sizeof size / sizeof size[0]; j++)
+            for (int shape = 0; shape < 2; shape++) {
+                double d = size[j];
+                sw_gate g = shape ? circle_gate(25.0, incl[i], 0.1 * d, d)
+                                  : rect_gate(25.0, incl[i], 0.1 * d, d,
+                                              0.7 * d);
+                g.leaf_length_m = 1.2 * g.s_sill_m;
+                g.mass_kg = fmin(1e9, 800.0 * d * d * d + 1.0);
+                g.cg_along_m = 0.5 * g.leaf_length_m;
+                g.volume_m3 = g.mass_kg / 2500.0;
+                sw_gate_prepare(&g);
+                const double z[] = {g.sill_level_m, g.seal_top_level_m,
+                                    g.hinge_level_m, g.leaf_bottom_level_m};
+                for (size_t a = 0; a < 4; a++)
+                    for (int da = -1; da <= 1; da++) {
+                        double hw = z[a] + da * 1e-9 * fmax(1.0, d);
+                        check_finite(&g, hw, g.sill_level_m - 1.0);
+                        check_finite(&g, hw, z[(a + 1) % 4]);
+                        check_finite(&g, z[(a + 2) % 4], hw);
+                    }
+            }
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -664,6 +729,7 @@ int main(void)
         cmocka_unit_test(test_critical_headwater_brute_force),
         cmocka_unit_test(test_critical_takes_highest_crossing),
         cmocka_unit_test(test_critical_finds_narrow_band),
+        cmocka_unit_test(test_numeric_extremes),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
