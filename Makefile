@@ -40,7 +40,7 @@ BENCH_SRC := $(wildcard tests/bench/bench_*.c)
 BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 DEPS_OK   := $(BUILD)/.deps-ok
 
-.PHONY: all check bench install uninstall clean check-sanitize check-valgrind deps \
+.PHONY: all check bench install uninstall clean check-sanitize check-valgrind check-valgrind-all deps \
         fuzz fuzz-build
 
 all: $(PROG)
@@ -85,9 +85,20 @@ check-sanitize:
 	  EXTRA_LDFLAGS="-fsanitize=address,undefined" check
 
 # The CLI tests with every program run under valgrind memcheck.
-check-valgrind: $(PROG) $(UNIT_BIN)
-	@SW_WRAPPER="valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all" \
-	  tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+# The example's whole job under valgrind memcheck: any error or leak fails.
+VALGRIND = valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all
+check-valgrind: $(PROG)
+	@rm -rf $(BUILD)/valgrind && mkdir -p $(BUILD)/valgrind
+	$(VALGRIND) $(PROG) check data/example/quillbrook.ini > /dev/null
+	$(VALGRIND) $(PROG) point data/example/quillbrook.ini --headwater 11.62 --tailwater 11.48 > /dev/null; test $$? -le 1
+	$(VALGRIND) $(PROG) run data/example/quillbrook.ini -o $(BUILD)/valgrind --by month --steps -q; test $$? -le 1
+	$(VALGRIND) $(PROG) screen tests/cli/screen_ensemble/site.ini -o $(BUILD)/valgrind/screen -q; test $$? -le 1
+	$(VALGRIND) $(PROG) thresholds data/example/quillbrook.ini --headwater 11.4:13.2:0.01 --simplify 0.005 -o $(BUILD)/valgrind/thresholds.csv > /dev/null
+	@echo "check-valgrind: no memory errors, no leaks"
+
+# Every unit test and CLI case under valgrind (slow: tens of minutes).
+check-valgrind-all: $(PROG) $(UNIT_BIN)
+	@SW_WRAPPER="$(VALGRIND)" tools/run-tests.sh $(BUILD) $(UNIT_BIN)
 
 # Fuzzing with libFuzzer (clang's -fsanitize=fuzzer), not part of check:
 # `make fuzz FUZZ_SECONDS=600`.  Each target runs for FUZZ_SECONDS on its
