@@ -200,12 +200,13 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
             printf("    ... and %ld more rejected\n",
                    cs->rejected - (long)cs->n_kept);
         if (rs->time_rejected > 0)
-            printf("    %ld rows at local times that do not exist (the "
+            printf("    %ld row%s at local times that do not exist (the "
                    "daylight-saving gap), taken as missing; first on line "
                    "%ld\n",
-                   rs->time_rejected, rs->first_time_rejected_line);
+                   rs->time_rejected, rs->time_rejected == 1 ? "" : "s",
+                   rs->first_time_rejected_line);
         if (rs->unresolved > 0)
-            printf("    %ld rows in a repeated daylight-saving hour could not "
+            printf("    %ld row(s) in a repeated daylight-saving hour could not "
                    "be placed by order and were taken as the first "
                    "occurrence; first on line %ld\n",
                    rs->unresolved, rs->first_unresolved_line);

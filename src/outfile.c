@@ -21,7 +21,8 @@ int sw_outfile_open(sw_outfile *f, const char *dir, const char *name,
                             strerror(errno));
     if (!S_ISDIR(sb.st_mode))
         return sw_error_set(err, SW_EOUTPUT, dir, 0, 0,
-                            "the output folder is not a folder");
+                            "this is a file, not a folder: the output cannot "
+                            "be written inside it");
     if ((size_t)snprintf(f->path, sizeof f->path, "%s/%s", dir, name) >=
             sizeof f->path ||
         (size_t)snprintf(f->tmp, sizeof f->tmp, "%s/.%s.XXXXXX", dir, name) >=

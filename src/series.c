@@ -43,6 +43,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include <csv.h>
 
@@ -811,9 +812,13 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
  * row; *got is 0 if the file holds no record at all. */
 static int read_header(sw_reader *r, int *got, sw_error *err)
 {
+    struct stat sb;
     if ((r->fp = fopen(r->path, "rb")) == NULL)
         return fail_at(r, err, SW_EDATA, 0, 0,
                        "cannot open the level file: %s", strerror(errno));
+    if (fstat(fileno(r->fp), &sb) == 0 && S_ISDIR(sb.st_mode))
+        return fail_at(r, err, SW_EDATA, 0, 0,
+                       "this is a folder, not a level file");
     if ((r->buf = malloc(CHUNK_BYTES)) == NULL)
         return sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
     r->cap = CHUNK_BYTES;

@@ -27,6 +27,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <sys/types.h>
 
 #include <ini.h>
@@ -1385,6 +1386,12 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     if (p.fp == NULL)
         return sw_error_set(err, SW_ESITE, path, 0, 0,
                             "cannot open the site file: %s", strerror(errno));
+    struct stat sb;
+    if (fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
+        fclose(p.fp);
+        return sw_error_set(err, SW_ESITE, path, 0, 0,
+                            "this is a folder, not a site file");
+    }
 
     snprintf(site->path, sizeof site->path, "%s", path);
     site->required_fs = NAN;
