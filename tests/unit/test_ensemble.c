@@ -8,33 +8,6 @@
 
 #include "sillwatch/ensemble.h"
 
-static char dir[64];
-
-static void write_file(const char *name, const char *text)
-{
-    char path[128];
-    snprintf(path, sizeof path, "%s/%s", dir, name);
-    FILE *fp = fopen(path, "w");
-    assert_non_null(fp);
-    fputs(text, fp);
-    fclose(fp);
-}
-
-static int setup(void **state)
-{
-    (void)state;
-    snprintf(dir, sizeof dir, "/tmp/sw-ensemble-XXXXXX");
-    return mkdtemp(dir) == NULL ? -1 : 0;
-}
-
-static int teardown(void **state)
-{
-    (void)state;
-    char cmd[128];
-    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
-    return system(cmd) == 0 ? 0 : -1;
-}
-
 #define GATE(name, hw, tw)                                                  \
     "[gate " name "]\nshape = circle\nhinge_level = 4.2\ninclination = 77\n" \
     "seal_top = 0.1\ndiameter = 0.65\nmass = 130\ncg_along = 0.4\n"          \
@@ -52,10 +25,10 @@ static int load(const char *extra, sw_site *site, sw_ensemble *ens,
 {
     char path[128], text[2048];
     snprintf(text, sizeof text, "%s%s", BASE, extra);
-    write_file("site.ini", text);
-    write_file("up.csv", "time,hw_m01,hw_m02,hw_m03,other\n");
-    write_file("down.csv", "# a comment\ntime;tw_m01;tw_m02;gauge;tw_m03\n");
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    sw_test_write("site.ini", text);
+    sw_test_write("up.csv", "time,hw_m01,hw_m02,hw_m03,other\n");
+    sw_test_write("down.csv", "# a comment\ntime;tw_m01;tw_m02;gauge;tw_m03\n");
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     int rc = sw_site_load(site, path, err);
     if (rc != SW_OK)
         return rc;
@@ -107,11 +80,11 @@ static void test_crossed(void **state)
     char full[4096];
     snprintf(full, sizeof full, "[site]\nensemble = crossed\n%s%s",
              strstr(BASE, "required_fs"), text);
-    write_file("site.ini", full);
-    write_file("up.csv", "time,hw_m01,hw_m02,hw_m03,other\n");
-    write_file("down.csv", "time;tw_m01;tw_m02;gauge;tw_m03\n");
+    sw_test_write("site.ini", full);
+    sw_test_write("up.csv", "time,hw_m01,hw_m02,hw_m03,other\n");
+    sw_test_write("down.csv", "time;tw_m01;tw_m02;gauge;tw_m03\n");
     char path[128];
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
     assert_int_equal(site.ensemble_crossed, 1);
     assert_int_equal(sw_ensemble_expand(&ens, &site, &err), SW_OK);
@@ -134,11 +107,11 @@ static void test_unpaired_members(void **state)
     sw_site site;
     sw_ensemble ens;
     sw_error err;
-    write_file("site.ini", BASE GATE("A", "up", "tailwater = down\n"));
-    write_file("up.csv", "time,hw_m01,hw_m02,hw_m04\n");
-    write_file("down.csv", "time;tw_m01;tw_m02;tw_m03\n");
+    sw_test_write("site.ini", BASE GATE("A", "up", "tailwater = down\n"));
+    sw_test_write("up.csv", "time,hw_m01,hw_m02,hw_m04\n");
+    sw_test_write("down.csv", "time;tw_m01;tw_m02;tw_m03\n");
     char path[128];
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
     assert_int_equal(sw_ensemble_expand(&ens, &site, &err), SW_ESITE);
     assert_non_null(strstr(err.message, "do not pair by label"));
@@ -146,7 +119,7 @@ static void test_unpaired_members(void **state)
     sw_site_fini(&site);
 
     /* a pattern that matches nothing */
-    write_file("up.csv", "time,level\n");
+    sw_test_write("up.csv", "time,level\n");
     assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
     assert_int_equal(sw_ensemble_expand(&ens, &site, &err), SW_EDATA);
     assert_non_null(strstr(err.message, "matches no column"));
@@ -169,10 +142,10 @@ static void test_many_members(void **state)
     }
     strcat(up, "\n");
     strcat(down, "\n");
-    write_file("site.ini", BASE GATE("A", "up", "tailwater = down\n"));
-    write_file("up.csv", up);
-    write_file("down.csv", down);
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    sw_test_write("site.ini", BASE GATE("A", "up", "tailwater = down\n"));
+    sw_test_write("up.csv", up);
+    sw_test_write("down.csv", down);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
     assert_int_equal(sw_ensemble_expand(&ens, &site, &err), SW_OK);
     assert_int_equal(ens.site.n_gates, 40);
@@ -225,5 +198,5 @@ int main(void)
         cmocka_unit_test(test_many_members),
         cmocka_unit_test(test_quantile_definition_7),
     };
-    return cmocka_run_group_tests(tests, setup, teardown);
+    return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }

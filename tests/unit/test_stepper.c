@@ -25,33 +25,6 @@
 #define WATERS                                                              \
     "[water upstream]\ndensity = 1000\n[water downstream]\ndensity = 1000\n"
 
-static char dir[64];
-
-static void write_file(const char *name, const char *text)
-{
-    char path[128];
-    snprintf(path, sizeof path, "%s/%s", dir, name);
-    FILE *fp = fopen(path, "w");
-    assert_non_null(fp);
-    fputs(text, fp);
-    fclose(fp);
-}
-
-static int setup(void **state)
-{
-    (void)state;
-    snprintf(dir, sizeof dir, "/tmp/sw-stepper-XXXXXX");
-    return mkdtemp(dir) == NULL ? -1 : 0;
-}
-
-static int teardown(void **state)
-{
-    (void)state;
-    char cmd[128];
-    snprintf(cmd, sizeof cmd, "rm -rf '%s'", dir);
-    return system(cmd) == 0 ? 0 : -1;
-}
-
 typedef struct run_result {
     sw_tally tally[4];
     sw_event events[32];
@@ -73,7 +46,7 @@ static int run_site(int by_month, run_result *out, sw_error *err)
     int rc, done = 0;
 
     memset(out, 0, sizeof *out);
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     if ((rc = sw_site_load(&site, path, err)) != SW_OK)
         return rc;
     if ((rc = sw_stepper_alloc(&st, &site, &opt, err)) != SW_OK)
@@ -131,13 +104,13 @@ static void test_constant_levels(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
                            "max_gap = 2h\n" WATERS GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
     /* headwater 0.1 m over the sill: M = 7357.5 * 0.01 * (2 - 0.0333)
      * = 144.7 N*m, fs = 392.4 / 144.7 = 2.71 > 1.5: ok throughout */
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-04-01T00:00:00Z,8.1,7.0\n"
                         "2025-04-01T01:30:00Z,8.1,7.0\n"
                         "2025-04-01T03:00:00Z,8.1,7.0\n"
@@ -160,11 +133,11 @@ static void test_linear_ramp_crossings(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
                            "max_gap = 12h\n" WATERS GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-04-01T00:00:00Z,8.0,7.0\n"
                         "2025-04-01T10:00:00Z,9.0,7.0\n");
     assert_int_equal(run_site(0, &r, &err), SW_OK);
@@ -192,14 +165,14 @@ static void test_gaps(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
                            "max_gap = 45min\n" WATERS GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "missing = -9999\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
     /* samples every 15 min; the headwater misses 00:30 (a 30 min interval,
      * bridged) and 01:30 to 02:15 (a 60 min interval, not bridged) */
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-04-01T00:00:00Z,8.1,7.0\n"
                         "2025-04-01T00:15:00Z,8.1,7.0\n"
                         "2025-04-01T00:30:00Z,,7.0\n"
@@ -225,11 +198,11 @@ static void test_event_ends_in_gap(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
                            GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-04-01T00:00:00Z,8.6,7.0\n"
                         "2025-04-01T00:15:00Z,8.6,7.0\n"
                         "2025-04-01T03:15:00Z,8.6,7.0\n");
@@ -251,16 +224,16 @@ static void test_two_files_interleaved(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
                            "max_gap = 90min\n" WATERS GATE_V
                            "[series hw]\nfile = up.csv\nvalue_column = level\n"
                            "[series tw]\nfile = down.csv\n"
                            "time_column = when\nvalue_column = level\n");
-    write_file("up.csv", "time,level\n"
+    sw_test_write("up.csv", "time,level\n"
                          "2025-04-01T00:00:00Z,8.1\n"
                          "2025-04-01T01:00:00Z,8.1\n"
                          "2025-04-01T02:00:00Z,8.1\n");
-    write_file("down.csv", "when;level\n"
+    sw_test_write("down.csv", "when;level\n"
                            "2025-04-01T00:30:00Z;7,0\n"
                            "2025-04-01T01:30:00Z;7,0\n"
                            "2025-04-01T02:30:00Z;7,0\n");
@@ -280,12 +253,12 @@ static void test_feet_with_offset(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
                            GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw_ft\n"
                            "unit = ft\noffset = 8.2476\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
-    write_file("l.csv", "time,hw_ft,tw\n"
+    sw_test_write("l.csv", "time,hw_ft,tw\n"
                         "2025-04-01T00:00:00Z,0.5,7.0\n"
                         "2025-04-01T00:15:00Z,0.5,7.0\n");
     assert_int_equal(run_site(0, &r, &err), SW_OK);
@@ -302,13 +275,13 @@ static void test_months_in_zone(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
                            "timezone = Europe/Berlin\nmax_gap = 2d\n" WATERS
                            GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
     /* local times without offset, read in the site's zone */
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-03-01 00:00,8.1,7.0\n"
                         "2025-03-02 00:00,8.1,7.0\n"
                         "2025-03-29 12:00,8.1,7.0\n"
@@ -334,11 +307,11 @@ static void test_backwards_time_is_an_error(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n" WATERS
                            GATE_V
                            "[series hw]\nfile = l.csv\nvalue_column = hw\n"
                            "[series tw]\nfile = l.csv\nvalue_column = tw\n");
-    write_file("l.csv", "time,hw,tw\n"
+    sw_test_write("l.csv", "time,hw,tw\n"
                         "2025-04-01T00:00:00Z,8.1,7.0\n"
                         "2025-04-01T00:15:00Z,8.1,7.0\n"
                         "2025-04-01T00:10:00Z,8.1,7.0\n");
@@ -353,7 +326,7 @@ static void test_gate_without_series(void **state)
     (void)state;
     run_result r;
     sw_error err;
-    write_file("site.ini", "[site]\nrequired_fs = 1.5\n" WATERS
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\n" WATERS
                            "[gate W]\nshape = circle\nhinge_level = 3\n"
                            "inclination = 70\nseal_top = 0.1\ndiameter = 0.6\n"
                            "mass = 90\ncg_along = 0.35\n");
@@ -392,8 +365,8 @@ static void test_hours_match_brute_force(void **state)
                      (i * 15) % 60, a, b);
     }
     q += sprintf(q, "2025-04-02T00:00:00Z,%.4f,%.4f\n", hw[N - 1], tw[N - 1]);
-    write_file("l.csv", csv);
-    write_file("site.ini",
+    sw_test_write("l.csv", csv);
+    sw_test_write("site.ini",
                "[site]\nrequired_fs = 1.5\nmin_sill_reaction = 300\n"
                "[water upstream]\ntemperature = 9\n"
                "[water downstream]\ntemperature = 12.5\nsalinity = 8\n"
@@ -413,7 +386,7 @@ static void test_hours_match_brute_force(void **state)
 
     char path[128];
     sw_site site;
-    snprintf(path, sizeof path, "%s/site.ini", dir);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
     assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
     for (size_t gi = 0; gi < 2; gi++) {
         long secs[3] = {0, 0, 0}, changes = 0;
@@ -459,5 +432,5 @@ int main(void)
         cmocka_unit_test(test_gate_without_series),
         cmocka_unit_test(test_hours_match_brute_force),
     };
-    return cmocka_run_group_tests(tests, setup, teardown);
+    return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }
