@@ -40,7 +40,7 @@ BENCH_SRC := $(wildcard tests/bench/bench_*.c)
 BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 DEPS_OK   := $(BUILD)/.deps-ok
 
-.PHONY: all check bench install uninstall clean check-sanitize check-valgrind check-valgrind-all deps \
+.PHONY: demo all check bench install uninstall clean check-sanitize check-valgrind check-valgrind-all deps \
         fuzz fuzz-build
 
 all: $(PROG)
@@ -78,6 +78,18 @@ check: $(PROG) $(UNIT_BIN)
 bench: $(BENCH_BIN) $(PROG)
 	@for b in $(BENCH_BIN); do echo "== $$b"; $$b || exit 1; done
 
+# The demo: a season replayed, a forecast flood screened, an alarm table.
+# Exit 1 from run or screen means "trouble found", which the demo shows.
+DEMO = $(BUILD)/demo
+demo: $(PROG)
+	@rm -rf $(DEMO) && mkdir -p $(DEMO)
+	$(PROG) run data/demo/velloran.ini -o $(DEMO)/season --by month --steps || test $$? -eq 1
+	$(PROG) screen data/demo/velloran-forecast.ini -o $(DEMO)/forecast || test $$? -eq 1
+	$(PROG) thresholds data/demo/velloran.ini --headwater 11.3:12.6:0.01 --simplify 0.005 -o $(DEMO)/alarm-table.csv
+	@echo
+	@echo "demo results: $(DEMO)/season (replay), $(DEMO)/forecast (screening),"
+	@echo "              $(DEMO)/alarm-table.csv (thresholds by headwater)"
+
 # The whole suite under AddressSanitizer and UndefinedBehaviorSanitizer.
 check-sanitize:
 	$(MAKE) BUILD=$(BUILD)/san CFLAGS="-O1 -g" \
@@ -85,14 +97,16 @@ check-sanitize:
 	  EXTRA_LDFLAGS="-fsanitize=address,undefined" check
 
 # The CLI tests with every program run under valgrind memcheck.
-# The example's whole job under valgrind memcheck: any error or leak fails.
+# The example's and the demo's whole job under valgrind memcheck: any
+# error or leak fails.
 VALGRIND = valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all
 check-valgrind: $(PROG)
 	@rm -rf $(BUILD)/valgrind && mkdir -p $(BUILD)/valgrind
 	$(VALGRIND) $(PROG) check data/example/quillbrook.ini > /dev/null
 	$(VALGRIND) $(PROG) point data/example/quillbrook.ini --headwater 11.62 --tailwater 11.48 > /dev/null; test $$? -le 1
 	$(VALGRIND) $(PROG) run data/example/quillbrook.ini -o $(BUILD)/valgrind --by month --steps -q; test $$? -le 1
-	$(VALGRIND) $(PROG) screen tests/cli/screen_ensemble/site.ini -o $(BUILD)/valgrind/screen -q; test $$? -le 1
+	$(VALGRIND) $(PROG) run data/demo/velloran.ini -o $(BUILD)/valgrind/demo --by month --steps -q; test $$? -le 1
+	$(VALGRIND) $(PROG) screen data/demo/velloran-forecast.ini -o $(BUILD)/valgrind/screen -q; test $$? -le 1
 	$(VALGRIND) $(PROG) thresholds data/example/quillbrook.ini --headwater 11.4:13.2:0.01 --simplify 0.005 -o $(BUILD)/valgrind/thresholds.csv > /dev/null
 	@echo "check-valgrind: no memory errors, no leaks"
 
