@@ -876,11 +876,14 @@ static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
     for (int m = 0; m < SW_N_MARGINS; m++)
         if (!(p->m[m] - loss > 0.0))
             return 0;
+    /* fs >= required_fs + (m[1] - loss) / hwm >= min_fs, written without
+     * the division (this runs at every step); an infinite min_fs (nothing
+     * evaluated yet) makes the product infinite or NaN: no skip. */
     double hwm = p->r.hw_moment_Nm + g->rate_hw * dh;
-    double fs_low = hwm > 0.0 ? g->gate->required_fs + (p->m[1] - loss) / hwm
-                              : INFINITY;
-    if (fs_low < g->run.min_fs ||
-        (st->opt.by_month && fs_low < g->month.min_fs))
+    double spare = p->m[1] - loss;
+    if (!(spare >= (g->run.min_fs - g->gate->required_fs) * hwm) ||
+        (st->opt.by_month &&
+         !(spare >= (g->month.min_fs - g->gate->required_fs) * hwm)))
         return 0;
     g->drift_hw = dh;
     g->drift_tw = dt;
