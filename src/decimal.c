@@ -218,12 +218,51 @@ static void canonical(const scanned *s, char *buf)
     *w = '\0';
 }
 
+/* The shape nearly every level in a log has: an optional '-', at most 15
+ * digits in all, one separator, nothing else (no blanks, no exponent).
+ * Then the digits fit a double exactly and so does 10^(digits after the
+ * separator), and one correctly rounded division gives the nearest double
+ * (Clinger's fast path, as below).  Returns 0 and stores the value, or -1
+ * to leave the text to the general path. */
+static int plain_level(const char *p, const char *end, int allow_comma,
+                       double *out)
+{
+    uint64_t m = 0;
+    int digits = 0, frac = -1, negative = 0;
+
+    if (p < end && *p == '-') {
+        negative = 1;
+        p++;
+    }
+    for (; p < end; p++) {
+        unsigned d = (unsigned)(unsigned char)*p - '0';
+        if (d <= 9) {
+            m = m * 10 + d;
+            digits++;
+            if (frac >= 0)
+                frac++;
+        } else if ((*p == '.' || (*p == ',' && allow_comma)) && frac < 0) {
+            frac = 0;
+        } else {
+            return -1;
+        }
+    }
+    if (digits == 0 || digits > 15 || frac == 0)
+        return -1;
+    double v = frac > 0 ? (double)m / exact_pow10[frac] : (double)m;
+    *out = negative ? -v : v;
+    return 0;
+}
+
 int sw_decimal_parse(const char *text, size_t len, int allow_comma,
                      double *out)
 {
     scanned s;
     double value;
 
+    if (text != NULL && len > 0 && len <= 17 &&
+        plain_level(text, text + len, allow_comma, out) == 0)
+        return 0;
     if (text == NULL || scan_number(text, text + len, allow_comma, &s) != 0)
         return -1;
     if (s.n_sig == 0) {
