@@ -644,14 +644,19 @@ static int ray(margin_ctx *c, double from, double *root, sw_error *err)
                         "1e19 m of the hinge", c->gate->name);
 }
 
+/* Below this level a water touches neither the opening nor the leaf, so it
+ * changes no margin. */
+static double lowest_wetted_level(const sw_gate *g)
+{
+    return fmin(g->sill_level_m, g->leaf_bottom_level_m);
+}
+
 int sw_gate_critical_tailwater(const sw_gate *g, double hw_m, sw_limit limit,
                                sw_crit *out, sw_error *err)
 {
     margin_ctx c = {g, limit, SW_DOWNSTREAM, 1, hw_m};
     double top = g->hinge_level_m > hw_m ? g->hinge_level_m : hw_m;
-    double bottom = g->sill_level_m < g->leaf_bottom_level_m
-                        ? g->sill_level_m
-                        : g->leaf_bottom_level_m;
+    double bottom = lowest_wetted_level(g);
     int rc, found;
     double root;
 
@@ -697,9 +702,7 @@ int sw_gate_critical_headwater(const sw_gate *g, double tw_m, sw_limit limit,
 {
     margin_ctx c = {g, limit, SW_DOWNSTREAM, 0, tw_m};
     double top = g->hinge_level_m > tw_m ? g->hinge_level_m : tw_m;
-    double bottom = g->sill_level_m < g->leaf_bottom_level_m
-                        ? g->sill_level_m
-                        : g->leaf_bottom_level_m;
+    double bottom = lowest_wetted_level(g);
     int rc, found;
     double root;
 
