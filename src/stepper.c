@@ -51,6 +51,9 @@ typedef struct series_state {
     int have_last;
     sw_time_ms last_t;      /* last valid sample read (gap counting) */
     int known;              /* known over the interval being settled */
+    int memo_set;           /* the level last asked for: the gates that */
+    sw_time_ms memo_t;      /* share this series ask for the same */
+    double memo_v;          /* instants */
     sw_gap_stats gaps;
 } series_state;
 
@@ -534,15 +537,25 @@ static int series_settled(const sw_stepper *st, series_state *s,
 }
 
 /* The level of a settled, known series at t (prev.t <= t <= next.t). */
-static double level_at(const series_state *s, sw_time_ms t)
+static double level_at(series_state *s, sw_time_ms t)
 {
     const sample *n = ring_at(&s->fifo, 0);
+    double v;
+    /* a level at an instant is the same whichever bracket gives it, so the
+     * memo stays right across brackets */
+    if (s->memo_set && s->memo_t == t)
+        return s->memo_v;
     if (t <= s->prev.t)
-        return s->prev.v;
-    if (t >= n->t)
-        return n->v;
-    double w = (double)(t - s->prev.t) / (double)(n->t - s->prev.t);
-    return s->prev.v + (n->v - s->prev.v) * w;
+        v = s->prev.v;
+    else if (t >= n->t)
+        v = n->v;
+    else
+        v = s->prev.v + (n->v - s->prev.v) *
+                            ((double)(t - s->prev.t) / (double)(n->t - s->prev.t));
+    s->memo_set = 1;
+    s->memo_t = t;
+    s->memo_v = v;
+    return v;
 }
 
 /* ---- evaluation and accounting ------------------------------------------ */
@@ -894,8 +907,8 @@ static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
                          sw_time_ms b, int known, sw_error *err)
 {
     gate_state *g = &st->gates[gi];
-    const series_state *h = &st->series[g->hw];
-    const series_state *w = &st->series[g->tw];
+    series_state *h = &st->series[g->hw];
+    series_state *w = &st->series[g->tw];
     int rc;
 
     /* a run of known levels starts with an evaluation: the anchor */
