@@ -49,6 +49,17 @@ int sw_cli_make_outdir(const char *dir, sw_error *err);
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
                         const char *command);
 
+/* SHA-256 of the file at `path` as 64 hex digits and a NUL (nettle).
+ * Returns SW_OK, or SW_ESITE when it cannot be read. */
+#define SW_CLI_SHA256_HEX 65
+int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
+                       sw_error *err);
+
+/* The generation time of a report as ISO 8601 UTC into buf[n]:
+ * SOURCE_DATE_EPOCH when set (the reproducible-builds convention), else
+ * now.  Returns 0, or -1 when SOURCE_DATE_EPOCH is malformed. */
+int sw_cli_generation_time(char *buf, size_t n);
+
 /* The caution printed by --help and the reports. */
 extern const char sw_cli_caution[];
 

@@ -11,8 +11,6 @@
 #include <sys/stat.h>
 #include <time.h>
 
-#include <nettle/sha2.h>
-
 #include "cli.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
@@ -183,59 +181,6 @@ static int split_path(const char *path, char *dir, size_t n_dir,
         return -1;
     else
         snprintf(dir, n_dir, "%.*s", (int)(slash - path), path);
-    return 0;
-}
-
-/* SHA-256 of the file at `path` as 64 hex digits (nettle). */
-static int hash_file(const char *path, char hex[2 * SHA256_DIGEST_SIZE + 1],
-                     sw_error *err)
-{
-    struct sha256_ctx ctx;
-    uint8_t digest[SHA256_DIGEST_SIZE], buf[65536];
-    FILE *fp = fopen(path, "rb");
-    size_t n;
-
-    if (fp == NULL)
-        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read: %s",
-                            strerror(errno));
-    sha256_init(&ctx);
-    while ((n = fread(buf, 1, sizeof buf, fp)) > 0)
-        sha256_update(&ctx, n, buf);
-    if (ferror(fp)) {
-        fclose(fp);
-        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read");
-    }
-    fclose(fp);
-    sha256_digest(&ctx, SHA256_DIGEST_SIZE, digest);
-    for (size_t i = 0; i < SHA256_DIGEST_SIZE; i++)
-        snprintf(hex + 2 * i, 3, "%02x", digest[i]);
-    return SW_OK;
-}
-
-/* The generation time as ISO 8601 UTC: SOURCE_DATE_EPOCH when set (the
- * reproducible-builds convention: seconds since 1970-01-01T00:00:00Z, a
- * malformed value is an error), else now.  Returns 0 or -1. */
-static int generation_time(char *buf, size_t n)
-{
-    const char *env = getenv("SOURCE_DATE_EPOCH");
-    time_t when;
-    struct tm tm;
-
-    if (env != NULL) {
-        char *end;
-        long long v;
-        errno = 0;
-        v = strtoll(env, &end, 10);
-        if (env[0] < '0' || env[0] > '9' || *end != '\0' || errno != 0 ||
-            v > (long long)253402300799LL) /* 9999-12-31T23:59:59Z */
-            return -1;
-        when = (time_t)v;
-    } else {
-        when = time(NULL);
-    }
-    if (gmtime_r(&when, &tm) == NULL ||
-        strftime(buf, n, "%Y-%m-%dT%H:%M:%SZ", &tm) == 0)
-        return -1;
     return 0;
 }
 
@@ -424,7 +369,7 @@ int sw_cmd_thresholds(int argc, char **argv)
     sw_error err;
     const sw_gate *gates[SW_THRESHOLDS_MAX_GATES];
     size_t n_gates = 0;
-    char dir[SW_ERROR_PATH_MAX], sha[2 * SHA256_DIGEST_SIZE + 1];
+    char dir[SW_ERROR_PATH_MAX], sha[SW_CLI_SHA256_HEX];
     char sha_after[sizeof sha], when[32];
     const char *name;
     int rc;
@@ -436,7 +381,7 @@ int sw_cmd_thresholds(int argc, char **argv)
     if (split_path(o.output, dir, sizeof dir, &name) != 0)
         return sw_cli_usage_error("thresholds",
                                   "-o: '%s' does not name a file", o.output);
-    if (generation_time(when, sizeof when) != 0)
+    if (sw_cli_generation_time(when, sizeof when) != 0)
         return sw_cli_usage_error("thresholds",
                                   "SOURCE_DATE_EPOCH '%s' is not a whole "
                                   "number of seconds since 1970-01-01 "
@@ -445,11 +390,11 @@ int sw_cmd_thresholds(int argc, char **argv)
 
     /* hash before and after reading, so the digest is that of the file
      * the table was computed from */
-    if (hash_file(o.site_path, sha, &err) != SW_OK)
+    if (sw_cli_sha256_file(o.site_path, sha, &err) != SW_OK)
         return sw_cli_report(&err);
     if (sw_site_load(&site, o.site_path, &err) != SW_OK)
         return sw_cli_report(&err);
-    if ((rc = hash_file(o.site_path, sha_after, &err)) != SW_OK)
+    if ((rc = sw_cli_sha256_file(o.site_path, sha_after, &err)) != SW_OK)
         goto fail;
     if (strcmp(sha, sha_after) != 0) {
         sw_error_set(&err, SW_ESITE, o.site_path, 0, 0,

@@ -1,15 +1,18 @@
 /* sillwatch: the program.  Dispatches to the command files (cmd_*.c) and
  * owns the exit codes and the shape of every message. */
-#define _DEFAULT_SOURCE /* getopt_long */
+#define _DEFAULT_SOURCE /* getopt_long, gmtime_r */
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <stdint.h>
 #include <sys/stat.h>
+#include <time.h>
 
 #include <gsl/gsl_errno.h>
+#include <nettle/sha2.h>
 
 #include "cli.h"
 
@@ -17,6 +20,59 @@ const char sw_cli_caution[] =
     "Caution: hydrostatic screening only (no waves, surges, debris, ice or\n"
     "friction); not a structural assessment. Defer to local codes and a\n"
     "licensed engineer before acting on these results.\n";
+
+/* SHA-256 of the file at `path` as 64 hex digits (nettle). */
+int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
+                       sw_error *err)
+{
+    struct sha256_ctx ctx;
+    uint8_t digest[SHA256_DIGEST_SIZE], buf[65536];
+    FILE *fp = fopen(path, "rb");
+    size_t n;
+
+    if (fp == NULL)
+        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read: %s",
+                            strerror(errno));
+    sha256_init(&ctx);
+    while ((n = fread(buf, 1, sizeof buf, fp)) > 0)
+        sha256_update(&ctx, n, buf);
+    if (ferror(fp)) {
+        fclose(fp);
+        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read");
+    }
+    fclose(fp);
+    sha256_digest(&ctx, SHA256_DIGEST_SIZE, digest);
+    for (size_t i = 0; i < SHA256_DIGEST_SIZE; i++)
+        snprintf(hex + 2 * i, 3, "%02x", digest[i]);
+    return SW_OK;
+}
+
+/* The generation time as ISO 8601 UTC: SOURCE_DATE_EPOCH when set (the
+ * reproducible-builds convention: seconds since 1970-01-01T00:00:00Z, a
+ * malformed value is an error), else now.  Returns 0 or -1. */
+int sw_cli_generation_time(char *buf, size_t n)
+{
+    const char *env = getenv("SOURCE_DATE_EPOCH");
+    time_t when;
+    struct tm tm;
+
+    if (env != NULL) {
+        char *end;
+        long long v;
+        errno = 0;
+        v = strtoll(env, &end, 10);
+        if (env[0] < '0' || env[0] > '9' || *end != '\0' || errno != 0 ||
+            v > (long long)253402300799LL) /* 9999-12-31T23:59:59Z */
+            return -1;
+        when = (time_t)v;
+    } else {
+        when = time(NULL);
+    }
+    if (gmtime_r(&when, &tm) == NULL ||
+        strftime(buf, n, "%Y-%m-%dT%H:%M:%SZ", &tm) == 0)
+        return -1;
+    return 0;
+}
 
 static const char usage_text[] =
     "Usage: sillwatch COMMAND [OPTION]...\n"
