@@ -72,7 +72,13 @@ $(BUILD)/bench/%: tests/bench/%.c $(LIB) | $(DEPS_OK)
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -O2 -o $@ $< $(LIB) $(LDLIBS_ALL)
 
-check: $(PROG) $(UNIT_BIN)
+# The browser test's image reader (tests/browser/pngstat.c, libpng).
+PNGSTAT   := $(BUILD)/tests/pngstat
+$(PNGSTAT): tests/browser/pngstat.c | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
+
+check: $(PROG) $(UNIT_BIN) $(PNGSTAT)
 	@tools/run-tests.sh $(BUILD) $(UNIT_BIN)
 
 bench: $(BENCH_BIN) $(PROG)
@@ -83,12 +89,13 @@ bench: $(BENCH_BIN) $(PROG)
 DEMO = $(BUILD)/demo
 demo: $(PROG)
 	@rm -rf $(DEMO) && mkdir -p $(DEMO)
-	$(PROG) run data/demo/velloran.ini -o $(DEMO)/season --by month --steps || test $$? -eq 1
+	$(PROG) run data/demo/velloran.ini -o $(DEMO)/season --by month --steps --report || test $$? -eq 1
 	$(PROG) screen data/demo/velloran-forecast.ini -o $(DEMO)/forecast || test $$? -eq 1
 	$(PROG) thresholds data/demo/velloran.ini --headwater 11.3:12.6:0.01 --simplify 0.005 -o $(DEMO)/alarm-table.csv
 	@echo
 	@echo "demo results: $(DEMO)/season (replay), $(DEMO)/forecast (screening),"
 	@echo "              $(DEMO)/alarm-table.csv (thresholds by headwater)"
+	@echo "season report (open in a browser): $(DEMO)/season/report.html"
 
 # The whole suite under AddressSanitizer and UndefinedBehaviorSanitizer.
 check-sanitize:
@@ -105,7 +112,7 @@ check-valgrind: $(PROG)
 	$(VALGRIND) $(PROG) check data/example/quillbrook.ini > /dev/null
 	$(VALGRIND) $(PROG) point data/example/quillbrook.ini --headwater 11.62 --tailwater 11.48 > /dev/null; test $$? -le 1
 	$(VALGRIND) $(PROG) run data/example/quillbrook.ini -o $(BUILD)/valgrind --by month --steps -q; test $$? -le 1
-	$(VALGRIND) $(PROG) run data/demo/velloran.ini -o $(BUILD)/valgrind/demo --by month --steps -q; test $$? -le 1
+	$(VALGRIND) $(PROG) run data/demo/velloran.ini -o $(BUILD)/valgrind/demo --by month --steps --report -q; test $$? -le 1
 	$(VALGRIND) $(PROG) screen data/demo/velloran-forecast.ini -o $(BUILD)/valgrind/screen -q; test $$? -le 1
 	$(VALGRIND) $(PROG) thresholds data/example/quillbrook.ini --headwater 11.4:13.2:0.01 --simplify 0.005 -o $(BUILD)/valgrind/thresholds.csv > /dev/null
 	@echo "check-valgrind: no memory errors, no leaks"

@@ -11,6 +11,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "sillwatch/htmlreport.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/site.h"
@@ -18,7 +19,7 @@
 
 static const char run_help[] =
     "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
-    "                     [--steps] [--by month] [--quiet]\n"
+    "                     [--steps] [--by month] [--report] [--quiet]\n"
     "Replay the level series named in the site file through every gate and\n"
     "write, in OUTDIR (created if missing):\n"
     "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
@@ -27,6 +28,8 @@ static const char run_help[] =
     "  steps.csv     with --steps: every gate at every time step, with\n"
     "                its critical tailwaters\n"
     "  months.csv    with --by month: the summary per calendar month\n"
+    "  report.html   with --report: the season report, one page with\n"
+    "                charts and tables, to open, print or attach\n"
     "Each file is written whole or not at all; a failed run leaves the\n"
     "previous outputs as they were.\n"
     "\n"
@@ -35,6 +38,7 @@ static const char run_help[] =
     "                         site's file (a forecast, a corrected log)\n"
     "  --steps                write steps.csv\n"
     "  --by month             write months.csv\n"
+    "  --report               write report.html\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "\n"
@@ -50,13 +54,13 @@ static void on_signal(int sig)
     interrupted = sig;
 }
 
-enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, N_OUT };
-static const char *const out_names[N_OUT] = {"summary.csv", "events.csv",
-                                             "steps.csv", "months.csv"};
+enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, N_OUT };
+static const char *const out_names[N_OUT] = {
+    "summary.csv", "events.csv", "steps.csv", "months.csv", "report.html"};
 
 typedef struct run_opts {
     const char *site_path, *outdir;
-    int steps, by_month, quiet;
+    int steps, by_month, report, quiet;
     const char *series[64];
     size_t n_series;
 } run_opts;
@@ -68,6 +72,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"series", required_argument, NULL, 's'},
         {"steps", no_argument, NULL, 'S'},
         {"by", required_argument, NULL, 'b'},
+        {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
         {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0},
@@ -97,6 +102,9 @@ static int parse_args(int argc, char **argv, run_opts *o)
                 return sw_cli_usage_error("run", "--by: '%s' is not 'month'",
                                           optarg);
             o->by_month = 1;
+            break;
+        case 'R':
+            o->report = 1;
             break;
         case 'q':
             o->quiet = 1;
@@ -220,45 +228,57 @@ static void progress(const sw_stepper *st, const sw_site *site, long steps)
     fprintf(stderr, "\rsillwatch: replaying %s  (%ld steps)   ", when, steps);
 }
 
-/* Write what the last advance or finish exposed. */
-static void write_step(const sw_stepper *st, const sw_site *site,
-                       sw_outfile *out, int steps, int by_month)
+/* Write what the last advance or finish exposed, and hand it to the
+ * report when there is one.  Returns SW_OK or the report's error. */
+static int write_step(const sw_stepper *st, const sw_site *site,
+                      sw_outfile *out, const run_opts *o,
+                      sw_html_report *rep, sw_error *err)
 {
     const sw_event *ev;
     const sw_month_row *mo;
     size_t n = sw_stepper_events(st, &ev);
+    int rc;
 
-    for (size_t i = 0; i < n; i++)
+    for (size_t i = 0; i < n; i++) {
         sw_report_event_row(out[OUT_EVENTS].fp,
                             site->gates[ev[i].gate].gate.name, &ev[i],
                             site->zone);
-    if (by_month) {
-        n = sw_stepper_months(st, &mo);
-        for (size_t i = 0; i < n; i++)
+        if (rep != NULL)
+            sw_html_report_event(rep, &ev[i]);
+    }
+    n = sw_stepper_months(st, &mo);
+    for (size_t i = 0; i < n; i++) {
+        if (o->by_month)
             sw_report_month_row(out[OUT_MONTHS].fp,
                                 site->gates[mo[i].gate].gate.name, &mo[i],
                                 site->zone);
+        if (rep != NULL && (rc = sw_html_report_month(rep, &mo[i], err)) !=
+                               SW_OK)
+            return rc;
     }
-    if (!steps)
-        return;
+    if (rep != NULL && (rc = sw_html_report_point(rep, st, err)) != SW_OK)
+        return rc;
+    if (!o->steps)
+        return SW_OK;
     for (size_t g = 0; g < site->n_gates; g++) {
         const sw_step_gate *sg = sw_stepper_gate_at(st, g);
         const sw_gate *gate = &site->gates[g].gate;
         sw_crit alarm, open;
-        sw_error err;
+        sw_error ignored; /* a failed search leaves the columns empty */
         if (!sg->known)
             continue;
         /* critical levels only here, where they are asked for */
         int ok = sw_gate_critical_tailwater(gate, sg->result.headwater_m,
                                             SW_LIMIT_ALARM, &alarm,
-                                            &err) == SW_OK &&
+                                            &ignored) == SW_OK &&
                  sw_gate_critical_tailwater(gate, sg->result.headwater_m,
                                             SW_LIMIT_OPEN, &open,
-                                            &err) == SW_OK;
+                                            &ignored) == SW_OK;
         sw_report_step_row(out[OUT_STEPS].fp, sw_stepper_time(st), gate->name,
                            &sg->result, ok ? &alarm : NULL,
                            ok ? &open : NULL, site->zone);
     }
+    return SW_OK;
 }
 
 int sw_cmd_run(int argc, char **argv)
@@ -266,6 +286,7 @@ int sw_cmd_run(int argc, char **argv)
     run_opts o;
     sw_site site;
     sw_stepper *st = NULL;
+    sw_html_report *rep = NULL;
     sw_outfile out[N_OUT];
     sw_error err;
     int rc, done = 0, exit_code;
@@ -285,13 +306,17 @@ int sw_cmd_run(int argc, char **argv)
 
     signal(SIGINT, on_signal);
     signal(SIGTERM, on_signal);
-    sw_stepper_options sopt = {o.by_month, o.steps};
+    /* the report draws every point and sums the months */
+    sw_stepper_options sopt = {o.by_month || o.report, o.steps || o.report};
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
+        goto fail;
+    if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
         goto fail;
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
-        if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month))
+        if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
+            (k == OUT_REPORT && !o.report))
             continue;
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
             SW_OK)
@@ -312,7 +337,8 @@ int sw_cmd_run(int argc, char **argv)
         if (interrupted)
             goto stop;
         if (!done) {
-            write_step(st, &site, out, o.steps, o.by_month);
+            if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+                goto fail;
             steps++;
         }
         if (show_progress && (steps & 4095) == 0) {
@@ -331,7 +357,8 @@ int sw_cmd_run(int argc, char **argv)
                           "to replay");
         goto fail;
     }
-    write_step(st, &site, out, o.steps, o.by_month);
+    if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+        goto fail;
     if (show_progress)
         fputs("\r\033[K", stderr);
 
@@ -341,6 +368,17 @@ int sw_cmd_run(int argc, char **argv)
         for (size_t i = 0; i < site.n_gates; i++)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
+    }
+    if (o.report) {
+        char sha[SW_CLI_SHA256_HEX], when[32];
+        sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution};
+        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
+            goto fail;
+        if (sw_cli_generation_time(when, sizeof when) != 0)
+            snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
+        if ((rc = sw_html_report_write(rep, out[OUT_REPORT].fp, st, &meta,
+                                       &err)) != SW_OK)
+            goto fail;
     }
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
@@ -369,10 +407,12 @@ int sw_cmd_run(int argc, char **argv)
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv%s%s\n", o.outdir,
-               o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "");
+        printf("\noutputs in %s: summary.csv, events.csv%s%s%s\n", o.outdir,
+               o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
+               o.report ? ", report.html" : "");
         fputs(sw_cli_caution, stdout);
     }
+    sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return exit_code;
@@ -384,6 +424,7 @@ stop:
                     "left as they were\n", o.outdir);
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
+    sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return 130;
@@ -391,6 +432,7 @@ stop:
 fail:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
+    sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return sw_cli_report(&err);

@@ -9,7 +9,7 @@
 # file is a claim that the output is right.
 set -eu
 cd "$(dirname "$0")/.."
-make -s build/sillwatch
+make -s build/sillwatch build/tests/pngstat
 prog=$(pwd)/build/sillwatch
 [ $# -gt 0 ] || set -- $(ls tests/cli)
 cases=
@@ -30,7 +30,8 @@ for arg in "$@"; do
 done
 for dir in $cases; do
     tmp=$(mktemp -d)   # the case's scratch folder, $TMP, as in run-tests.sh
-    ( cd "$dir" && LC_ALL=C SW="$prog" TMP="$tmp" sh ./cmd >stdout 2>stderr </dev/null; echo $? >status ) || true
+    ( cd "$dir" && LC_ALL=C SW="$prog" TMP="$tmp" BUILD="$(dirname "$prog")" \
+        sh ./cmd >stdout 2>stderr </dev/null; echo $? >status ) || true
     rm -rf "$tmp"
     echo "updated $dir (exit $(cat "$dir/status"))"
 done

@@ -1,0 +1,1775 @@
+/* sillwatch: the season report as one HTML page (see htmlreport.h). */
+#include "sillwatch/htmlreport.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "sillwatch/report.h"
+
+#define NB SW_HTML_BUCKETS
+#define WORST_KEPT 10
+#define CLOUD_SLOTS 16384   /* a cloud's hash table (a power of two) */
+#define CLOUD_MAX 6000      /* cells held before the cell size doubles */
+#define FS_DRAW_CAP 1e6     /* factors of safety beyond are drawn as this */
+#define BUCKET_MS0 60000    /* first column width: one minute */
+#define MONTHS_DRAWN 36     /* more months than this are drawn by year */
+#define CRIT_CACHE 4096     /* critical levels kept per gate (power of 2) */
+
+/* ---- collecting --------------------------------------------------------- */
+
+/* One time column of one trace. */
+typedef struct bucket {
+    double lo, hi, first, last;
+    int n;      /* values taken in */
+    int brk;    /* the line is broken before `first` */
+} bucket;
+
+typedef struct trace {
+    bucket b[NB];
+    int had_prev; /* a value at the previous point */
+} trace;
+
+/* Per gate and column: what the shading shows. */
+enum { F_LOW = 1, F_OPEN = 2, F_NODATA = 4 };
+
+/* The observed (headwater, tailwater) pairs of one gate, as square cells
+ * of side cell_m; the cell size doubles when the set fills. */
+typedef struct cloud {
+    double cell_m;
+    size_t n;
+    int64_t qh[CLOUD_SLOTS], qt[CLOUD_SLOTS];
+    unsigned char used[CLOUD_SLOTS];
+    double hw_lo, hw_hi, tw_lo, tw_hi;
+} cloud;
+
+struct sw_html_report {
+    const sw_site *site;
+    size_t n_gates;
+    size_t n_lv;          /* level series drawn: distinct series in use */
+    size_t *lv_series;    /* 2 x n_gates: index into site->series */
+    size_t n_tw;          /* of those, the tailwater series */
+    size_t *tw_lv;        /* 2 x n_gates: index into the level series */
+    size_t *gate_hw, *gate_tw; /* per gate: its lv index */
+    size_t *gate_twk;     /* per gate: its tailwater's index among n_tw */
+    trace *tr;            /* levels [0, n_lv), fs per gate, then tw_alarm
+                             and tw_open per tailwater series */
+    size_t n_tr;
+    unsigned char *flags; /* n_gates x NB */
+    int started;
+    sw_time_ms t0, w, t_prev;
+    sw_time_ms *noeval;   /* per gate, the tally at the last point */
+    int *gap_prev;        /* per gate: no data after the last point */
+    /* per gate, CRIT_CACHE critical tailwaters by headwater in mm */
+    int64_t *memo_mm;
+    sw_crit *memo_alarm, *memo_open;
+    sw_crit alarm_now, open_now;
+    double *val;          /* per trace, scratch for one point */
+    int *brk;             /* per trace, scratch */
+    cloud *clouds;        /* per gate */
+    int64_t *spare_h, *spare_t; /* CLOUD_MAX + 1 each, for coarsening */
+    sw_event worst[WORST_KEPT];
+    size_t n_worst;
+    size_t n_months, cap_months;
+    int *yyyymm;
+    sw_time_ms *m_low, *m_open; /* n_months x n_gates */
+};
+
+static size_t tr_fs(const sw_html_report *r, size_t g) { return r->n_lv + g; }
+static size_t tr_alarm(const sw_html_report *r, size_t k)
+{
+    return r->n_lv + r->n_gates + k;
+}
+static size_t tr_open(const sw_html_report *r, size_t k)
+{
+    return r->n_lv + r->n_gates + r->n_tw + k;
+}
+
+static int nomem(sw_error *err)
+{
+    return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                        "out of memory for the report");
+}
+
+static size_t lv_index(sw_html_report *r, const char *series)
+{
+    const sw_site *site = r->site;
+    size_t si = 0;
+    while (si < site->n_series && strcmp(site->series[si].name, series) != 0)
+        si++;
+    for (size_t i = 0; i < r->n_lv; i++)
+        if (r->lv_series[i] == si)
+            return i;
+    r->lv_series[r->n_lv] = si;
+    return r->n_lv++;
+}
+
+static void clear_buckets(trace *t)
+{
+    for (size_t i = 0; i < NB; i++) {
+        t->b[i].lo = INFINITY;
+        t->b[i].hi = -INFINITY;
+        t->b[i].first = t->b[i].last = 0.0;
+        t->b[i].n = 0;
+        t->b[i].brk = 0;
+    }
+    t->had_prev = 0;
+}
+
+static void clear_cloud(cloud *c)
+{
+    memset(c->used, 0, sizeof c->used);
+    c->n = 0;
+    c->cell_m = 0.001;
+    c->hw_lo = c->tw_lo = INFINITY;
+    c->hw_hi = c->tw_hi = -INFINITY;
+}
+
+int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
+                         sw_error *err)
+{
+    sw_html_report *r = calloc(1, sizeof *r);
+    size_t ng = site->n_gates;
+
+    *out = NULL;
+    if (r == NULL)
+        return nomem(err);
+    r->site = site;
+    r->n_gates = ng;
+    r->gate_hw = calloc(ng, sizeof *r->gate_hw);
+    r->gate_tw = calloc(ng, sizeof *r->gate_tw);
+    r->gate_twk = calloc(ng, sizeof *r->gate_twk);
+    r->noeval = calloc(ng, sizeof *r->noeval);
+    r->gap_prev = calloc(ng, sizeof *r->gap_prev);
+    r->memo_mm = malloc(ng * CRIT_CACHE * sizeof *r->memo_mm);
+    r->memo_alarm = calloc(ng * CRIT_CACHE, sizeof *r->memo_alarm);
+    r->memo_open = calloc(ng * CRIT_CACHE, sizeof *r->memo_open);
+    r->clouds = malloc(ng * sizeof *r->clouds);
+    r->flags = calloc(ng * NB, 1);
+    r->lv_series = calloc(2 * ng + 1, sizeof *r->lv_series);
+    r->tw_lv = calloc(2 * ng + 1, sizeof *r->tw_lv);
+    r->spare_h = malloc((CLOUD_MAX + 1) * sizeof *r->spare_h);
+    r->spare_t = malloc((CLOUD_MAX + 1) * sizeof *r->spare_t);
+    if (r->lv_series == NULL || r->tw_lv == NULL || r->spare_h == NULL ||
+        r->spare_t == NULL || r->gate_hw == NULL || r->gate_tw == NULL || r->gate_twk == NULL ||
+        r->noeval == NULL || r->gap_prev == NULL || r->memo_mm == NULL ||
+        r->memo_alarm == NULL || r->memo_open == NULL || r->clouds == NULL ||
+        r->flags == NULL)
+        goto fail;
+    for (size_t g = 0; g < ng; g++) {
+        r->gate_hw[g] = lv_index(r, site->gates[g].headwater);
+        r->gate_tw[g] = lv_index(r, site->gates[g].tailwater);
+        for (size_t k = 0; k < CRIT_CACHE; k++)
+            r->memo_mm[g * CRIT_CACHE + k] = INT64_MIN; /* empty */
+        clear_cloud(&r->clouds[g]);
+    }
+    for (size_t g = 0; g < ng; g++) {
+        size_t k = 0;
+        while (k < r->n_tw && r->tw_lv[k] != r->gate_tw[g])
+            k++;
+        if (k == r->n_tw)
+            r->tw_lv[r->n_tw++] = r->gate_tw[g];
+        r->gate_twk[g] = k;
+    }
+    r->n_tr = r->n_lv + ng + 2 * r->n_tw;
+    r->tr = malloc(r->n_tr * sizeof *r->tr);
+    r->val = calloc(r->n_tr, sizeof *r->val);
+    r->brk = calloc(r->n_tr, sizeof *r->brk);
+    if (r->tr == NULL || r->val == NULL || r->brk == NULL)
+        goto fail;
+    for (size_t i = 0; i < r->n_tr; i++)
+        clear_buckets(&r->tr[i]);
+    *out = r;
+    return SW_OK;
+fail:
+    sw_html_report_free(r);
+    return nomem(err);
+}
+
+void sw_html_report_free(sw_html_report *r)
+{
+    if (r == NULL)
+        return;
+    free(r->gate_hw);
+    free(r->gate_tw);
+    free(r->gate_twk);
+    free(r->noeval);
+    free(r->gap_prev);
+    free(r->memo_mm);
+    free(r->memo_alarm);
+    free(r->memo_open);
+    free(r->clouds);
+    free(r->flags);
+    free(r->lv_series);
+    free(r->tw_lv);
+    free(r->spare_h);
+    free(r->spare_t);
+    free(r->tr);
+    free(r->val);
+    free(r->brk);
+    free(r->yyyymm);
+    free(r->m_low);
+    free(r->m_open);
+    free(r);
+}
+
+static void merge_bucket(bucket *to, const bucket *a, const bucket *b)
+{
+    *to = *a;
+    if (b->n == 0)
+        return;
+    if (a->n == 0) {
+        *to = *b;
+        return;
+    }
+    to->lo = fmin(a->lo, b->lo);
+    to->hi = fmax(a->hi, b->hi);
+    to->last = b->last;
+    to->n = a->n + b->n;
+}
+
+/* Double the column width: neighbours merge. */
+static void widen(sw_html_report *r)
+{
+    for (size_t i = 0; i < r->n_tr; i++) {
+        bucket *b = r->tr[i].b;
+        for (size_t k = 0; k < NB / 2; k++) {
+            bucket m;
+            merge_bucket(&m, &b[2 * k], &b[2 * k + 1]);
+            b[k] = m;
+        }
+        for (size_t k = NB / 2; k < NB; k++) {
+            b[k].lo = INFINITY;
+            b[k].hi = -INFINITY;
+            b[k].n = 0;
+            b[k].brk = 0;
+        }
+    }
+    for (size_t g = 0; g < r->n_gates; g++) {
+        unsigned char *f = r->flags + g * NB;
+        for (size_t k = 0; k < NB / 2; k++)
+            f[k] = (unsigned char)(f[2 * k] | f[2 * k + 1]);
+        memset(f + NB / 2, 0, NB / 2);
+    }
+    r->w *= 2;
+}
+
+static size_t column_of(const sw_html_report *r, sw_time_ms t)
+{
+    sw_time_ms k = (t - r->t0) / r->w;
+    if (k < 0)
+        return 0;
+    return k >= NB ? NB - 1 : (size_t)k;
+}
+
+static void take(bucket *b, double v, int brk)
+{
+    if (b->n == 0) {
+        b->first = v;
+        b->brk = brk;
+    }
+    b->last = v;
+    if (v < b->lo)
+        b->lo = v;
+    if (v > b->hi)
+        b->hi = v;
+    b->n++;
+}
+
+static void mark(sw_html_report *r, size_t g, sw_time_ms a, sw_time_ms b,
+                 unsigned char flag)
+{
+    unsigned char *f = r->flags + g * NB;
+    size_t k1 = column_of(r, b);
+    for (size_t k = column_of(r, a); k <= k1; k++)
+        f[k] |= flag;
+}
+
+/* A cell key of the cloud: a level in units of the cell, kept in range. */
+static int64_t cell_of(double level_m, double cell_m)
+{
+    double q = floor(level_m / cell_m);
+    if (q > 1e15)
+        q = 1e15;
+    if (q < -1e15)
+        q = -1e15;
+    return (int64_t)q;
+}
+
+static size_t slot_of(int64_t qh, int64_t qt)
+{
+    uint64_t h = (uint64_t)qh * UINT64_C(0x9E3779B97F4A7C15) ^
+                 (uint64_t)qt * UINT64_C(0xC2B2AE3D27D4EB4F);
+    return (size_t)(h >> 40) & (CLOUD_SLOTS - 1);
+}
+
+static void cloud_insert(cloud *c, int64_t qh, int64_t qt)
+{
+    size_t s = slot_of(qh, qt);
+    while (c->used[s]) {
+        if (c->qh[s] == qh && c->qt[s] == qt)
+            return;
+        s = (s + 1) & (CLOUD_SLOTS - 1);
+    }
+    c->used[s] = 1;
+    c->qh[s] = qh;
+    c->qt[s] = qt;
+    c->n++;
+}
+
+/* Double the cell size: each cell goes to the one holding its centre. */
+static void cloud_coarsen(cloud *c, int64_t *oh, int64_t *ot)
+{
+    size_t n = 0;
+    double old = c->cell_m;
+    for (size_t s = 0; s < CLOUD_SLOTS; s++)
+        if (c->used[s]) {
+            oh[n] = c->qh[s];
+            ot[n] = c->qt[s];
+            n++;
+        }
+    memset(c->used, 0, sizeof c->used);
+    c->n = 0;
+    c->cell_m = 2.0 * old;
+    for (size_t i = 0; i < n; i++)
+        cloud_insert(c, cell_of(((double)oh[i] + 0.5) * old, c->cell_m),
+                     cell_of(((double)ot[i] + 0.5) * old, c->cell_m));
+}
+
+static void cloud_add(sw_html_report *r, cloud *c, double hw, double tw)
+{
+    c->hw_lo = fmin(c->hw_lo, hw);
+    c->hw_hi = fmax(c->hw_hi, hw);
+    c->tw_lo = fmin(c->tw_lo, tw);
+    c->tw_hi = fmax(c->tw_hi, tw);
+    cloud_insert(c, cell_of(hw, c->cell_m), cell_of(tw, c->cell_m));
+    while (c->n > CLOUD_MAX)
+        cloud_coarsen(c, r->spare_h, r->spare_t);
+}
+
+/* The critical tailwaters of gate g for drawing: those at the headwater
+ * rounded to the millimetre, kept in a small direct-mapped cache (a level
+ * record visits few millimetres many times; a millimetre is far below a
+ * drawn pixel).  steps.csv gives the exact values.  Sets alarm_now and
+ * open_now. */
+static int crit_at(sw_html_report *r, size_t g, double hw, sw_error *err)
+{
+    const sw_gate *gate = &r->site->gates[g].gate;
+    double mm = floor(hw * 1000.0 + 0.5);
+    int64_t key = (int64_t)fmax(-1e15, fmin(1e15, mm));
+    size_t slot = g * CRIT_CACHE + ((size_t)key & (CRIT_CACHE - 1));
+    int rc;
+    if (r->memo_mm[slot] != key) {
+        if ((rc = sw_gate_critical_tailwater(gate, (double)key / 1000.0,
+                                             SW_LIMIT_ALARM,
+                                             &r->memo_alarm[slot], err)) !=
+                SW_OK ||
+            (rc = sw_gate_critical_tailwater(gate, (double)key / 1000.0,
+                                             SW_LIMIT_OPEN,
+                                             &r->memo_open[slot], err)) !=
+                SW_OK) {
+            r->memo_mm[slot] = INT64_MIN;
+            return rc;
+        }
+        r->memo_mm[slot] = key;
+    }
+    r->alarm_now = r->memo_alarm[slot];
+    r->open_now = r->memo_open[slot];
+    return SW_OK;
+}
+
+int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
+                         sw_error *err)
+{
+    sw_time_ms t = sw_stepper_time(st);
+    size_t col;
+    int rc;
+
+    if (!r->started) {
+        r->started = 1;
+        r->t0 = r->t_prev = t;
+        r->w = BUCKET_MS0;
+    }
+    while (t - r->t0 >= (sw_time_ms)NB * r->w)
+        widen(r);
+    col = column_of(r, t);
+
+    for (size_t i = 0; i < r->n_tr; i++) {
+        r->val[i] = NAN;
+        r->brk[i] = 1; /* until a gate with data up to here says otherwise */
+    }
+    for (size_t g = 0; g < r->n_gates; g++) {
+        if (r->gap_prev[g])
+            mark(r, g, r->t_prev, t, F_NODATA);
+        else {
+            /* a line may go on from the last point */
+            r->brk[r->gate_hw[g]] = r->brk[r->gate_tw[g]] = 0;
+            r->brk[tr_fs(r, g)] = 0;
+            r->brk[tr_alarm(r, r->gate_twk[g])] = 0;
+            r->brk[tr_open(r, r->gate_twk[g])] = 0;
+        }
+    }
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_step_gate *sg = sw_stepper_gate_at(st, g);
+        const sw_tally *ta = sw_stepper_tally(st, g);
+        size_t k = r->gate_twk[g], ia = tr_alarm(r, k), io = tr_open(r, k);
+
+        /* the tally already holds the interval after this point */
+        r->gap_prev[g] = ta->not_evaluated > r->noeval[g];
+        r->noeval[g] = ta->not_evaluated;
+        if (!sg->known)
+            continue;
+        const sw_gate_result *res = &sg->result;
+        r->val[r->gate_hw[g]] = res->headwater_m;
+        r->val[r->gate_tw[g]] = res->tailwater_m;
+        r->val[tr_fs(r, g)] = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, res->fs));
+        if ((rc = crit_at(r, g, res->headwater_m, err)) != SW_OK)
+            return rc;
+        if (r->alarm_now.kind == SW_CRIT_LEVEL &&
+            !(r->val[ia] >= r->alarm_now.level_m))
+            r->val[ia] = r->alarm_now.level_m;
+        if (r->open_now.kind == SW_CRIT_LEVEL &&
+            !(r->val[io] >= r->open_now.level_m))
+            r->val[io] = r->open_now.level_m;
+        cloud_add(r, &r->clouds[g], res->headwater_m, res->tailwater_m);
+    }
+    for (size_t i = 0; i < r->n_tr; i++) {
+        trace *tr = &r->tr[i];
+        if (isnan(r->val[i])) {
+            tr->had_prev = 0;
+            continue;
+        }
+        take(&tr->b[col], r->val[i], r->brk[i] || !tr->had_prev);
+        tr->had_prev = 1;
+    }
+    r->t_prev = t;
+    return SW_OK;
+}
+
+/* Whether event a ranks worse than b: open before low, then the lower
+ * factor of safety, then the longer. */
+static int worse(const sw_event *a, const sw_event *b)
+{
+    if (a->worst != b->worst)
+        return a->worst > b->worst;
+    if (a->min_fs != b->min_fs)
+        return a->min_fs < b->min_fs;
+    return a->end - a->start > b->end - b->start;
+}
+
+void sw_html_report_event(sw_html_report *r, const sw_event *ev)
+{
+    size_t i;
+
+    if (r->started) {
+        mark(r, ev->gate, ev->start, ev->end,
+             ev->worst == SW_STATE_OPEN ? F_OPEN : F_LOW);
+        /* the least factor of safety may fall between timeline points */
+        if (!isnan(ev->min_fs)) {
+            trace *tr = &r->tr[tr_fs(r, ev->gate)];
+            bucket *b = &tr->b[column_of(r, ev->min_fs_t)];
+            double v = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, ev->min_fs));
+            if (b->n == 0) {
+                b->first = b->last = v;
+                b->brk = 0;
+            }
+            b->lo = fmin(b->lo, v);
+            b->hi = fmax(b->hi, v);
+            b->n++;
+        }
+    }
+    i = r->n_worst < WORST_KEPT ? r->n_worst++ : WORST_KEPT;
+    if (i == WORST_KEPT) {
+        if (!worse(ev, &r->worst[WORST_KEPT - 1]))
+            return;
+        i = WORST_KEPT - 1;
+    }
+    while (i > 0 && worse(ev, &r->worst[i - 1])) {
+        r->worst[i] = r->worst[i - 1];
+        i--;
+    }
+    r->worst[i] = *ev;
+}
+
+int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
+                         sw_error *err)
+{
+    size_t i = r->n_months;
+    while (i > 0 && r->yyyymm[i - 1] != m->yyyymm)
+        i--;
+    if (i == 0) {
+        if (r->n_months == r->cap_months) {
+            size_t cap = r->cap_months ? 2 * r->cap_months : 16;
+            size_t ng = r->n_gates;
+            int *y = realloc(r->yyyymm, cap * sizeof *y);
+            if (y == NULL)
+                return nomem(err);
+            r->yyyymm = y;
+            sw_time_ms *lo = realloc(r->m_low, cap * ng * sizeof *lo);
+            if (lo == NULL)
+                return nomem(err);
+            r->m_low = lo;
+            sw_time_ms *op = realloc(r->m_open, cap * ng * sizeof *op);
+            if (op == NULL)
+                return nomem(err);
+            r->m_open = op;
+            r->cap_months = cap;
+        }
+        i = r->n_months++;
+        r->yyyymm[i] = m->yyyymm;
+        for (size_t g = 0; g < r->n_gates; g++)
+            r->m_low[i * r->n_gates + g] = r->m_open[i * r->n_gates + g] = 0;
+        i++;
+    }
+    i--;
+    r->m_low[i * r->n_gates + m->gate] += m->tally.low;
+    r->m_open[i * r->n_gates + m->gate] += m->tally.open;
+    return SW_OK;
+}
+
+/* ---- writing: text ------------------------------------------------------ */
+
+/* Write `s` as XML character data: markup characters escaped, anything
+ * that is not valid UTF-8 or is a control character replaced by U+FFFD. */
+static void esc(FILE *fp, const char *s)
+{
+    const unsigned char *p = (const unsigned char *)s;
+    while (*p != '\0') {
+        unsigned c = *p;
+        size_t len = c < 0x80 ? 1 : (c & 0xE0) == 0xC0 ? 2
+                   : (c & 0xF0) == 0xE0 ? 3 : (c & 0xF8) == 0xF0 ? 4 : 0;
+        int ok = len > 0;
+        for (size_t k = 1; ok && k < len; k++)
+            ok = (p[k] & 0xC0) == 0x80;
+        if (ok && len == 2)
+            ok = c >= 0xC2;
+        if (ok && len == 3)
+            ok = !(c == 0xE0 && p[1] < 0xA0) && !(c == 0xED && p[1] >= 0xA0);
+        if (ok && len == 4)
+            ok = c <= 0xF4 && !(c == 0xF0 && p[1] < 0x90) &&
+                 !(c == 0xF4 && p[1] >= 0x90);
+        if (!ok || (c < 0x20 && c != '\t' && c != '\n') || c == 0x7F) {
+            fputs("\xEF\xBF\xBD", fp);
+            p++;
+            continue;
+        }
+        switch (c) {
+        case '&': fputs("&amp;", fp); break;
+        case '<': fputs("&lt;", fp); break;
+        case '>': fputs("&gt;", fp); break;
+        case '"': fputs("&quot;", fp); break;
+        case '\'': fputs("&#39;", fp); break;
+        default: fwrite(p, 1, len, fp);
+        }
+        p += len;
+    }
+}
+
+/* printf into a buffer, then escape. */
+static void escf(FILE *fp, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+static void escf(FILE *fp, const char *fmt, ...)
+{
+    char buf[1024];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    va_end(ap);
+    esc(fp, buf);
+}
+
+static void hours_text(char *buf, size_t n, sw_time_ms ms)
+{
+    long long h4 = sw_report_hours4(ms);
+    snprintf(buf, n, "%lld.%04lld", h4 / 10000, h4 % 10000);
+}
+
+static void fs_text(char *buf, size_t n, double fs)
+{
+    if (isinf(fs))
+        snprintf(buf, n, "%s", fs > 0 ? "inf" : "\xE2\x88\x92inf");
+    else
+        snprintf(buf, n, "%.3f", fs);
+}
+
+/* A time for a table: ISO 8601 in the site's zone with its offset, to
+ * the second, with a space for the 'T' so that a narrow cell can wrap
+ * ("2025-12-21 00:03:51+00:00"); the CSV outputs keep the milliseconds. */
+static void when_text(char *buf, size_t n, sw_time_ms t, const sw_zone *z)
+{
+    char full[64], *dot;
+    sw_time_format(full, sizeof full, t - (t % SW_MS_PER_S + SW_MS_PER_S) %
+                                              SW_MS_PER_S, z);
+    if ((dot = strchr(full, 'T')) != NULL)
+        *dot = ' ';
+    snprintf(buf, n, "%s", full);
+}
+
+/* ---- writing: axes ------------------------------------------------------ */
+
+/* A plot area and the value ranges it shows. */
+typedef struct frame {
+    double x0, x1, y0, y1;   /* plot area, SVG units (y0 top) */
+    double vx0, vx1;         /* values at x0 and x1 */
+    double vy0, vy1;         /* values at the bottom and the top */
+} frame;
+
+static double fx(const frame *f, double v)
+{
+    return f->x0 + (v - f->vx0) / (f->vx1 - f->vx0) * (f->x1 - f->x0);
+}
+
+static double fy(const frame *f, double v)
+{
+    double y = f->y1 - (v - f->vy0) / (f->vy1 - f->vy0) * (f->y1 - f->y0);
+    /* far outside values are drawn just outside the clipped area */
+    return fmax(f->y0 - 50.0, fmin(f->y1 + 50.0, y));
+}
+
+/* A "nice" tick step (1, 2 or 5 times a power of ten) giving about n
+ * intervals over `range` (common practice for chart axes, no source). */
+static double nice_step(double range, int n)
+{
+    double raw = range / n, p = pow(10.0, floor(log10(raw))), f = raw / p;
+    return (f <= 1.0 ? 1.0 : f <= 2.0 ? 2.0 : f <= 5.0 ? 5.0 : 10.0) * p;
+}
+
+static int decimals_for(double step)
+{
+    int d = (int)-floor(log10(step) + 1e-9);
+    return d < 0 ? 0 : d > 6 ? 6 : d;
+}
+
+/* Widen [*lo, *hi] to whole ticks of a nice step; returns the step. */
+static double nice_range(double *lo, double *hi, int n)
+{
+    if (!(*hi > *lo)) {
+        double mid = *lo, half = fmax(0.5, fabs(mid) * 0.05);
+        *lo = mid - half;
+        *hi = mid + half;
+    }
+    double step = nice_step(*hi - *lo, n);
+    *lo = floor(*lo / step + 1e-9) * step;
+    *hi = ceil(*hi / step - 1e-9) * step;
+    return step;
+}
+
+static void y_axis(FILE *fp, const frame *f, double step, const char *title)
+{
+    int d = decimals_for(step);
+    for (double v = f->vy0; v <= f->vy1 + step * 1e-6; v += step) {
+        double y = fy(f, v);
+        fprintf(fp, "<line class=\"grid\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
+                "y2=\"%.1f\"/>", f->x0, y, f->x1, y);
+        fprintf(fp, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" "
+                "text-anchor=\"end\">%.*f</text>\n", f->x0 - 5, y + 4, d,
+                fabs(v) < step * 1e-6 ? 0.0 : v);
+    }
+    fprintf(fp, "<text class=\"axis\" transform=\"translate(%.1f %.1f) "
+            "rotate(-90)\" text-anchor=\"middle\">", f->x0 - 48,
+            (f->y0 + f->y1) / 2);
+    esc(fp, title);
+    fputs("</text>\n", fp);
+}
+
+static void x_axis(FILE *fp, const frame *f, double step, const char *title)
+{
+    int d = decimals_for(step);
+    for (double v = f->vx0; v <= f->vx1 + step * 1e-6; v += step) {
+        double x = fx(f, v);
+        fprintf(fp, "<line class=\"grid\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
+                "y2=\"%.1f\"/>", x, f->y0, x, f->y1);
+        fprintf(fp, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" "
+                "text-anchor=\"middle\">%.*f</text>\n", x, f->y1 + 16, d,
+                fabs(v) < step * 1e-6 ? 0.0 : v);
+    }
+    fprintf(fp, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" "
+            "text-anchor=\"middle\">", (f->x0 + f->x1) / 2, f->y1 + 34);
+    esc(fp, title);
+    fputs("</text>\n", fp);
+}
+
+/* Calendar ticks for a time axis, in the site's zone. */
+enum { TK_HOUR, TK_DAY, TK_MONTH, TK_YEAR };
+typedef struct tstep {
+    int kind, n;
+    double approx_ms;
+} tstep;
+
+static sw_time_ms to_utc(const sw_zone *z, sw_time_ms wall)
+{
+    sw_time_ms u[2];
+    if (z == NULL)
+        return wall;
+    if (sw_zone_local_to_utc(z, wall, u) >= 1)
+        return u[0];
+    /* in a skipped hour: the instant an hour on shows the next wall time */
+    if (sw_zone_local_to_utc(z, wall + SW_MS_PER_HOUR, u) >= 1)
+        return u[0] - SW_MS_PER_HOUR;
+    return wall;
+}
+
+static sw_time_ms floor_div(sw_time_ms a, sw_time_ms b)
+{
+    sw_time_ms q = a / b;
+    return (a % b != 0 && (a < 0) != (b < 0)) ? q - 1 : q;
+}
+
+/* The first tick wall time at or after `wall` for step s, and the next. */
+static sw_time_ms tick_first(const tstep *s, sw_time_ms wall)
+{
+    const sw_time_ms day = 24 * SW_MS_PER_HOUR;
+    int64_t y;
+    int m, d;
+    switch (s->kind) {
+    case TK_HOUR: {
+        sw_time_ms u = s->n * SW_MS_PER_HOUR;
+        return -floor_div(-wall, u) * u;
+    }
+    case TK_DAY: {
+        sw_time_ms k = -floor_div(-wall, day);
+        if (s->n == 7) /* Mondays: 1970-01-05 was one */
+            while ((k - 4) % 7 != 0)
+                k++;
+        else
+            while (k % s->n != 0)
+                k++;
+        return k * day;
+    }
+    case TK_MONTH:
+    default: {
+        sw_civil_from_days(floor_div(wall, day), &y, &m, &d);
+        int64_t idx = y * 12 + (m - 1);
+        int64_t unit = s->kind == TK_YEAR ? 12 * (int64_t)s->n : s->n;
+        if (d != 1 || wall % day != 0)
+            idx++;
+        while (idx % unit != 0)
+            idx++;
+        return sw_days_from_civil(floor_div(idx, 12),
+                                  (int)(idx - floor_div(idx, 12) * 12) + 1, 1) *
+               day;
+    }
+    }
+}
+
+static sw_time_ms tick_next(const tstep *s, sw_time_ms wall)
+{
+    const sw_time_ms day = 24 * SW_MS_PER_HOUR;
+    int64_t y;
+    int m, d;
+    if (s->kind == TK_HOUR)
+        return wall + s->n * SW_MS_PER_HOUR;
+    if (s->kind == TK_DAY)
+        return wall + s->n * day;
+    sw_civil_from_days(floor_div(wall, day), &y, &m, &d);
+    int64_t idx = y * 12 + (m - 1) + (s->kind == TK_YEAR ? 12 * s->n : s->n);
+    return sw_days_from_civil(floor_div(idx, 12),
+                              (int)(idx - floor_div(idx, 12) * 12) + 1, 1) *
+           day;
+}
+
+static void tick_label(char *buf, size_t n, const tstep *s, sw_time_ms wall)
+{
+    const sw_time_ms day = 24 * SW_MS_PER_HOUR;
+    int64_t y;
+    int m, d;
+    sw_time_ms in_day = wall - floor_div(wall, day) * day;
+    sw_civil_from_days(floor_div(wall, day), &y, &m, &d);
+    switch (s->kind) {
+    case TK_HOUR:
+        snprintf(buf, n, "%02d-%02d %02d:00", m, d,
+                 (int)(in_day / SW_MS_PER_HOUR));
+        break;
+    case TK_DAY:
+        snprintf(buf, n, "%04lld-%02d-%02d", (long long)y, m, d);
+        break;
+    case TK_MONTH:
+        snprintf(buf, n, "%04lld-%02d", (long long)y, m);
+        break;
+    default:
+        snprintf(buf, n, "%04lld", (long long)y);
+    }
+}
+
+static void time_axis(FILE *fp, const frame *f, const sw_zone *z)
+{
+    static const tstep steps[] = {
+        {TK_HOUR, 1, 3.6e6},     {TK_HOUR, 2, 7.2e6},
+        {TK_HOUR, 3, 1.08e7},    {TK_HOUR, 6, 2.16e7},
+        {TK_HOUR, 12, 4.32e7},   {TK_DAY, 1, 8.64e7},
+        {TK_DAY, 2, 1.728e8},    {TK_DAY, 7, 6.048e8},
+        {TK_MONTH, 1, 2.63e9},   {TK_MONTH, 2, 5.26e9},
+        {TK_MONTH, 3, 7.89e9},   {TK_MONTH, 6, 1.578e10},
+        {TK_YEAR, 1, 3.156e10},  {TK_YEAR, 2, 6.31e10},
+        {TK_YEAR, 5, 1.578e11},  {TK_YEAR, 10, 3.156e11},
+        {TK_YEAR, 20, 6.31e11},  {TK_YEAR, 50, 1.578e12},
+        {TK_YEAR, 100, 3.156e12}, {TK_YEAR, 1000, 3.156e13},
+    };
+    const size_t n_steps = sizeof steps / sizeof steps[0];
+    sw_time_ms t0 = (sw_time_ms)f->vx0, t1 = (sw_time_ms)f->vx1;
+    const tstep *s = &steps[n_steps - 1];
+    /* labels are about 90 units wide: at most one per 110 */
+    int max_ticks = (int)((f->x1 - f->x0) / 110.0);
+    char label[48];
+
+    for (size_t i = 0; i < n_steps; i++) {
+        if ((double)(t1 - t0) / steps[i].approx_ms > max_ticks + 1)
+            continue;
+        int count = 0;
+        sw_time_ms w1 = t1 + sw_zone_offset_at(z, t1) * SW_MS_PER_S;
+        for (sw_time_ms w =
+                 tick_first(&steps[i], t0 + sw_zone_offset_at(z, t0) *
+                                                 SW_MS_PER_S);
+             w <= w1 && count <= max_ticks; w = tick_next(&steps[i], w))
+            count++;
+        if (count <= max_ticks) {
+            s = &steps[i];
+            break;
+        }
+    }
+    sw_time_ms w1 = t1 + sw_zone_offset_at(z, t1) * SW_MS_PER_S;
+    for (sw_time_ms w = tick_first(s, t0 + sw_zone_offset_at(z, t0) *
+                                               SW_MS_PER_S);
+         w <= w1; w = tick_next(s, w)) {
+        sw_time_ms t = to_utc(z, w);
+        if (t < t0 || t > t1)
+            continue;
+        double x = fx(f, (double)t);
+        fprintf(fp, "<line class=\"grid\" x1=\"%.1f\" y1=\"%.1f\" "
+                "x2=\"%.1f\" y2=\"%.1f\"/>", x, f->y0, x, f->y1);
+        /* a label needs about 40 units either side of its tick */
+        tick_label(label, sizeof label, s, w);
+        if (x - 6.0 * (double)strlen(label) / 2 >= 0 &&
+            x + 6.0 * (double)strlen(label) / 2 <= f->x1 + 14)
+            fprintf(fp, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" "
+                    "text-anchor=\"middle\">%s</text>", x, f->y1 + 16,
+                    label);
+        fputc('\n', fp);
+    }
+    fprintf(fp, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" "
+            "text-anchor=\"middle\">time (",
+            (f->x0 + f->x1) / 2, f->y1 + 34);
+    esc(fp, z != NULL ? sw_zone_name(z) : "UTC");
+    fputs(")</text>\n", fp);
+}
+
+/* ---- writing: charts ---------------------------------------------------- */
+
+/* Okabe & Ito (2008), "Color Universal Design": a palette that stays
+ * distinguishable for the common colour-vision deficiencies; lines also
+ * differ by dash pattern so that greyscale print keeps them apart. */
+static const char *const palette[] = {"#0072B2", "#E69F00", "#009E73",
+                                      "#56B4E9", "#D55E00", "#F0E442",
+                                      "#000000", "#CC79A7"};
+#define N_PALETTE (sizeof palette / sizeof palette[0])
+
+static void svg_open(FILE *fp, const char *id, double w, double h,
+                     const char *label)
+{
+    fprintf(fp, "<svg xmlns=\"http://www.w3.org/2000/svg\" id=\"%s\" "
+            "viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"", id, w,
+            h);
+    esc(fp, label);
+    fputs("\">\n<title>", fp);
+    esc(fp, label);
+    fputs("</title>\n", fp);
+}
+
+/* Shared pattern definitions, placed once in a hidden SVG. */
+static void svg_defs(FILE *fp)
+{
+    fputs("<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"0\" "
+          "height=\"0\" class=\"defs\" aria-hidden=\"true\"><defs>\n"
+          "<pattern id=\"hatch-open\" width=\"6\" height=\"6\" "
+          "patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(45)\">"
+          "<rect width=\"6\" height=\"6\" fill=\"#C0502A\"/>"
+          "<line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"6\" stroke=\"#5A1E08\" "
+          "stroke-width=\"2.5\"/></pattern>\n"
+          "<pattern id=\"hatch-nodata\" width=\"6\" height=\"6\" "
+          "patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(-45)\">"
+          "<rect width=\"6\" height=\"6\" fill=\"#F2F2F2\"/>"
+          "<line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"6\" stroke=\"#9A9A9A\" "
+          "stroke-width=\"1\"/></pattern>\n"
+          "<pattern id=\"hatch-bar\" width=\"5\" height=\"5\" "
+          "patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(45)\">"
+          "<line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"5\" stroke=\"#000000\" "
+          "stroke-width=\"2\"/></pattern>\n"
+          "</defs></svg>\n", fp);
+}
+
+static void clip_rect(FILE *fp, const char *id, const frame *f)
+{
+    fprintf(fp, "<clipPath id=\"%s\"><rect x=\"%.1f\" y=\"%.1f\" "
+            "width=\"%.1f\" height=\"%.1f\"/></clipPath>\n", id, f->x0, f->y0,
+            f->x1 - f->x0, f->y1 - f->y0);
+}
+
+/* The x of a column's centre. */
+static double col_x(const sw_html_report *r, const frame *f, size_t k)
+{
+    return fx(f, (double)r->t0 + ((double)k + 0.5) * (double)r->w);
+}
+
+/* One trace as a path: within a column its first, least, greatest and
+ * last values; across columns joined unless the line is broken. */
+static void trace_path(FILE *fp, const sw_html_report *r, const frame *f,
+                       const trace *t, size_t n_cols, const char *attrs)
+{
+    int pen = 0;
+    fprintf(fp, "<path %s d=\"", attrs);
+    for (size_t k = 0; k < n_cols; k++) {
+        const bucket *b = &t->b[k];
+        if (b->n == 0)
+            continue;
+        double x = col_x(r, f, k);
+        fprintf(fp, "%c%.1f %.1f", pen && !b->brk ? 'L' : 'M', x,
+                fy(f, b->first));
+        if (b->n > 1) {
+            int up = b->first <= b->last;
+            fprintf(fp, "L%.1f %.1fL%.1f %.1fL%.1f %.1f", x,
+                    fy(f, up ? b->lo : b->hi), x, fy(f, up ? b->hi : b->lo),
+                    x, fy(f, b->last));
+        } else if (!pen || b->brk) {
+            fprintf(fp, "h0.01"); /* a lone point still shows */
+        }
+        pen = 1;
+    }
+    fputs("\"/>\n", fp);
+}
+
+static size_t n_columns(const sw_html_report *r, sw_time_ms t1)
+{
+    if (!r->started)
+        return 0;
+    return column_of(r, t1) + 1;
+}
+
+static void trace_range(const trace *t, size_t n_cols, double *lo,
+                        double *hi)
+{
+    for (size_t k = 0; k < n_cols; k++)
+        if (t->b[k].n > 0) {
+            *lo = fmin(*lo, t->b[k].lo);
+            *hi = fmax(*hi, t->b[k].hi);
+        }
+}
+
+static void legend_item(FILE *fp, double *x, double y, const char *style,
+                        const char *label, int swatch)
+{
+    if (swatch)
+        fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"16\" height=\"10\" "
+                "%s/>", *x, y - 9, style);
+    else
+        fprintf(fp, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" "
+                "%s/>", *x, y - 4, *x + 22, y - 4, style);
+    fprintf(fp, "<text class=\"legend\" x=\"%.1f\" y=\"%.1f\">", *x + 26, y);
+    esc(fp, label);
+    fputs("</text>\n", fp);
+    *x += 34 + 6.6 * (double)strlen(label);
+}
+
+static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
+{
+    const sw_site *site = r->site;
+    size_t nc = n_columns(r, t1);
+    double lo = INFINITY, hi = -INFINITY, glo = INFINITY, ghi = -INFINITY;
+    frame f = {64, 944, 40, 330, (double)r->t0, (double)t1, 0, 1};
+    char style[160], label[200];
+
+    for (size_t i = 0; i < r->n_lv; i++)
+        trace_range(&r->tr[i], nc, &lo, &hi);
+    for (size_t k = 0; k < r->n_tw; k++) {
+        trace_range(&r->tr[tr_alarm(r, k)], nc, &glo, &ghi);
+        trace_range(&r->tr[tr_open(r, k)], nc, &glo, &ghi);
+    }
+    if (!(hi >= lo))
+        lo = hi = 0.0;
+    /* critical levels far from the observed ones are clipped */
+    double pad = fmax(0.5, 0.5 * (hi - lo));
+    if (glo <= ghi) {
+        lo = fmin(lo, fmax(glo, lo - pad));
+        hi = fmax(hi, fmin(ghi, hi + pad));
+    }
+    double step = nice_range(&lo, &hi, 6);
+    f.vy0 = lo;
+    f.vy1 = hi;
+    if (f.vx1 <= f.vx0)
+        f.vx1 = f.vx0 + 1;
+
+    svg_open(fp, "chart-levels", 960, 380, "Levels over the run with the governing "
+                           "critical tailwaters");
+    clip_rect(fp, "clip-levels", &f);
+    y_axis(fp, &f, step, "level above site datum (m)");
+    time_axis(fp, &f, site->zone);
+    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    fputs("<g clip-path=\"url(#clip-levels)\">\n", fp);
+    for (size_t i = 0; i < r->n_lv; i++) {
+        snprintf(style, sizeof style, "class=\"level\" stroke=\"%s\"%s",
+                 palette[i % N_PALETTE],
+                 i % 2 ? " stroke-width=\"1\"" : "");
+        trace_path(fp, r, &f, &r->tr[i], nc, style);
+    }
+    /* the critical levels over the levels, so that they stay visible */
+    for (size_t k = 0; k < r->n_tw; k++) {
+        trace_path(fp, r, &f, &r->tr[tr_alarm(r, k)], nc,
+                   "class=\"crit-alarm\"");
+        trace_path(fp, r, &f, &r->tr[tr_open(r, k)], nc,
+                   "class=\"crit-open\"");
+    }
+    fputs("</g>\n", fp);
+    double x = f.x0;
+    for (size_t i = 0; i < r->n_lv; i++) {
+        const sw_site_series *s = &site->series[r->lv_series[i]];
+        int is_tw = 0;
+        for (size_t k = 0; k < r->n_tw; k++)
+            is_tw |= r->tw_lv[k] == i;
+        snprintf(style, sizeof style, "class=\"level\" stroke=\"%s\"%s",
+                 palette[i % N_PALETTE],
+                 i % 2 ? " stroke-width=\"1\"" : "");
+        snprintf(label, sizeof label, "%s (%s)", s->name,
+                 is_tw ? "tailwater" : "headwater");
+        legend_item(fp, &x, 20, style, label, 0);
+    }
+    legend_item(fp, &x, 20, "class=\"crit-alarm\"",
+                "tw_alarm, governing gate", 0);
+    legend_item(fp, &x, 20, "class=\"crit-open\"",
+                "tw_open, governing gate", 0);
+    fputs("</svg>\n", fp);
+}
+
+/* Runs of columns with a flag, as rectangles over the plot's height. */
+static void shade(FILE *fp, const sw_html_report *r, const frame *f,
+                  size_t g, size_t nc, unsigned char flag, unsigned char not,
+                  const char *cls, const char *fill)
+{
+    const unsigned char *fl = r->flags + g * NB;
+    size_t k = 0;
+    while (k < nc) {
+        if (!(fl[k] & flag) || (fl[k] & not)) {
+            k++;
+            continue;
+        }
+        size_t e = k;
+        while (e < nc && (fl[e] & flag) && !(fl[e] & not))
+            e++;
+        double xa = fmax(f->x0, fx(f, (double)r->t0 + (double)k * (double)r->w));
+        double xb = fmin(f->x1, fx(f, (double)r->t0 + (double)e * (double)r->w));
+        fprintf(fp, "<rect class=\"%s\" x=\"%.1f\" y=\"%.1f\" "
+                "width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>\n", cls, xa,
+                f->y0, fmax(0.6, xb - xa), f->y1 - f->y0, fill);
+        k = e;
+    }
+}
+
+static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
+                     sw_time_ms t1)
+{
+    const sw_gate *gate = &r->site->gates[g].gate;
+    const trace *t = &r->tr[tr_fs(r, g)];
+    size_t nc = n_columns(r, t1);
+    double lo = INFINITY, hi = -INFINITY, req = gate->required_fs;
+    frame f = {64, 944, 34, 194, (double)r->t0, (double)t1, 0, 1};
+    char label[200], id[32];
+
+    trace_range(t, nc, &lo, &hi);
+    f.vy0 = lo < 0 ? fmax(-2.0, floor(lo)) : 0.0;
+    f.vy1 = fmin(fmax(hi, 2.0 * req), 4.0 * req);
+    double step = nice_range(&f.vy0, &f.vy1, 4);
+    if (f.vx1 <= f.vx0)
+        f.vx1 = f.vx0 + 1;
+
+    snprintf(label, sizeof label, "Factor of safety of gate %s",
+             gate->name);
+    snprintf(id, sizeof id, "fs-%zu", g + 1);
+    svg_open(fp, id, 960, 236, label);
+    snprintf(id, sizeof id, "clip-fs-%zu", g + 1);
+    clip_rect(fp, id, &f);
+    shade(fp, r, &f, g, nc, F_NODATA, F_LOW | F_OPEN, "shade-nodata",
+          "url(#hatch-nodata)");
+    shade(fp, r, &f, g, nc, F_LOW, F_OPEN, "shade-low", "#F5C26B");
+    shade(fp, r, &f, g, nc, F_OPEN, 0, "shade-open", "url(#hatch-open)");
+    y_axis(fp, &f, step, "factor of safety (\xE2\x80\x93)");
+    time_axis(fp, &f, r->site->zone);
+    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    fprintf(fp, "<g clip-path=\"url(#%s)\">\n", id);
+    fprintf(fp, "<line class=\"req\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
+            "y2=\"%.1f\"/>\n", f.x0, fy(&f, req), f.x1, fy(&f, req));
+    fprintf(fp, "<line class=\"one\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
+            "y2=\"%.1f\"/>\n", f.x0, fy(&f, 1.0), f.x1, fy(&f, 1.0));
+    trace_path(fp, r, &f, t, nc, "class=\"fs\"");
+    fputs("</g>\n", fp);
+    double x = f.x0;
+    legend_item(fp, &x, 18, "class=\"fs\"", "factor of safety", 0);
+    snprintf(label, sizeof label, "required %.2f", req);
+    legend_item(fp, &x, 18, "class=\"req\"", label, 0);
+    legend_item(fp, &x, 18, "class=\"one\"", "1.0: opens", 0);
+    legend_item(fp, &x, 18, "fill=\"#F5C26B\"", "low", 1);
+    legend_item(fp, &x, 18, "fill=\"url(#hatch-open)\"", "open", 1);
+    legend_item(fp, &x, 18, "fill=\"url(#hatch-nodata)\" stroke=\"#9A9A9A\"",
+                "no data", 1);
+    fputs("</svg>\n", fp);
+}
+
+#define ENV_NX 150
+#define ENV_NY 120
+
+static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
+                          sw_error *err)
+{
+    const sw_gate *gate = &r->site->gates[g].gate;
+    const cloud *c = &r->clouds[g];
+    frame f = {64, 444, 34, 334, 0, 1, 0, 1};
+    static const char *const fill[3] = {"#DCEAF5", "#F5C26B",
+                                        "url(#hatch-open)"};
+    char label[200], id[32];
+
+    snprintf(label, sizeof label, "Operating envelope of gate %s",
+             gate->name);
+    snprintf(id, sizeof id, "env-%zu", g + 1);
+    svg_open(fp, id, 460, 420, label);
+    if (c->n == 0) {
+        fputs("<text class=\"axis\" x=\"230\" y=\"200\" text-anchor=\""
+              "middle\">no level data for this gate</text></svg>\n", fp);
+        return SW_OK;
+    }
+    double hlo = c->hw_lo, hhi = c->hw_hi, tlo = c->tw_lo, thi = c->tw_hi;
+    double ph = fmax(0.25, 0.1 * (hhi - hlo)), pt = fmax(0.25, 0.1 * (thi - tlo));
+    hlo -= ph;
+    hhi += ph;
+    tlo -= pt;
+    thi += pt;
+    double sx = nice_range(&hlo, &hhi, 5), sy = nice_range(&tlo, &thi, 5);
+    f.vx0 = hlo;
+    f.vx1 = hhi;
+    f.vy0 = tlo;
+    f.vy1 = thi;
+    snprintf(id, sizeof id, "clip-env-%zu", g + 1);
+    clip_rect(fp, id, &f);
+
+    /* the regions: the state at each cell's centre, as vertical runs */
+    fprintf(fp, "<g clip-path=\"url(#%s)\" shape-rendering=\"crispEdges\">\n",
+            id);
+    double cw = (f.x1 - f.x0) / ENV_NX, ch = (f.y1 - f.y0) / ENV_NY;
+    for (int i = 0; i < ENV_NX; i++) {
+        double hw = hlo + (i + 0.5) * (hhi - hlo) / ENV_NX;
+        int run_state = -1, run_start = 0;
+        for (int j = 0; j <= ENV_NY; j++) {
+            int s = -2;
+            if (j < ENV_NY) {
+                sw_gate_result res;
+                double tw = tlo + (j + 0.5) * (thi - tlo) / ENV_NY;
+                sw_gate_evaluate(gate, hw, tw, &res);
+                s = (int)res.state;
+            }
+            if (s != run_state) {
+                if (run_state >= 0)
+                    fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.2f\" "
+                            "height=\"%.1f\" fill=\"%s\"/>", f.x0 + i * cw,
+                            f.y1 - j * ch, cw + 0.05, (j - run_start) * ch,
+                            fill[run_state]);
+                run_state = s;
+                run_start = j;
+            }
+        }
+        fputc('\n', fp);
+    }
+    /* where the waters are level: the buoyancy changes water there */
+    fprintf(fp, "<line class=\"diag\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
+            "y2=\"%.1f\"/>\n", fx(&f, fmax(hlo, tlo)), fy(&f, fmax(hlo, tlo)),
+            fx(&f, fmin(hhi, thi)), fy(&f, fmin(hhi, thi)));
+    /* the observed pairs, one mark per 2-unit square */
+    {
+        enum { GW = 200, GH = 160 };
+        unsigned char *seen = calloc(GW * GH, 1);
+        if (seen == NULL)
+            return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                                "out of memory for the report");
+        fputs("<path class=\"obs\" d=\"", fp);
+        for (size_t s = 0; s < CLOUD_SLOTS; s++) {
+            if (!c->used[s])
+                continue;
+            double x = fx(&f, ((double)c->qh[s] + 0.5) * c->cell_m);
+            double y = fy(&f, ((double)c->qt[s] + 0.5) * c->cell_m);
+            int gx = (int)((x - f.x0) / 2.0), gy = (int)((y - f.y0) / 2.0);
+            if (gx < 0 || gx >= GW || gy < 0 || gy >= GH ||
+                seen[gy * GW + gx])
+                continue;
+            seen[gy * GW + gx] = 1;
+            fprintf(fp, "M%.1f %.1fh1.4v1.4h-1.4z", f.x0 + gx * 2.0 + 0.3,
+                    f.y0 + gy * 2.0 + 0.3);
+        }
+        fputs("\"/>\n", fp);
+        free(seen);
+    }
+    fputs("</g>\n", fp);
+    x_axis(fp, &f, sx, "headwater (m)");
+    y_axis(fp, &f, sy, "tailwater (m)");
+    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    double x = f.x0;
+    legend_item(fp, &x, 18, "fill=\"#DCEAF5\" stroke=\"#777777\"", "ok", 1);
+    legend_item(fp, &x, 18, "fill=\"#F5C26B\"", "low", 1);
+    legend_item(fp, &x, 18, "fill=\"url(#hatch-open)\"", "open", 1);
+    legend_item(fp, &x, 18, "class=\"obs\"", "observed", 1);
+    legend_item(fp, &x, 18, "class=\"diag\"", "hw = tw", 0);
+    fputs("</svg>\n", fp);
+    return SW_OK;
+}
+
+static void chart_months(FILE *fp, const sw_html_report *r)
+{
+    size_t ng = r->n_gates, n = r->n_months, ngroups;
+    int by_year = n > MONTHS_DRAWN;
+    frame f = {64, 944, 40, 250, 0, 1, 0, 1};
+    char label[48];
+    double max_h = 0;
+
+    /* groups: months, or years when there are many months */
+    ngroups = 0;
+    for (size_t i = 0; i < n; i++)
+        if (i == 0 || !by_year ||
+            r->yyyymm[i] / 100 != r->yyyymm[i - 1] / 100)
+            ngroups++;
+    double *low = calloc(ngroups * ng + 1, sizeof *low);
+    double *open = calloc(ngroups * ng + 1, sizeof *open);
+    int *key = calloc(ngroups + 1, sizeof *key);
+    if (low == NULL || open == NULL || key == NULL) {
+        free(low);
+        free(open);
+        free(key);
+        fputs("<p>(out of memory for the chart)</p>\n", fp);
+        return;
+    }
+    size_t gi = 0;
+    for (size_t i = 0; i < n; i++) {
+        if (i > 0 && (!by_year ||
+                      r->yyyymm[i] / 100 != r->yyyymm[i - 1] / 100))
+            gi++;
+        key[gi] = by_year ? r->yyyymm[i] / 100 : r->yyyymm[i];
+        for (size_t g = 0; g < ng; g++) {
+            low[gi * ng + g] += (double)r->m_low[i * ng + g] / 3.6e6;
+            open[gi * ng + g] += (double)r->m_open[i * ng + g] / 3.6e6;
+        }
+    }
+    for (size_t i = 0; i < ngroups * ng; i++)
+        max_h = fmax(max_h, low[i] + open[i]);
+    f.vy1 = max_h > 0 ? max_h : 1.0;
+    double step = nice_range(&f.vy0, &f.vy1, 5);
+
+    svg_open(fp, "chart-months", 960, 320, by_year ? "Hours below margin per gate and year"
+                                    : "Hours below margin per gate and "
+                                      "month");
+    y_axis(fp, &f, step, "hours below margin (h)");
+    double gw = (f.x1 - f.x0) / (double)(ngroups ? ngroups : 1);
+    double bw = fmin(28.0, 0.8 * gw / (double)ng);
+    int every = (int)ceil(70.0 / gw);
+    for (size_t k = 0; k < ngroups; k++) {
+        double gx = f.x0 + (double)k * gw + (gw - bw * (double)ng) / 2;
+        for (size_t g = 0; g < ng; g++) {
+            double x = gx + (double)g * bw;
+            double lo_h = low[k * ng + g], op_h = open[k * ng + g];
+            double y_open = fy(&f, op_h), y_top = fy(&f, op_h + lo_h);
+            if (op_h + lo_h <= 0)
+                continue;
+            fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+                    "height=\"%.1f\" fill=\"%s\" stroke=\"#000000\" "
+                    "stroke-width=\"0.5\"/>", x, y_top, bw * 0.92,
+                    f.y1 - y_top, palette[g % N_PALETTE]);
+            if (op_h > 0)
+                fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+                        "height=\"%.1f\" fill=\"url(#hatch-bar)\"/>", x,
+                        y_open, bw * 0.92, f.y1 - y_open);
+            fputc('\n', fp);
+        }
+        if (k % (size_t)every == 0) {
+            if (by_year)
+                snprintf(label, sizeof label, "%d", key[k]);
+            else
+                snprintf(label, sizeof label, "%04d-%02d", key[k] / 100,
+                         key[k] % 100);
+            fprintf(fp, "<text class=\"tick\" x=\"%.1f\" y=\"%.1f\" "
+                    "text-anchor=\"middle\">%s</text>\n", f.x0 + ((double)k + 0.5) * gw,
+                    f.y1 + 16, label);
+        }
+    }
+    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    fprintf(fp, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" "
+            "text-anchor=\"middle\">%s (site time zone)</text>\n",
+            (f.x0 + f.x1) / 2, f.y1 + 34, by_year ? "year" : "month");
+    if (max_h <= 0)
+        fprintf(fp, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" "
+                "text-anchor=\"middle\">no hours below margin</text>\n",
+                (f.x0 + f.x1) / 2, (f.y0 + f.y1) / 2);
+    double x = f.x0;
+    for (size_t g = 0; g < ng; g++) {
+        char style[80];
+        snprintf(style, sizeof style, "fill=\"%s\" stroke=\"#000000\" "
+                 "stroke-width=\"0.5\"", palette[g % N_PALETTE]);
+        legend_item(fp, &x, 20, style, r->site->gates[g].gate.name, 1);
+    }
+    legend_item(fp, &x, 20, "fill=\"url(#hatch-bar)\" stroke=\"#000000\" "
+                "stroke-width=\"0.5\"", "of which open", 1);
+    fputs("</svg>\n", fp);
+    free(low);
+    free(open);
+    free(key);
+}
+
+/* ---- writing: tables ---------------------------------------------------- */
+
+static void table_summary(FILE *fp, const sw_html_report *r,
+                          const sw_stepper *st)
+{
+    sw_time_ms t0, t1;
+    char a[32], b[32], c[32], d[32], e[32], h[32], fs[32], when[64];
+
+    sw_stepper_span(st, &t0, &t1);
+    fputs("<table id=\"table-summary\">\n<thead><tr><th>gate</th>"
+          "<th>evaluated (h)</th>"
+          "<th>not evaluated (h)</th><th>low (h)</th><th>open (h)</th>"
+          "<th>below margin (h)</th><th>events</th>"
+          "<th>longest event (h)</th><th>least fs</th><th>when</th>"
+          "</tr></thead>\n<tbody>\n", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_tally *t = sw_stepper_tally(st, g);
+        hours_text(a, sizeof a, t->evaluated);
+        hours_text(b, sizeof b, (t1 - t0) - t->evaluated);
+        hours_text(c, sizeof c, t->low);
+        hours_text(d, sizeof d, t->open);
+        hours_text(e, sizeof e, t->low + t->open);
+        hours_text(h, sizeof h, t->longest_event);
+        if (t->evaluated == 0 && isinf(t->min_fs)) {
+            snprintf(fs, sizeof fs, "\xE2\x80\x93");
+            snprintf(when, sizeof when, "\xE2\x80\x93");
+        } else {
+            fs_text(fs, sizeof fs, t->min_fs);
+            when_text(when, sizeof when, t->min_fs_t, r->site->zone);
+        }
+        fprintf(fp, "<tr%s><td>", t->open > 0 ? " class=\"open\""
+                                  : t->low > 0 ? " class=\"low\"" : "");
+        esc(fp, r->site->gates[g].gate.name);
+        fprintf(fp, "</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td>"
+                "<td>%s</td><td>%ld</td><td>%s</td><td>%s</td><td>%s</td>"
+                "</tr>\n", a, b, c, d, e, t->events, h, fs, when);
+    }
+    fputs("</tbody>\n</table>\n", fp);
+}
+
+static void table_worst(FILE *fp, const sw_html_report *r)
+{
+    char a[64], b[64], h[32], fs[32], when[64];
+
+    if (r->n_worst == 0) {
+        fputs("<p>No gate was below its margin: there are no events.</p>\n",
+              fp);
+        return;
+    }
+    fputs("<table id=\"table-events\">\n<thead><tr><th>#</th><th>gate</th>"
+          "<th>start</th>"
+          "<th>end</th><th>hours</th><th>worst</th><th>least fs</th>"
+          "<th>when</th><th>headwater (m)</th><th>tailwater (m)</th>"
+          "<th>ended by</th></tr></thead>\n<tbody>\n", fp);
+    for (size_t i = 0; i < r->n_worst; i++) {
+        const sw_event *ev = &r->worst[i];
+        when_text(a, sizeof a, ev->start, r->site->zone);
+        when_text(b, sizeof b, ev->end, r->site->zone);
+        hours_text(h, sizeof h, ev->end - ev->start);
+        fs_text(fs, sizeof fs, ev->min_fs);
+        when_text(when, sizeof when, ev->min_fs_t, r->site->zone);
+        fprintf(fp, "<tr class=\"%s\"><td>%zu</td><td>",
+                sw_state_name(ev->worst), i + 1);
+        esc(fp, r->site->gates[ev->gate].gate.name);
+        fprintf(fp, "</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td>"
+                "<td>%s</td><td>%s</td><td>%.3f</td><td>%.3f</td>"
+                "<td>%s</td></tr>\n", a, b, h, sw_state_name(ev->worst), fs,
+                when, ev->hw_at_min_m, ev->tw_at_min_m,
+                sw_report_end_name(ev->ends));
+    }
+    fputs("</tbody>\n</table>\n", fp);
+}
+
+static void table_quality(FILE *fp, const sw_html_report *r,
+                          const sw_stepper *st)
+{
+    char h[32], l[32], when[64];
+
+    hours_text(h, sizeof h, r->site->max_gap_ms);
+    fprintf(fp, "<p>A gap is an interval between valid readings longer "
+            "than max_gap (%s h); across it the level is unknown and the "
+            "hours count as not evaluated, never as safe.</p>\n", h);
+    fputs("<table id=\"table-quality\">\n<thead><tr><th>series</th>"
+          "<th>file</th><th>column</th>"
+          "<th>rows</th><th>valid</th><th>missing</th><th>rejected</th>"
+          "<th>duplicate rows</th><th>gaps</th><th>in gaps (h)</th>"
+          "<th>longest gap (h)</th><th>from</th></tr></thead>\n<tbody>\n",
+          fp);
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *s = sw_stepper_series(st, i);
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        const sw_gap_stats *gs = sw_stepper_gap_stats(st, i);
+        fputs("<tr><td>", fp);
+        esc(fp, s->name);
+        fputs("</td><td>", fp);
+        esc(fp, s->path);
+        fputs("</td><td>", fp);
+        esc(fp, s->value_column);
+        fprintf(fp, "</td><td>%ld</td><td>%ld</td><td>%ld</td><td>%ld</td>"
+                "<td>%ld</td><td>%ld</td>", rs->records, cs->valid,
+                cs->missing, cs->rejected, rs->duplicates, gs->gaps);
+        if (gs->gaps > 0) {
+            hours_text(h, sizeof h, gs->total);
+            hours_text(l, sizeof l, gs->longest);
+            when_text(when, sizeof when, gs->longest_start, r->site->zone);
+            fprintf(fp, "<td>%s</td><td>%s</td><td>%s</td></tr>\n", h, l,
+                    when);
+        } else {
+            fputs("<td>0.0000</td><td>\xE2\x80\x93</td><td>\xE2\x80\x93</td>"
+                  "</tr>\n", fp);
+        }
+    }
+    fputs("</tbody>\n</table>\n", fp);
+    int any = 0;
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *s = sw_stepper_series(st, i);
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        for (size_t k = 0; k < cs->n_kept; k++) {
+            if (!any++)
+                fputs("<p>Readings rejected (taken as missing), the first "
+                      "of each series:</p>\n<ul class=\"rejects\">\n", fp);
+            fputs("<li>", fp);
+            escf(fp, "%s:%ld:%ld: '%s': %s", s->path, cs->kept[k].line,
+                 cs->kept[k].column, cs->kept[k].text, cs->kept[k].reason);
+            fputs("</li>\n", fp);
+        }
+        if (cs->rejected > (long)cs->n_kept) {
+            if (!any++)
+                fputs("<ul class=\"rejects\">\n", fp);
+            fputs("<li>", fp);
+            escf(fp, "%s: %ld more rejected", s->path,
+                 cs->rejected - (long)cs->n_kept);
+            fputs("</li>\n", fp);
+        }
+        if (rs->time_rejected > 0) {
+            if (!any++)
+                fputs("<ul class=\"rejects\">\n", fp);
+            fputs("<li>", fp);
+            escf(fp, "%s: %ld row(s) at local times that do not exist (the "
+                 "daylight-saving gap), taken as missing; first on line %ld",
+                 s->path, rs->time_rejected, rs->first_time_rejected_line);
+            fputs("</li>\n", fp);
+        }
+        if (rs->unresolved > 0) {
+            if (!any++)
+                fputs("<ul class=\"rejects\">\n", fp);
+            fputs("<li>", fp);
+            escf(fp, "%s: %ld row(s) in a repeated daylight-saving hour "
+                 "taken as the first occurrence; first on line %ld", s->path,
+                 rs->unresolved, rs->first_unresolved_line);
+            fputs("</li>\n", fp);
+        }
+    }
+    if (any)
+        fputs("</ul>\n", fp);
+}
+
+static void param_row(FILE *fp, const char *name, const char *unit,
+                      const sw_html_report *r, int which)
+{
+    fprintf(fp, "<tr><th scope=\"row\">%s</th><td>%s</td>", name, unit);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_site_gate *sg = &r->site->gates[g];
+        const sw_gate *q = &sg->gate;
+        int circle = q->shape == SW_SHAPE_CIRCLE;
+        fputs("<td>", fp);
+        switch (which) {
+        case 0: esc(fp, sw_shape_name(q->shape)); break;
+        case 1: fprintf(fp, "%.3f", q->hinge_level_m); break;
+        case 2: fprintf(fp, "%.2f", q->inclination_deg); break;
+        case 3: fprintf(fp, "%.3f", q->seal_top_m); break;
+        case 4:
+            if (circle)
+                fputs("\xE2\x80\x93", fp);
+            else
+                fprintf(fp, "%.3f \xC3\x97 %.3f", q->seal_height_m,
+                        q->seal_width_m);
+            break;
+        case 5:
+            if (circle)
+                fprintf(fp, "%.3f", q->diameter_m);
+            else
+                fputs("\xE2\x80\x93", fp);
+            break;
+        case 6: fprintf(fp, "%.3f", q->area_m2); break;
+        case 7: fprintf(fp, "%.3f", q->leaf_length_m); break;
+        case 8: fprintf(fp, "%.1f", q->mass_kg); break;
+        case 9: fprintf(fp, "%.3f / %.3f", q->cg_along_m, q->cg_offset_m);
+            break;
+        case 10: fprintf(fp, "%.4f", q->volume_m3); break;
+        case 11: fprintf(fp, "%.1f", q->extra_moment_Nm); break;
+        case 12: fprintf(fp, "%.3f", q->sill_level_m); break;
+        case 13: fprintf(fp, "%.3f", q->seal_top_level_m); break;
+        case 14: fprintf(fp, "%.2f", q->required_fs); break;
+        case 15: fprintf(fp, "%.1f", q->min_sill_reaction_N); break;
+        case 16: fprintf(fp, "%.2f / %.2f", q->rho_kgm3[SW_UPSTREAM],
+                         q->rho_kgm3[SW_DOWNSTREAM]);
+            break;
+        case 17: fprintf(fp, "%.5f", q->g_ms2); break;
+        case 18: esc(fp, sg->headwater); break;
+        default: esc(fp, sg->tailwater); break;
+        }
+        fputs("</td>", fp);
+    }
+    fputs("</tr>\n", fp);
+}
+
+static void table_gates(FILE *fp, const sw_html_report *r)
+{
+    static const struct {
+        const char *name, *unit;
+    } rows[] = {
+        {"shape", ""},
+        {"hinge level", "m"},
+        {"inclination from horizontal", "\xC2\xB0"},
+        {"top of opening, from hinge along leaf", "m"},
+        {"opening height \xC3\x97 width (rectangle)", "m"},
+        {"opening diameter (circle)", "m"},
+        {"sealed area", "m\xC2\xB2"},
+        {"leaf length", "m"},
+        {"mass", "kg"},
+        {"centre of gravity: along / normal", "m"},
+        {"displaced volume", "m\xC2\xB3"},
+        {"extra moment (+ holds shut)", "N\xC2\xB7m"},
+        {"sill level (derived)", "m"},
+        {"top of opening level (derived)", "m"},
+        {"required factor of safety", "\xE2\x80\x93"},
+        {"least sill reaction", "N"},
+        {"water density: upstream / downstream", "kg/m\xC2\xB3"},
+        {"gravity", "m/s\xC2\xB2"},
+        {"headwater series", ""},
+        {"tailwater series", ""},
+    };
+    fputs("<table id=\"table-gates\" class=\"params\">\n<thead><tr>"
+          "<th>parameter</th>"
+          "<th>unit</th>", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        fputs("<th>", fp);
+        esc(fp, r->site->gates[g].gate.name);
+        fputs("</th>", fp);
+    }
+    fputs("</tr></thead>\n<tbody>\n", fp);
+    for (int i = 0; i < (int)(sizeof rows / sizeof rows[0]); i++)
+        param_row(fp, rows[i].name, rows[i].unit, r, i);
+    fputs("</tbody>\n</table>\n", fp);
+}
+
+/* ---- the page ----------------------------------------------------------- */
+
+static const char css[] =
+    "body{font-family:\"DejaVu Sans\",Arial,Helvetica,sans-serif;"
+    "color:#111;margin:1.5em auto;max-width:1000px;padding:0 1em;"
+    "line-height:1.35}\n"
+    "h1{font-size:1.5em;margin-bottom:0.2em}\n"
+    "h2{font-size:1.15em;border-bottom:1px solid #888;margin-top:1.6em}\n"
+    "h3{font-size:1em;margin:0.8em 0 0.2em}\n"
+    ".meta{color:#333;font-size:0.9em;margin:0.2em 0}\n"
+    ".caution{border:2px solid #000;padding:0.5em 0.8em;margin:1em 0;"
+    "font-weight:bold}\n"
+    ".verdict{font-size:1.1em;margin:0.6em 0}\n"
+    "table{border-collapse:collapse;font-size:0.8em;margin:0.5em 0;"
+    "width:100%}\n"
+    "th,td{border:1px solid #999;padding:0.2em 0.4em;text-align:right;"
+    "vertical-align:top}\n"
+    "th{background:#eee}\n"
+    "td:first-child,th:first-child{text-align:left}\n"
+    ".params td{text-align:right}\n"
+    "tr.low td{background:#FBE3B4}\n"
+    "tr.open td{background:#F0C4B0}\n"
+    "svg{width:100%;height:auto;display:block}\n"
+    "svg.defs{width:0;height:0;position:absolute}\n"
+    "figure{margin:0.6em 0;break-inside:avoid;page-break-inside:avoid}\n"
+    "figcaption{font-size:0.85em;color:#333}\n"
+    ".envelopes{display:flex;flex-wrap:wrap;gap:1%}\n"
+    ".envelopes figure{width:49%}\n"
+    "text{font-family:\"DejaVu Sans\",Arial,Helvetica,sans-serif;"
+    "fill:#111}\n"
+    "text.tick{font-size:11px}\n"
+    "text.axis{font-size:12px}\n"
+    "text.legend{font-size:11px}\n"
+    ".grid{stroke:#d0d0d0;stroke-width:0.6}\n"
+    ".frame{fill:none;stroke:#333;stroke-width:1}\n"
+    ".level{fill:none;stroke-width:1.6}\n"
+    ".crit-alarm{fill:none;stroke:#CC79A7;stroke-width:2;"
+    "stroke-dasharray:7 4}\n"
+    ".crit-open{fill:none;stroke:#000;stroke-width:1.6;"
+    "stroke-dasharray:2 3}\n"
+    ".fs{fill:none;stroke:#0072B2;stroke-width:1.2}\n"
+    ".req{stroke:#000;stroke-width:1.2;stroke-dasharray:8 4}\n"
+    ".one{stroke:#000;stroke-width:1;stroke-dasharray:2 3}\n"
+    ".diag{stroke:#555;stroke-width:1;stroke-dasharray:4 3}\n"
+    ".obs{fill:#111;stroke:none}\n"
+    "ul.rejects{font-size:0.85em;font-family:monospace}\n"
+    "@page{size:auto;margin:14mm}\n"
+    "@media print{body{max-width:none;margin:0;padding:0;font-size:10pt}"
+    "h2{break-after:avoid;page-break-after:avoid}"
+    "table{break-inside:auto}tr{break-inside:avoid}}\n";
+
+int sw_html_report_write(const sw_html_report *r, FILE *fp,
+                         const sw_stepper *st, const sw_html_meta *meta,
+                         sw_error *err)
+{
+    const sw_site *site = r->site;
+    sw_time_ms t0, t1;
+    char a[64], b[64], h[32];
+    int rc;
+
+    sw_stepper_span(st, &t0, &t1);
+    fputs("<!DOCTYPE html>\n<html xmlns=\"http://www.w3.org/1999/xhtml\" "
+          "lang=\"en\" xml:lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n"
+          "<meta name=\"viewport\" content=\"width=device-width\"/>\n"
+          "<title>", fp);
+    escf(fp, "Season report: %s", site->name);
+    fprintf(fp, "</title>\n<style>\n%s</style>\n</head>\n<body>\n", css);
+    svg_defs(fp);
+
+    fputs("<h1>", fp);
+    escf(fp, "Season report: %s", site->name);
+    fputs("</h1>\n", fp);
+    when_text(a, sizeof a, t0, site->zone);
+    when_text(b, sizeof b, t1, site->zone);
+    hours_text(h, sizeof h, t1 - t0);
+    fputs("<p class=\"meta\">", fp);
+    escf(fp, "Replay from %s to %s (%s h), times in %s.", a, b, h,
+         site->zone != NULL ? sw_zone_name(site->zone) : "UTC");
+    fputs("</p>\n<p class=\"meta\">Site file ", fp);
+    esc(fp, site->path);
+    fputs(" (SHA-256 ", fp);
+    esc(fp, meta->site_sha256);
+    fputs("); made by sillwatch ", fp);
+    esc(fp, meta->version);
+    fputs(" on ", fp);
+    esc(fp, meta->generated);
+    fputs(".</p>\n", fp);
+
+    /* the verdict, in one line */
+    fputs("<p class=\"verdict\">", fp);
+    {
+        int any = 0;
+        for (size_t g = 0; g < r->n_gates; g++) {
+            const sw_tally *t = sw_stepper_tally(st, g);
+            if (t->low + t->open == 0)
+                continue;
+            hours_text(h, sizeof h, t->low + t->open);
+            fputs(any++ ? "; " : "<strong>Below the required margin:</strong> ",
+                  fp);
+            escf(fp, "gate %s for %s h", site->gates[g].gate.name, h);
+            if (t->open > 0) {
+                hours_text(h, sizeof h, t->open);
+                escf(fp, " (open for %s h)", h);
+            }
+        }
+        if (!any)
+            fputs("Every gate held its required margin wherever its levels "
+                  "were known.", fp);
+        else
+            fputs(".", fp);
+        for (size_t g = 0; g < r->n_gates; g++) {
+            const sw_tally *t = sw_stepper_tally(st, g);
+            if (t->evaluated < t1 - t0) {
+                hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
+                escf(fp, " Gate %s: %s h without level data, not counted as "
+                     "safe.", site->gates[g].gate.name, h);
+            }
+        }
+    }
+    fputs("</p>\n<p class=\"caution\">", fp);
+    for (const char *c = meta->caution; *c != '\0'; c++) {
+        char one[2] = {*c == '\n' ? ' ' : *c, '\0'};
+        if (*c == '\n' && c[1] == '\0')
+            break;
+        esc(fp, one);
+    }
+    fputs("</p>\n", fp);
+
+    fputs("<h2 id=\"summary\">Summary</h2>\n", fp);
+    table_summary(fp, r, st);
+
+    fputs("<h2 id=\"levels\">Levels and critical tailwaters</h2>\n<figure>\n",
+          fp);
+    chart_levels(fp, r, t1);
+    fputs("<figcaption>The levels as the gates saw them (interpolated "
+          "between readings up to max_gap apart, broken across gaps), with "
+          "the governing critical tailwaters at each moment's headwater: "
+          "tw_alarm, the least tailwater at which every gate on that "
+          "tailwater holds its required margin, and tw_open, the least at "
+          "which none opens. Where a trace is not drawn, no tailwater is "
+          "needed at that headwater. Each drawn column keeps its least and "
+          "greatest value.</figcaption>\n</figure>\n", fp);
+
+    fputs("<h2 id=\"fs\">Factor of safety per gate</h2>\n", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        fputs("<figure>\n", fp);
+        chart_fs(fp, r, g, t1);
+        fputs("<figcaption>", fp);
+        escf(fp, "Gate %s: the factor of safety (resisting over opening "
+             "moment about the hinge) against its required value. Shaded: "
+             "periods below the margin (a column is shaded when any part of "
+             "it was, so no event is lost in drawing) and periods without "
+             "level data.", site->gates[g].gate.name);
+        fputs("</figcaption>\n</figure>\n", fp);
+    }
+
+    fputs("<h2 id=\"envelope\">Operating envelopes</h2>\n"
+          "<div class=\"envelopes\">\n", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        fputs("<figure>\n", fp);
+        if ((rc = chart_envelope(fp, r, g, err)) != SW_OK)
+            return rc;
+        fputs("<figcaption>", fp);
+        escf(fp, "Gate %s: its state over headwater and tailwater, with the "
+             "level pairs observed in the run.", site->gates[g].gate.name);
+        fputs("</figcaption>\n</figure>\n", fp);
+    }
+    fputs("</div>\n", fp);
+
+    fputs("<h2 id=\"months\">Hours below margin by month</h2>\n<figure>\n",
+          fp);
+    chart_months(fp, r);
+    fputs("<figcaption>Hours below the required margin (low or open) per "
+          "gate and calendar month in the site's time zone; the hatched "
+          "part is the time open.</figcaption>\n</figure>\n", fp);
+
+    fputs("<h2 id=\"events\">The ten worst events</h2>\n", fp);
+    fputs("<p>Ranked open before low, then by the least factor of safety, "
+          "then by length. The whole list is in events.csv.</p>\n", fp);
+    table_worst(fp, r);
+
+    fputs("<h2 id=\"quality\">Data quality</h2>\n", fp);
+    table_quality(fp, r, st);
+
+    fputs("<h2 id=\"gates\">Gate parameters</h2>\n", fp);
+    table_gates(fp, r);
+
+    fputs("<h2 id=\"caution\">Caution</h2>\n<p>", fp);
+    for (const char *c = meta->caution; *c != '\0'; c++) {
+        char one[2] = {*c == '\n' ? ' ' : *c, '\0'};
+        if (*c == '\n' && c[1] == '\0')
+            break;
+        esc(fp, one);
+    }
+    fputs(" The model is the hydrostatic one of the README: still water on "
+          "both faces of a rigid leaf, no dynamic or impact loads, no "
+          "hinge friction, no seal or structural checks.</p>\n"
+          "</body>\n</html>\n", fp);
+    return SW_OK;
+}
