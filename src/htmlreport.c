@@ -1010,7 +1010,8 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
     fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
             "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
     fputs("<g clip-path=\"url(#clip-levels)\">\n", fp);
-    for (size_t i = 0; i < r->n_lv; i++) {
+    /* the first gate's headwater last, over the others */
+    for (size_t i = r->n_lv; i-- > 0;) {
         snprintf(style, sizeof style, "class=\"level\" stroke=\"%s\"%s",
                  palette[i % N_PALETTE],
                  i % 2 ? " stroke-width=\"1\"" : "");
@@ -1061,9 +1062,20 @@ static void shade(FILE *fp, const sw_html_report *r, const frame *f,
             e++;
         double xa = fmax(f->x0, fx(f, (double)r->t0 + (double)k * (double)r->w));
         double xb = fmin(f->x1, fx(f, (double)r->t0 + (double)e * (double)r->w));
+        /* at least 2 units wide, so that a short event stays visible;
+         * a narrow event also gets a mark on the top edge */
+        if (xb - xa < 4.0 && !(flag & F_NODATA))
+            fprintf(fp, "<path class=\"%s-mark\" d=\"M%.1f %.1fl-4 -7h8z\" "
+                    "fill=\"%s\" stroke=\"#000000\" stroke-width=\"0.6\"/>\n",
+                    cls, (xa + xb) / 2, f->y0, fill);
+        if (xb - xa < 2.0) {
+            double mid = (xa + xb) / 2;
+            xa = fmax(f->x0, mid - 1.0);
+            xb = fmin(f->x1, xa + 2.0);
+        }
         fprintf(fp, "<rect class=\"%s\" x=\"%.1f\" y=\"%.1f\" "
                 "width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>\n", cls, xa,
-                f->y0, fmax(0.6, xb - xa), f->y1 - f->y0, fill);
+                f->y0, xb - xa, f->y1 - f->y0, fill);
         k = e;
     }
 }
