@@ -1409,6 +1409,28 @@ static void table_worst(FILE *fp, const sw_html_report *r)
     fputs("</tbody>\n</table>\n", fp);
 }
 
+/* One item of the notes under the data-quality table (the first opens
+ * the list). */
+static void note_item(FILE *fp, int *any, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 3, 4)))
+#endif
+    ;
+static void note_item(FILE *fp, int *any, const char *fmt, ...)
+{
+    char buf[1024];
+    va_list ap;
+    if (!(*any)++)
+        fputs("<p>Notes on the readings (the first ten rejected fields of "
+              "each series):</p>\n<ul class=\"rejects\">\n", fp);
+    va_start(ap, fmt);
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    va_end(ap);
+    fputs("<li>", fp);
+    esc(fp, buf);
+    fputs("</li>\n", fp);
+}
+
 static void table_quality(FILE *fp, const sw_html_report *r,
                           const sw_stepper *st)
 {
@@ -1455,41 +1477,22 @@ static void table_quality(FILE *fp, const sw_html_report *r,
         const sw_site_series *s = sw_stepper_series(st, i);
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
         const sw_column_stats *cs = sw_stepper_column_stats(st, i);
-        for (size_t k = 0; k < cs->n_kept; k++) {
-            if (!any++)
-                fputs("<p>Readings rejected (taken as missing), the first "
-                      "of each series:</p>\n<ul class=\"rejects\">\n", fp);
-            fputs("<li>", fp);
-            escf(fp, "%s:%ld:%ld: '%s': %s", s->path, cs->kept[k].line,
-                 cs->kept[k].column, cs->kept[k].text, cs->kept[k].reason);
-            fputs("</li>\n", fp);
-        }
-        if (cs->rejected > (long)cs->n_kept) {
-            if (!any++)
-                fputs("<ul class=\"rejects\">\n", fp);
-            fputs("<li>", fp);
-            escf(fp, "%s: %ld more rejected", s->path,
-                 cs->rejected - (long)cs->n_kept);
-            fputs("</li>\n", fp);
-        }
-        if (rs->time_rejected > 0) {
-            if (!any++)
-                fputs("<ul class=\"rejects\">\n", fp);
-            fputs("<li>", fp);
-            escf(fp, "%s: %ld row(s) at local times that do not exist (the "
-                 "daylight-saving gap), taken as missing; first on line %ld",
-                 s->path, rs->time_rejected, rs->first_time_rejected_line);
-            fputs("</li>\n", fp);
-        }
-        if (rs->unresolved > 0) {
-            if (!any++)
-                fputs("<ul class=\"rejects\">\n", fp);
-            fputs("<li>", fp);
-            escf(fp, "%s: %ld row(s) in a repeated daylight-saving hour "
-                 "taken as the first occurrence; first on line %ld", s->path,
-                 rs->unresolved, rs->first_unresolved_line);
-            fputs("</li>\n", fp);
-        }
+        for (size_t k = 0; k < cs->n_kept; k++)
+            note_item(fp, &any, "%s:%ld:%ld: rejected '%s': %s", s->path,
+                      cs->kept[k].line, cs->kept[k].column, cs->kept[k].text,
+                      cs->kept[k].reason);
+        if (cs->rejected > (long)cs->n_kept)
+            note_item(fp, &any, "%s: %ld more rejected", s->path,
+                      cs->rejected - (long)cs->n_kept);
+        if (rs->time_rejected > 0)
+            note_item(fp, &any, "%s: %ld row(s) at local times that do not "
+                      "exist (the daylight-saving gap), taken as missing; "
+                      "first on line %ld", s->path, rs->time_rejected,
+                      rs->first_time_rejected_line);
+        if (rs->unresolved > 0)
+            note_item(fp, &any, "%s: %ld row(s) in a repeated daylight-saving "
+                      "hour taken as the first occurrence; first on line %ld",
+                      s->path, rs->unresolved, rs->first_unresolved_line);
     }
     if (any)
         fputs("</ul>\n", fp);
