@@ -49,6 +49,19 @@ int sw_cli_make_outdir(const char *dir, sw_error *err);
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
                         const char *command);
 
+/* Option parsing shared by the commands that take a site file and -o
+ * OUTDIR (run, screen), after getopt_long:
+ * sw_cli_take_series() checks a --series NAME=FILE and appends it to
+ * specs[cap] (*n of them so far); sw_cli_option_error() reports a missing
+ * value (opt ':') or an unknown option; sw_cli_site_operand() checks that
+ * exactly one site file follows the options and that OUTDIR was given.
+ * Each returns 0, or the usage exit code after printing why. */
+int sw_cli_take_series(const char *command, const char *arg,
+                       const char **specs, size_t *n, size_t cap);
+int sw_cli_option_error(const char *command, int opt, char **argv);
+int sw_cli_site_operand(const char *command, int argc, char **argv,
+                        const char *outdir, const char **site_path);
+
 /* SHA-256 of the file at `path` as 64 hex digits and a NUL (nettle).
  * Returns SW_OK, or SW_ESITE when it cannot be read. */
 #define SW_CLI_SHA256_HEX 65

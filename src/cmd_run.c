@@ -77,7 +77,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0},
     };
-    int opt;
+    int opt, rc;
 
     memset(o, 0, sizeof *o);
     opterr = 0;
@@ -87,12 +87,10 @@ static int parse_args(int argc, char **argv, run_opts *o)
             o->outdir = optarg;
             break;
         case 's':
-            if (strchr(optarg, '=') == NULL || optarg[0] == '=')
-                return sw_cli_usage_error("run", "--series takes NAME=FILE, "
-                                                 "not '%s'", optarg);
-            if (o->n_series == sizeof o->series / sizeof o->series[0])
-                return sw_cli_usage_error("run", "too many --series options");
-            o->series[o->n_series++] = optarg;
+            if ((rc = sw_cli_take_series("run", optarg, o->series,
+                                         &o->n_series, sizeof o->series /
+                                                       sizeof o->series[0])))
+                return rc;
             break;
         case 'S':
             o->steps = 1;
@@ -113,24 +111,11 @@ static int parse_args(int argc, char **argv, run_opts *o)
             fputs(run_help, stdout);
             fputs(sw_cli_caution, stdout);
             return -1;
-        case ':':
-            return sw_cli_usage_error("run", "option '%s' needs a value",
-                                      argv[optind - 1]);
         default:
-            return sw_cli_usage_error("run", "unknown option '%s'",
-                                      argv[optind - 1]);
+            return sw_cli_option_error("run", opt, argv);
         }
     }
-    if (optind != argc - 1)
-        return sw_cli_usage_error("run", optind >= argc
-                                             ? "no site file given"
-                                             : "give one site file, not %d",
-                                  argc - optind);
-    if (o->outdir == NULL)
-        return sw_cli_usage_error("run", "give the output folder with -o "
-                                         "OUTDIR");
-    o->site_path = argv[optind];
-    return 0;
+    return sw_cli_site_operand("run", argc, argv, o->outdir, &o->site_path);
 }
 
 static void hours_text(char *buf, size_t n, sw_time_ms ms)

@@ -68,7 +68,7 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0},
     };
-    int opt;
+    int opt, rc;
 
     memset(o, 0, sizeof *o);
     opterr = 0;
@@ -78,13 +78,10 @@ static int parse_args(int argc, char **argv, screen_opts *o)
             o->outdir = optarg;
             break;
         case 's':
-            if (strchr(optarg, '=') == NULL || optarg[0] == '=')
-                return sw_cli_usage_error("screen", "--series takes "
-                                                    "NAME=FILE, not '%s'",
-                                          optarg);
-            if (o->n_series == sizeof o->series / sizeof o->series[0])
-                return sw_cli_usage_error("screen", "too many --series");
-            o->series[o->n_series++] = optarg;
+            if ((rc = sw_cli_take_series("screen", optarg, o->series,
+                                         &o->n_series, sizeof o->series /
+                                                       sizeof o->series[0])))
+                return rc;
             break;
         case 'i':
             o->issued = optarg;
@@ -96,24 +93,12 @@ static int parse_args(int argc, char **argv, screen_opts *o)
             fputs(screen_help, stdout);
             fputs(sw_cli_caution, stdout);
             return -1;
-        case ':':
-            return sw_cli_usage_error("screen", "option '%s' needs a value",
-                                      argv[optind - 1]);
         default:
-            return sw_cli_usage_error("screen", "unknown option '%s'",
-                                      argv[optind - 1]);
+            return sw_cli_option_error("screen", opt, argv);
         }
     }
-    if (optind != argc - 1)
-        return sw_cli_usage_error("screen", optind >= argc
-                                                ? "no site file given"
-                                                : "give one site file, not %d",
-                                  argc - optind);
-    if (o->outdir == NULL)
-        return sw_cli_usage_error("screen", "give the output folder with -o "
-                                            "OUTDIR");
-    o->site_path = argv[optind];
-    return 0;
+    return sw_cli_site_operand("screen", argc, argv, o->outdir,
+                               &o->site_path);
 }
 
 static void put_time(FILE *fp, sw_time_ms t, const sw_zone *zone)

@@ -2,6 +2,7 @@
  * owns the exit codes and the shape of every message. */
 #define _DEFAULT_SOURCE /* getopt_long, gmtime_r */
 #include <errno.h>
+#include <getopt.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -191,6 +192,42 @@ int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
         if (sw_site_set_series_file(site, name, eq + 1, &err) != SW_OK)
             return sw_cli_usage_error(command, "%s", err.message);
     }
+    return 0;
+}
+
+int sw_cli_take_series(const char *command, const char *arg,
+                       const char **specs, size_t *n, size_t cap)
+{
+    if (strchr(arg, '=') == NULL || arg[0] == '=')
+        return sw_cli_usage_error(command, "--series takes NAME=FILE, not "
+                                           "'%s'", arg);
+    if (*n == cap)
+        return sw_cli_usage_error(command, "too many --series options");
+    specs[(*n)++] = arg;
+    return 0;
+}
+
+int sw_cli_option_error(const char *command, int opt, char **argv)
+{
+    if (opt == ':')
+        return sw_cli_usage_error(command, "option '%s' needs a value",
+                                  argv[optind - 1]);
+    return sw_cli_usage_error(command, "unknown option '%s'",
+                              argv[optind - 1]);
+}
+
+int sw_cli_site_operand(const char *command, int argc, char **argv,
+                        const char *outdir, const char **site_path)
+{
+    if (optind != argc - 1)
+        return sw_cli_usage_error(command, optind >= argc
+                                               ? "no site file given"
+                                               : "give one site file, not %d",
+                                  argc - optind);
+    if (outdir == NULL)
+        return sw_cli_usage_error(command, "give the output folder with -o "
+                                           "OUTDIR");
+    *site_path = argv[optind];
     return 0;
 }
 
