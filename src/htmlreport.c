@@ -282,7 +282,11 @@ static void mark(sw_html_report *r, size_t g, sw_time_ms a, sw_time_ms b,
                  unsigned char flag)
 {
     unsigned char *f = r->flags + g * NB;
-    size_t k1 = column_of(r, b);
+    size_t k1;
+    /* an event closed at the end of the data may end past the last point */
+    while (b - r->t0 >= (sw_time_ms)NB * r->w)
+        widen(r);
+    k1 = column_of(r, b);
     for (size_t k = column_of(r, a); k <= k1; k++)
         f[k] |= flag;
 }
