@@ -1242,29 +1242,79 @@ int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,
 
 /* ---- writing and months -------------------------------------------------- */
 
-int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
+/* Two decimal digits of v (0..99) at w. */
+static char *put2(char *w, int v)
 {
-    int32_t off = sw_zone_offset_at(zone, t);
+    w[0] = (char)('0' + v / 10);
+    w[1] = (char)('0' + v % 10);
+    return w + 2;
+}
+
+/* sw_time_format() at a UTC offset of `off` seconds. */
+static int format_at_offset(char *buf, size_t n, sw_time_ms t, int32_t off)
+{
     sw_time_ms local = t + (sw_time_ms)off * SW_MS_PER_S;
     int64_t days = floor_div(local, MS_PER_DAY), y;
     int64_t ms_of_day = local - days * MS_PER_DAY;
     int m, d, sec_of_day = (int)(ms_of_day / 1000), ms = (int)(ms_of_day % 1000);
     int32_t aoff = off < 0 ? -off : off;
     char sign = off < 0 ? '-' : '+';
-    char frac[8] = "", offsec[8] = "";
+    char frac[8] = "", offsec[8] = "", text[48], *w = text;
+    size_t len;
 
     sw_civil_from_days(days, &y, &m, &d);
-    if (ms != 0)
-        snprintf(frac, sizeof frac, ".%03d", ms);
     /* ISO 8601 offsets stop at minutes; the historical local mean times
      * of the tz database (Berlin before 1893: +00:53:28) keep their
      * seconds, so that the text still names the instant exactly. */
-    if (aoff % 60 != 0)
-        snprintf(offsec, sizeof offsec, ":%02d", (int)(aoff % 60));
-    return snprintf(buf, n, "%04" PRId64 "-%02d-%02dT%02d:%02d:%02d%s%c%02d:%02d%s",
-                    y, m, d, sec_of_day / 3600, sec_of_day / 60 % 60,
-                    sec_of_day % 60, frac, sign, (int)(aoff / 3600),
-                    (int)(aoff / 60 % 60), offsec);
+    if (y < 0 || y > 9999 || aoff / 3600 > 99) {
+        if (ms != 0)
+            snprintf(frac, sizeof frac, ".%03d", ms);
+        if (aoff % 60 != 0)
+            snprintf(offsec, sizeof offsec, ":%02d", (int)(aoff % 60));
+        return snprintf(buf, n, "%04" PRId64 "-%02d-%02dT%02d:%02d:%02d%s%c"
+                        "%02d:%02d%s", y, m, d, sec_of_day / 3600,
+                        sec_of_day / 60 % 60, sec_of_day % 60, frac, sign,
+                        (int)(aoff / 3600), (int)(aoff / 60 % 60), offsec);
+    }
+    /* The same text written by hand: a report writes several a row, and
+     * snprintf was most of their cost. */
+    w = put2(w, (int)(y / 100));
+    w = put2(w, (int)(y % 100));
+    *w++ = '-';
+    w = put2(w, m);
+    *w++ = '-';
+    w = put2(w, d);
+    *w++ = 'T';
+    w = put2(w, sec_of_day / 3600);
+    *w++ = ':';
+    w = put2(w, sec_of_day / 60 % 60);
+    *w++ = ':';
+    w = put2(w, sec_of_day % 60);
+    if (ms != 0) {
+        *w++ = '.';
+        *w++ = (char)('0' + ms / 100);
+        w = put2(w, ms % 100);
+    }
+    *w++ = sign;
+    w = put2(w, (int)(aoff / 3600));
+    *w++ = ':';
+    w = put2(w, (int)(aoff / 60 % 60));
+    if (aoff % 60 != 0) {
+        *w++ = ':';
+        w = put2(w, (int)(aoff % 60));
+    }
+    len = (size_t)(w - text);
+    if (n > 0) {
+        size_t k = len < n - 1 ? len : n - 1;
+        memcpy(buf, text, k);
+        buf[k] = '\0';
+    }
+    return (int)len;
+}
+
+int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
+{
+    return format_at_offset(buf, n, t, sw_zone_offset_at(zone, t));
 }
 
 /* The instant of local midnight starting day `day`: the first instant
