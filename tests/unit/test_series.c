@@ -1149,6 +1149,43 @@ static void test_error_nonexistent_file(void **state)
     sw_reader_free(NULL);
 }
 
+/* Runs of plain lines are parsed in one piece: blank lines inside them
+ * (also lines of tabs in a tab-delimited file), and the lines the
+ * line-by-line path takes between them (a comment, a CRLF line, a quoted
+ * field over two lines), keep every later line number right. */
+static void test_plain_runs_count_lines(void **state)
+{
+    outcome o;
+    sw_reader_config cfg;
+    sw_column_config col[2];
+    const char *text = "time\theadwater\ttailwater\tnote\n"
+                       "2025-01-01T00:00:00Z\t2.385\t1.75\t\n"
+                       "\t\t\t\n"
+                       "   \n"
+                       "\n"
+                       "2025-01-01T00:15:00Z\t2.391\tbad1\t\n"
+                       "# a comment\n"
+                       "2025-01-01T00:30:00Z\t2.397\t1.76\t\r\n"
+                       "2025-01-01T00:45:00Z\t2.4\t1.77\t\"two\nlines\"\n"
+                       " \t \n"
+                       "2025-01-01T01:00:00Z\t2.403\tbad2\tx\n"
+                       "2025-01-01T01:15:00Z\t2.409\t1.78\n"
+                       "2025-01-01T01:30:00Z\t2.415\n";
+    (void)state;
+
+    default_config(&cfg);
+    set_column(&col[0], "headwater");
+    set_column(&col[1], "tailwater");
+    read_all(text, &cfg, col, 2, &o);
+    assert_int_equal(o.n, 6);
+    assert_true(o.t[4] == t_2025 + MS(3600));
+    assert_close(o.v[4][0], 2.403, 1e-15);
+    assert_true(isnan(o.v[4][1]));
+    expect_reject(&o.stats.column[1], 0, 6, 3, "bad1", "not a number");
+    expect_reject(&o.stats.column[1], 1, 12, 3, "bad2", "not a number");
+    expect_next_error(&o, SW_EDATA, 14, 3, "has 2 fields");
+}
+
 static void test_error_is_sticky(void **state)
 {
     fixture f;
@@ -1220,6 +1257,7 @@ int main(void)
         cmocka_unit_test(test_error_open_quote_runs_on),
         cmocka_unit_test(test_error_nonexistent_file),
         cmocka_unit_test(test_error_is_sticky),
+        cmocka_unit_test(test_plain_runs_count_lines),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
