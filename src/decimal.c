@@ -227,27 +227,30 @@ static void canonical(const scanned *s, char *buf)
 static int plain_level(const char *p, const char *end, int allow_comma,
                        double *out)
 {
+    const char *start;
     uint64_t m = 0;
-    int digits = 0, frac = -1, negative = 0;
+    int negative = 0;
+    long whole, frac = 0;
 
     if (p < end && *p == '-') {
         negative = 1;
         p++;
     }
-    for (; p < end; p++) {
-        unsigned d = (unsigned)(unsigned char)*p - '0';
-        if (d <= 9) {
-            m = m * 10 + d;
-            digits++;
-            if (frac >= 0)
-                frac++;
-        } else if ((*p == '.' || (*p == ',' && allow_comma)) && frac < 0) {
-            frac = 0;
-        } else {
+    /* the digits before the separator, then those after it: two tight
+     * loops rather than one that asks at each digit which side it is on */
+    start = p;
+    for (; p < end && (unsigned)(unsigned char)*p - '0' <= 9u; p++)
+        m = m * 10 + ((unsigned)(unsigned char)*p - '0');
+    whole = p - start;
+    if (p < end && (*p == '.' || (*p == ',' && allow_comma))) {
+        start = ++p;
+        for (; p < end && (unsigned)(unsigned char)*p - '0' <= 9u; p++)
+            m = m * 10 + ((unsigned)(unsigned char)*p - '0');
+        frac = p - start;
+        if (frac == 0)
             return -1;
-        }
     }
-    if (digits == 0 || digits > 15 || frac == 0)
+    if (p != end || whole + frac == 0 || whole + frac > 15)
         return -1;
     double v = frac > 0 ? (double)m / exact_pow10[frac] : (double)m;
     *out = negative ? -v : v;
