@@ -141,6 +141,7 @@ struct sw_reader {
     size_t rec_fields;
     int time_state;
     sw_time_ms rec_t, rec_wall;
+    sw_stamp_memo stamp_memo; /* the date of the last stamp read */
     sw_error time_err;
     double val[SW_SERIES_MAX_COLUMNS];
     unsigned char outcome[SW_SERIES_MAX_COLUMNS];
@@ -409,7 +410,8 @@ static void take_time(sw_reader *r, const char *s, size_t len)
             r->time_state = TIME_INSTANT;
         return;
     }
-    if (sw_stamp_parse(s, len, &st, &r->time_err) != SW_OK) {
+    if (sw_stamp_parse_memo(s, len, &r->stamp_memo, &st, &r->time_err) !=
+        SW_OK) {
         r->time_state = TIME_BAD;
     } else if (st.has_offset) {
         /* The offset is east positive: UTC = wall - offset (ISO 8601). */
@@ -784,9 +786,11 @@ static void on_plain_row(int c, void *data)
     if (r->rec_fields > 0 && (r->delim != '\t' || r->rec_nonempty)) {
         r->q_status = finish_record(r, &keep, &t, &r->q_err);
         if (r->q_status == SW_OK && keep) {
+            double *v = &r->q_v[r->q_n * r->n_columns];
+            /* a loop: memcpy is a call for a few values */
+            for (size_t k = 0; k < r->n_columns; k++)
+                v[k] = r->val[k];
             r->q_t[r->q_n] = t;
-            memcpy(&r->q_v[r->q_n * r->n_columns], r->val,
-                   r->n_columns * sizeof r->val[0]);
             r->q_n++;
         }
     }
@@ -1056,9 +1060,10 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
     }
     while (!r->done) {
         if (r->q_pos < r->q_n) {
+            const double *v = &r->q_v[r->q_pos * r->n_columns];
+            for (size_t k = 0; k < r->n_columns; k++)
+                values[k] = v[k];
             *t = r->q_t[r->q_pos];
-            memcpy(values, &r->q_v[r->q_pos * r->n_columns],
-                   r->n_columns * sizeof *values);
             r->q_pos++;
             *has_row = 1;
             return SW_OK;

@@ -994,38 +994,13 @@ static int two_digits(const char *p)
     return (a > 9u || b > 9u) ? -1 : (int)(a * 10u + b);
 }
 
-/* The shapes are checked at fixed positions, digit by digit, without
- * sscanf or strtol: this runs once per record of a level file. */
-int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
+/* The date YYYY-MM-DD at the start of the n bytes at p: its day number
+ * in *days, or SW_EDATA with a message as sw_stamp_parse() gives it. */
+static int read_date(const char *p, size_t n, int64_t *days, sw_error *err)
 {
-    const char *p = text, *end = text + len;
-    size_t n, i;
-    int year, month, day, hour, minute, second = 0, ms = 0, dim;
-    int frac_nonzero = 0;
+    int year, month, day, dim;
     unsigned y0, y1, y2, y3;
-    sw_stamp st;
 
-    if (text == NULL || len == 0)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp is empty; expected "
-                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
-    while (p < end && is_blank(*p))
-        p++;
-    while (end > p && is_blank(end[-1]))
-        end--;
-    n = (size_t)(end - p);
-    if (n == 0)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp is blank; expected "
-                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
-    /* A NUL byte would cut the text quoted in any message below short
-     * (a binary field was quoted as ''): name it instead. */
-    if (memchr(p, '\0', n) != NULL)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp holds a NUL byte (is this a text "
-                            "file?)");
-
-    /* YYYY-MM-DD */
     if (n < 10) {
         if (n >= 4 && digit(p[0]) <= 9u && digit(p[1]) <= 9u
             && digit(p[2]) <= 9u && digit(p[3]) <= 9u)
@@ -1068,6 +1043,60 @@ int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
                             "%d days",
                             q.len, p, q.more, day, month_names[month - 1],
                             year, dim);
+    }
+
+    *days = sw_days_from_civil(year, month, day);
+    return SW_OK;
+}
+
+/* sw_stamp_parse(), with the date's day number taken from `memo` (which
+ * may be NULL) when the date's ten bytes are those it holds, and kept
+ * there when not.  The shapes are checked at fixed positions, digit by
+ * digit, without sscanf or strtol: this runs once per record of a level
+ * file. */
+static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
+                       sw_stamp *out, sw_error *err)
+{
+    const char *p = text, *end = text + len;
+    size_t n, i;
+    int hour, minute, second = 0, ms = 0;
+    int frac_nonzero = 0;
+    int64_t days = 0;
+    sw_stamp st;
+
+    if (text == NULL || len == 0)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp is empty; expected "
+                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
+    while (p < end && is_blank(*p))
+        p++;
+    while (end > p && is_blank(end[-1]))
+        end--;
+    n = (size_t)(end - p);
+    if (n == 0)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp is blank; expected "
+                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
+    /* A NUL byte would cut the text quoted in any message below short
+     * (a binary field was quoted as ''): name it instead. */
+    if (memchr(p, '\0', n) != NULL)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp holds a NUL byte (is this a text "
+                            "file?)");
+
+    /* YYYY-MM-DD, read already when the memo holds it */
+    if (memo != NULL && memo->valid && n >= 10 &&
+        memcmp(p, memo->date, sizeof memo->date) == 0) {
+        days = memo->days;
+    } else {
+        int rc = read_date(p, n, &days, err);
+        if (rc != SW_OK)
+            return rc;
+        if (memo != NULL) {
+            memcpy(memo->date, p, sizeof memo->date);
+            memo->days = days;
+            memo->valid = 1;
+        }
     }
 
     /* 'T' or ' ', then hh:mm */
@@ -1178,11 +1207,22 @@ int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
 
     /* A 60th second and 24:00 need no special case: the sum below simply
      * runs into the next minute or day. */
-    st.wall_ms = sw_days_from_civil(year, month, day) * MS_PER_DAY
+    st.wall_ms = days * MS_PER_DAY
                  + ((int64_t)(hour * 60 + minute) * 60 + second) * SW_MS_PER_S
                  + ms;
     *out = st;
     return SW_OK;
+}
+
+int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
+{
+    return stamp_parse(text, len, NULL, out, err);
+}
+
+int sw_stamp_parse_memo(const char *text, size_t len, sw_stamp_memo *memo,
+                        sw_stamp *out, sw_error *err)
+{
+    return stamp_parse(text, len, memo, out, err);
 }
 
 int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,
