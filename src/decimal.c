@@ -257,15 +257,22 @@ static int plain_level(const char *p, const char *end, int allow_comma,
     return 0;
 }
 
-int sw_decimal_parse(const char *text, size_t len, int allow_comma,
-                     double *out)
+/* Everything plain_level() leaves: kept out of line, so that the short
+ * path's caller needs neither this one's digit buffer nor its stack
+ * guard, at every field of a level file. */
+static int parse_general(const char *text, size_t len, int allow_comma,
+                         double *out)
+#if defined(__GNUC__)
+    __attribute__((noinline))
+#endif
+    ;
+
+static int parse_general(const char *text, size_t len, int allow_comma,
+                         double *out)
 {
     scanned s;
     double value;
 
-    if (text != NULL && len > 0 && len <= 17 &&
-        plain_level(text, text + len, allow_comma, out) == 0)
-        return 0;
     if (text == NULL || scan_number(text, text + len, allow_comma, &s) != 0)
         return -1;
     if (s.n_sig == 0) {
@@ -295,4 +302,13 @@ int sw_decimal_parse(const char *text, size_t len, int allow_comma,
     }
     *out = value;
     return 0;
+}
+
+int sw_decimal_parse(const char *text, size_t len, int allow_comma,
+                     double *out)
+{
+    if (text != NULL && len > 0 && len <= 17 &&
+        plain_level(text, text + len, allow_comma, out) == 0)
+        return 0;
+    return parse_general(text, len, allow_comma, out);
 }

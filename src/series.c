@@ -184,7 +184,7 @@ static int is_blank(char c)
     return c == ' ' || c == '\t';
 }
 
-static void trim(const char **s, size_t *len)
+static inline void trim(const char **s, size_t *len)
 {
     const char *p = *s;
     size_t n = *len;
