@@ -1102,6 +1102,37 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
     return SW_OK;
 }
 
+int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
+                        double *values, size_t *n, sw_error *err)
+{
+    sw_reader *r = reader;
+    size_t nc = r->n_columns;
+    int has_row, rc;
+
+    *n = 0;
+    while (*n < max) {
+        size_t avail = r->q_n - r->q_pos;
+        if (avail > 0) {
+            /* a plain run's queue: in blocks */
+            size_t take = avail < max - *n ? avail : max - *n;
+            memcpy(&t[*n], &r->q_t[r->q_pos], take * sizeof *t);
+            if (nc > 0)
+                memcpy(&values[*n * nc], &r->q_v[r->q_pos * nc],
+                       take * nc * sizeof *values);
+            r->q_pos += take;
+            *n += take;
+            continue;
+        }
+        rc = sw_reader_next(r, &has_row, &t[*n], &values[*n * nc], err);
+        if (rc != SW_OK)
+            return *n > 0 ? SW_OK : rc; /* sticky: the next call has it */
+        if (!has_row)
+            break;
+        (*n)++;
+    }
+    return SW_OK;
+}
+
 const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader)
 {
     return &reader->stats;

@@ -260,19 +260,19 @@ static void *read_ahead(void *arg)
             return NULL;
 
         batch *bt = &rs->b[tail];
-        bt->n = 0;
-        bt->status = SW_OK;
         bt->eof = 0;
-        while (bt->n < rs->batch_rows) {
-            int has_row = 0;
-            bt->status = sw_reader_next(rs->rd, &has_row, &bt->t[bt->n],
-                                        &bt->v[bt->n * rs->n_cols], &bt->err);
-            if (bt->status != SW_OK || !has_row) {
-                bt->eof = 1;
-                break;
-            }
-            bt->n++;
+        bt->status = sw_reader_next_rows(rs->rd, rs->batch_rows, bt->t, bt->v,
+                                         &bt->n, &bt->err);
+        if (bt->status == SW_OK && bt->n < rs->batch_rows) {
+            /* a short batch: the file ends after it, or an error follows
+             * it, which this call returns */
+            size_t none;
+            bt->status = sw_reader_next_rows(rs->rd, 1, &bt->t[bt->n],
+                                             &bt->v[bt->n * rs->n_cols],
+                                             &none, &bt->err);
         }
+        if (bt->status != SW_OK || bt->n < rs->batch_rows)
+            bt->eof = 1;
         pthread_mutex_lock(&rs->mu);
         rs->count++;
         pthread_cond_signal(&rs->cv);
