@@ -2,32 +2,121 @@
 #include "sillwatch/report.h"
 
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
+#include <string.h>
 
 long long sw_report_hours4(sw_time_ms ms)
 {
     return (long long)((ms + 180) / 360); /* 0.0001 h = 360 ms */
 }
 
-static void hours(FILE *fp, long long h4)
+/* Rows are built in a buffer and written at once.  Numbers are written by
+ * hand: printf was most of the cost of a row, and a long replay writes
+ * tens of thousands of event rows.  The text is exactly printf's. */
+
+/* The longest text put_fixed() writes: printf's "%.4f" of DBL_MAX. */
+#define FIXED_MAX 330
+
+/* An instant's text (sw_time_format's longest is far below this). */
+#define INSTANT_MAX 64
+
+/* The decimal digits of v (v >= 0) at w, at least `width` of them. */
+static char *put_uint(char *w, unsigned long long v, int width)
 {
-    fprintf(fp, "%s%lld.%04lld", h4 < 0 ? "-" : "", llabs(h4) / 10000,
-            llabs(h4) % 10000);
+    char tmp[24];
+    int n = 0;
+
+    do {
+        tmp[n++] = (char)('0' + v % 10);
+        v /= 10;
+    } while (v > 0);
+    while (n < width)
+        tmp[n++] = '0';
+    while (n > 0)
+        *w++ = tmp[--n];
+    return w;
 }
 
-static void instant(FILE *fp, sw_time_ms t, const sw_zone *zone)
+static char *put_text(char *w, const char *s)
 {
-    char buf[64];
-    sw_time_format(buf, sizeof buf, t, zone);
-    fputs(buf, fp);
+    while (*s != '\0')
+        *w++ = *s++;
+    return w;
 }
 
-static void factor(FILE *fp, double fs)
+/* x as printf's "%.<digits>f" writes it (digits 0..4): the exact binary
+ * value rounded to the nearest multiple of 10^-digits, ties to even, with
+ * the sign of x (also for a negative zero).  For x = m * 2^e (m < 2^53),
+ * x * 10^digits = m * 5^digits * 2^(e + digits), an integer shifted,
+ * which fits 64 bits (5^4 < 2^10); the shifted-out bits decide the
+ * rounding.  Values not finite or beyond 10^11 go to snprintf. */
+static char *put_fixed(char *w, double x, int digits)
+{
+    static const unsigned pow5[5] = {1, 5, 25, 125, 625};
+    static const unsigned pow10[5] = {1, 10, 100, 1000, 10000};
+    uint64_t bits, m, n, q;
+    int e, s;
+
+    if (!isfinite(x) || fabs(x) >= 1e11) {
+        int k = snprintf(w, FIXED_MAX, "%.*f", digits, x);
+        return w + (k < 0 ? 0 : k >= FIXED_MAX ? FIXED_MAX - 1 : k);
+    }
+    memcpy(&bits, &x, sizeof bits);
+    e = (int)((bits >> 52) & 0x7ff);
+    m = bits & ((UINT64_C(1) << 52) - 1);
+    if (e == 0) {
+        e = -1074; /* subnormal */
+    } else {
+        m |= UINT64_C(1) << 52;
+        e -= 1075;
+    }
+    n = m * pow5[digits];
+    s = -(e + digits);
+    if (s <= 0) {
+        q = n << -s; /* below 10^15: no bits lost */
+    } else if (s >= 64) {
+        q = 0; /* n < 2^63 <= half a unit */
+    } else {
+        uint64_t rest = n & ((UINT64_C(1) << s) - 1);
+        uint64_t half = UINT64_C(1) << (s - 1);
+        q = n >> s;
+        if (rest > half || (rest == half && (q & 1u)))
+            q++;
+    }
+    if (bits >> 63)
+        *w++ = '-';
+    w = put_uint(w, q / pow10[digits], 1);
+    if (digits > 0) {
+        *w++ = '.';
+        w = put_uint(w, q % pow10[digits], digits);
+    }
+    return w;
+}
+
+static char *put_hours(char *w, long long h4)
+{
+    unsigned long long a = h4 < 0 ? 0ull - (unsigned long long)h4
+                                  : (unsigned long long)h4;
+
+    if (h4 < 0)
+        *w++ = '-';
+    w = put_uint(w, a / 10000, 1);
+    *w++ = '.';
+    return put_uint(w, a % 10000, 4);
+}
+
+static char *put_instant(char *w, sw_time_ms t, const sw_zone *zone)
+{
+    int k = sw_time_format(w, INSTANT_MAX, t, zone);
+    return w + (k < 0 ? 0 : k >= INSTANT_MAX ? INSTANT_MAX - 1 : k);
+}
+
+static char *put_factor(char *w, double fs)
 {
     if (isinf(fs))
-        fputs(fs > 0 ? "inf" : "-inf", fp);
-    else
-        fprintf(fp, "%.4f", fs);
+        return put_text(w, fs > 0 ? "inf" : "-inf");
+    return put_fixed(w, fs, 4);
 }
 
 const char *sw_report_end_name(sw_event_end why)
@@ -48,47 +137,66 @@ void sw_report_summary_header(FILE *fp)
 }
 
 /* The hour columns shared by the summary and the months. */
-static void tally_hours(FILE *fp, sw_time_ms span, const sw_tally *t)
+static char *put_tally_hours(char *w, sw_time_ms span, const sw_tally *t)
 {
     long long ev = sw_report_hours4(t->evaluated);
     long long lo = sw_report_hours4(t->low), op = sw_report_hours4(t->open);
-    hours(fp, ev);
-    fputc(',', fp);
-    hours(fp, sw_report_hours4(span) - ev);
-    fputc(',', fp);
-    hours(fp, lo);
-    fputc(',', fp);
-    hours(fp, op);
-    fputc(',', fp);
-    hours(fp, lo + op);
-    fprintf(fp, ",%ld,", t->events);
+    w = put_hours(w, ev);
+    *w++ = ',';
+    w = put_hours(w, sw_report_hours4(span) - ev);
+    *w++ = ',';
+    w = put_hours(w, lo);
+    *w++ = ',';
+    w = put_hours(w, op);
+    *w++ = ',';
+    w = put_hours(w, lo + op);
+    *w++ = ',';
+    if (t->events < 0) {
+        *w++ = '-';
+        w = put_uint(w, 0ull - (unsigned long long)t->events, 1);
+    } else {
+        w = put_uint(w, (unsigned long long)t->events, 1);
+    }
+    *w++ = ',';
+    return w;
 }
 
-static void min_fs(FILE *fp, const sw_tally *t, const sw_zone *zone)
+static char *put_min_fs(char *w, const sw_tally *t, const sw_zone *zone)
 {
     if (t->evaluated == 0 && isinf(t->min_fs) && t->min_fs > 0) {
-        fputc(',', fp); /* never evaluated */
-        return;
+        *w++ = ','; /* never evaluated */
+        return w;
     }
-    factor(fp, t->min_fs);
+    w = put_factor(w, t->min_fs);
+    *w++ = ',';
+    return put_instant(w, t->min_fs_t, zone);
+}
+
+/* The gate's name, a comma, and the rest of the row from line[0..w). */
+static void write_row(FILE *fp, const char *gate, const char *line,
+                      const char *w)
+{
+    fputs(gate, fp);
     fputc(',', fp);
-    instant(fp, t->min_fs_t, zone);
+    fwrite(line, 1, (size_t)(w - line), fp);
 }
 
 void sw_report_summary_row(FILE *fp, const char *gate, sw_time_ms start,
                            sw_time_ms end, const sw_tally *t,
                            const sw_zone *zone)
 {
-    fprintf(fp, "%s,", gate);
-    instant(fp, start, zone);
-    fputc(',', fp);
-    instant(fp, end, zone);
-    fputc(',', fp);
-    tally_hours(fp, end - start, t);
-    hours(fp, sw_report_hours4(t->longest_event));
-    fputc(',', fp);
-    min_fs(fp, t, zone);
-    fputc('\n', fp);
+    char line[4 * INSTANT_MAX + 2 * FIXED_MAX + 256], *w = line;
+
+    w = put_instant(w, start, zone);
+    *w++ = ',';
+    w = put_instant(w, end, zone);
+    *w++ = ',';
+    w = put_tally_hours(w, end - start, t);
+    w = put_hours(w, sw_report_hours4(t->longest_event));
+    *w++ = ',';
+    w = put_min_fs(w, t, zone);
+    *w++ = '\n';
+    write_row(fp, gate, line, w);
 }
 
 void sw_report_events_header(FILE *fp)
@@ -100,18 +208,27 @@ void sw_report_events_header(FILE *fp)
 void sw_report_event_row(FILE *fp, const char *gate, const sw_event *ev,
                          const sw_zone *zone)
 {
-    fprintf(fp, "%s,", gate);
-    instant(fp, ev->start, zone);
-    fputc(',', fp);
-    instant(fp, ev->end, zone);
-    fputc(',', fp);
-    hours(fp, sw_report_hours4(ev->end - ev->start));
-    fprintf(fp, ",%s,", sw_state_name(ev->worst));
-    factor(fp, ev->min_fs);
-    fputc(',', fp);
-    instant(fp, ev->min_fs_t, zone);
-    fprintf(fp, ",%.4f,%.4f,%s\n", ev->hw_at_min_m, ev->tw_at_min_m,
-            sw_report_end_name(ev->ends));
+    char line[4 * INSTANT_MAX + 4 * FIXED_MAX + 128], *w = line;
+
+    w = put_instant(w, ev->start, zone);
+    *w++ = ',';
+    w = put_instant(w, ev->end, zone);
+    *w++ = ',';
+    w = put_hours(w, sw_report_hours4(ev->end - ev->start));
+    *w++ = ',';
+    w = put_text(w, sw_state_name(ev->worst));
+    *w++ = ',';
+    w = put_factor(w, ev->min_fs);
+    *w++ = ',';
+    w = put_instant(w, ev->min_fs_t, zone);
+    *w++ = ',';
+    w = put_fixed(w, ev->hw_at_min_m, 4);
+    *w++ = ',';
+    w = put_fixed(w, ev->tw_at_min_m, 4);
+    *w++ = ',';
+    w = put_text(w, sw_report_end_name(ev->ends));
+    *w++ = '\n';
+    write_row(fp, gate, line, w);
 }
 
 void sw_report_steps_header(FILE *fp)
@@ -120,25 +237,42 @@ void sw_report_steps_header(FILE *fp)
           "tw_alarm,tw_open\n", fp);
 }
 
-static void crit(FILE *fp, const sw_crit *c)
+static char *put_crit(char *w, const sw_crit *c)
 {
     if (c != NULL && c->kind == SW_CRIT_LEVEL)
-        fprintf(fp, "%.4f", c->level_m);
+        w = put_fixed(w, c->level_m, 4);
+    return w;
 }
 
 void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
                         const sw_gate_result *r, const sw_crit *alarm,
                         const sw_crit *open, const sw_zone *zone)
 {
-    instant(fp, t, zone);
-    fprintf(fp, ",%s,%.4f,%.4f,%.2f,", gate, r->headwater_m, r->tailwater_m,
-            r->net_moment_Nm);
-    factor(fp, r->fs);
-    fprintf(fp, ",%.2f,%s,", r->sill_reaction_N, sw_state_name(r->state));
-    crit(fp, alarm);
-    fputc(',', fp);
-    crit(fp, open);
-    fputc('\n', fp);
+    char line[2 * INSTANT_MAX + 7 * FIXED_MAX + 128], *w = line;
+
+    w = put_instant(w, t, zone);
+    *w++ = ',';
+    fwrite(line, 1, (size_t)(w - line), fp);
+    w = line;
+    *w++ = ',';
+    w = put_fixed(w, r->headwater_m, 4);
+    *w++ = ',';
+    w = put_fixed(w, r->tailwater_m, 4);
+    *w++ = ',';
+    w = put_fixed(w, r->net_moment_Nm, 2);
+    *w++ = ',';
+    w = put_factor(w, r->fs);
+    *w++ = ',';
+    w = put_fixed(w, r->sill_reaction_N, 2);
+    *w++ = ',';
+    w = put_text(w, sw_state_name(r->state));
+    *w++ = ',';
+    w = put_crit(w, alarm);
+    *w++ = ',';
+    w = put_crit(w, open);
+    *w++ = '\n';
+    fputs(gate, fp);
+    fwrite(line, 1, (size_t)(w - line), fp);
 }
 
 void sw_report_months_header(FILE *fp)
@@ -151,12 +285,23 @@ void sw_report_months_header(FILE *fp)
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
                          const sw_zone *zone)
 {
-    fprintf(fp, "%s,%04d-%02d,", gate, m->yyyymm / 100, m->yyyymm % 100);
-    instant(fp, m->start, zone);
-    fputc(',', fp);
-    instant(fp, m->end, zone);
-    fputc(',', fp);
-    tally_hours(fp, m->end - m->start, &m->tally);
-    min_fs(fp, &m->tally, zone);
-    fputc('\n', fp);
+    char line[4 * INSTANT_MAX + 2 * FIXED_MAX + 256], *w = line;
+    int ym = m->yyyymm;
+
+    if (ym >= 0 && ym / 100 <= 9999) {
+        w = put_uint(w, (unsigned long long)(ym / 100), 4);
+        *w++ = '-';
+        w = put_uint(w, (unsigned long long)(ym % 100), 2);
+    } else {
+        w += snprintf(w, 32, "%04d-%02d", ym / 100, ym % 100);
+    }
+    *w++ = ',';
+    w = put_instant(w, m->start, zone);
+    *w++ = ',';
+    w = put_instant(w, m->end, zone);
+    *w++ = ',';
+    w = put_tally_hours(w, m->end - m->start, &m->tally);
+    w = put_min_fs(w, &m->tally, zone);
+    *w++ = '\n';
+    write_row(fp, gate, line, w);
 }

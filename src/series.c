@@ -16,6 +16,13 @@
  *      strict (RFC 4180 quoting; an unterminated quote at the end of the
  *      file is an error).  A quoted field may span lines: the record keeps
  *      the line on which it began.
+ *      Plain runs: after the header, a run of whole lines in the buffer
+ *      holding no quote, no CR and no '#' is handed to libcsv in one call
+ *      (see feed_plain_run()).  There every line is one record or a blank
+ *      line, so the row callback counts the lines; records are finished
+ *      there and queued, and handed out one by one.  A line holding any of
+ *      those bytes, the last partial line, and anything after an error go
+ *      the line-by-line way, so messages name the same line and column.
  *   3. Fields.  libcsv reports neither positions nor field numbers, so the
  *      field callback counts fields; only the time field and the value
  *      fields are converted, right there, while libcsv's buffer is valid.
@@ -30,6 +37,7 @@
  * the rows handed out.
  *
  * Memory: the read buffer (64 KiB, up to 1 MiB + 64 KiB for long lines),
+ * the queue of a plain run (PLAIN_VALUES doubles and times),
  * libcsv's field buffer (bounded through the 4 MiB record limit: below
  * 2 x 4 MiB + 1 MiB, see grow_geometrically()), the header's
  * names while the reader opens, and fixed-size per-column state.  Nothing
@@ -59,6 +67,11 @@
  * taking unbounded memory: the record limit bounds libcsv's field buffer. */
 #define LINE_MAX_BYTES ((size_t)1024 * 1024)
 #define RECORD_MAX_BYTES ((size_t)4 * 1024 * 1024)
+
+/* Values (and as many times) the queue of a plain run holds: 256 KiB in
+ * all.  A record's line has at least two bytes, so a run is cut to twice
+ * the rows the queue holds. */
+#define PLAIN_VALUES 16384
 
 /* Readings beyond this magnitude, in the file's unit, are taken as logger
  * fill values or corrupt numbers rather than water levels (common
@@ -128,6 +141,7 @@ struct sw_reader {
     size_t rec_fields;
     int time_state;
     sw_time_ms rec_t, rec_wall;
+    sw_stamp_memo stamp_memo; /* the date of the last stamp read */
     sw_error time_err;
     double val[SW_SERIES_MAX_COLUMNS];
     unsigned char outcome[SW_SERIES_MAX_COLUMNS];
@@ -145,6 +159,18 @@ struct sw_reader {
     long prev_line;
     double prev_val[SW_SERIES_MAX_COLUMNS];
 
+    /* plain runs: records finished ahead, handed out from the queue */
+    int plain;         /* the header is read: runs may be fed whole */
+    size_t plain_rows; /* the queue's capacity in rows */
+    sw_time_ms *q_t;   /* [plain_rows] */
+    double *q_v;       /* [plain_rows * n_columns] */
+    size_t q_n, q_pos; /* rows queued, next one out */
+    int q_status;      /* an error after the queued rows, SW_OK if none */
+    sw_error q_err;
+    int rec_nonempty;  /* a field of the record has text */
+    int odd_ok;        /* odd[] is valid for this fill of the buffer */
+    size_t odd[3];     /* next quote, CR, '#' at or after some pos (end) */
+
     int done;          /* end of file reached */
     int failed;        /* status of an earlier error, SW_OK if none */
     sw_error saved;    /* that error, handed out again */
@@ -158,7 +184,7 @@ static int is_blank(char c)
     return c == ' ' || c == '\t';
 }
 
-static void trim(const char **s, size_t *len)
+static inline void trim(const char **s, size_t *len)
 {
     const char *p = *s;
     size_t n = *len;
@@ -273,6 +299,7 @@ static int next_line(sw_reader *r, char **line, size_t *len, int *has_nl,
             r->eof = 1;
         }
         r->end += got;
+        r->odd_ok = 0;
         /* A UTF-8 byte-order mark is no part of the first line. */
         if (!r->started && r->end > 0) {
             r->started = 1;
@@ -383,7 +410,8 @@ static void take_time(sw_reader *r, const char *s, size_t len)
             r->time_state = TIME_INSTANT;
         return;
     }
-    if (sw_stamp_parse(s, len, &st, &r->time_err) != SW_OK) {
+    if (sw_stamp_parse_memo(s, len, &r->stamp_memo, &st, &r->time_err) !=
+        SW_OK) {
         r->time_state = TIME_BAD;
     } else if (st.has_offset) {
         /* The offset is east positive: UTC = wall - offset (ISO 8601). */
@@ -698,6 +726,113 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
     return SW_OK;
 }
 
+/* ---- plain runs --------------------------------------------------------- */
+
+/* Where the next byte lies, at or after pos, that only the line-by-line
+ * path handles: a quote, a CR or a '#' (end when there is none).  Each
+ * search is kept until pos passes it, so a fill of the buffer is searched
+ * once for each. */
+static size_t next_odd(sw_reader *r)
+{
+    static const char odd_bytes[3] = {'"', '\r', '#'};
+    size_t first = r->end;
+
+    for (int k = 0; k < 3; k++) {
+        if (!r->odd_ok || r->odd[k] < r->pos) {
+            const char *hit = memchr(r->buf + r->pos, odd_bytes[k],
+                                     r->end - r->pos);
+            r->odd[k] = hit != NULL ? (size_t)(hit - r->buf) : r->end;
+        }
+        if (r->odd[k] < first)
+            first = r->odd[k];
+    }
+    r->odd_ok = 1;
+    return first;
+}
+
+/* Make ready for a record that begins on the next line. */
+static void start_plain_record(sw_reader *r)
+{
+    r->rec_line = r->line + 1;
+    r->rec_fields = 0;
+    r->rec_nonempty = 0;
+    r->time_state = TIME_NONE;
+}
+
+static void on_plain_field(void *s, size_t len, void *data)
+{
+    sw_reader *r = data;
+
+    if (r->q_status != SW_OK)
+        return;
+    if (len > 0)
+        r->rec_nonempty = 1;
+    on_field(s, len, data);
+}
+
+/* The end of a line of a plain run: a blank line (no field; with tab as
+ * the delimiter, only empty fields, as a line of blanks gives), or a
+ * record, finished and queued. */
+static void on_plain_row(int c, void *data)
+{
+    sw_reader *r = data;
+    sw_time_ms t;
+    int keep;
+
+    (void)c;
+    r->line++;
+    if (r->q_status != SW_OK)
+        return;
+    if (r->rec_fields > 0 && (r->delim != '\t' || r->rec_nonempty)) {
+        r->q_status = finish_record(r, &keep, &t, &r->q_err);
+        if (r->q_status == SW_OK && keep) {
+            double *v = &r->q_v[r->q_n * r->n_columns];
+            /* a loop: memcpy is a call for a few values */
+            for (size_t k = 0; k < r->n_columns; k++)
+                v[k] = r->val[k];
+            r->q_t[r->q_n] = t;
+            r->q_n++;
+        }
+    }
+    start_plain_record(r);
+}
+
+/* At a record boundary, hand libcsv the whole lines from pos up to the
+ * first byte only the line-by-line path handles (at most twice the queue's
+ * rows in bytes), and queue their records.  *fed is 0 when there was no
+ * such line. */
+static void feed_plain_run(sw_reader *r, int *fed)
+{
+    size_t lim = next_odd(r), len;
+    const char *run = r->buf + r->pos;
+
+    *fed = 0;
+    if (lim - r->pos > 2 * r->plain_rows)
+        lim = r->pos + 2 * r->plain_rows;
+    len = lim - r->pos;
+    while (len > 0 && run[len - 1] != '\n')
+        len--;
+    if (len == 0)
+        return;
+    *fed = 1;
+    r->q_n = r->q_pos = 0;
+    start_plain_record(r);
+    /* Blank lines are reported as rows of no field (CSV_REPALL_NL), so
+     * that every line is counted. */
+    csv_set_opts(&r->csv, CSV_STRICT | CSV_STRICT_FINI | CSV_REPALL_NL);
+    grow_geometrically(&r->csv, len);
+    size_t done = csv_parse(&r->csv, run, len, on_plain_field, on_plain_row,
+                            r);
+    csv_set_opts(&r->csv, CSV_STRICT | CSV_STRICT_FINI);
+    r->pos += len;
+    if (done != len && r->q_status == SW_OK) {
+        /* without quotes, only a failed allocation stops libcsv */
+        r->q_status = sw_error_set(&r->q_err, SW_ENOMEM, r->path,
+                                   r->line + 1, 0, "out of memory (%s)",
+                                   csv_strerror(csv_error(&r->csv)));
+    }
+}
+
 /* ---- opening ------------------------------------------------------------ */
 
 /* The header's names, quoted and listed, for a message. */
@@ -882,6 +1017,20 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     }
     r->n_needed = last + 1;
 
+    /* Plain runs, where the queue holds a useful number of rows. */
+    r->plain_rows = PLAIN_VALUES / (n_columns + 1);
+    if (r->plain_rows >= 16) {
+        r->q_t = malloc(r->plain_rows * sizeof *r->q_t);
+        r->q_v = malloc(r->plain_rows * (n_columns ? n_columns : 1) *
+                        sizeof *r->q_v);
+        if (r->q_t == NULL || r->q_v == NULL) {
+            rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0,
+                              "out of memory");
+            goto cleanup;
+        }
+        r->plain = 1;
+    }
+
     /* The names are no longer needed. */
     free(r->hdr);
     free(r->hdr_off);
@@ -910,6 +1059,28 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
         return r->failed;
     }
     while (!r->done) {
+        if (r->q_pos < r->q_n) {
+            const double *v = &r->q_v[r->q_pos * r->n_columns];
+            for (size_t k = 0; k < r->n_columns; k++)
+                values[k] = v[k];
+            *t = r->q_t[r->q_pos];
+            r->q_pos++;
+            *has_row = 1;
+            return SW_OK;
+        }
+        if (r->q_status != SW_OK) {
+            r->failed = r->q_status;
+            r->saved = r->q_err;
+            if (err != NULL)
+                *err = r->saved;
+            return r->failed;
+        }
+        if (r->plain && !r->in_record) {
+            int fed;
+            feed_plain_run(r, &fed);
+            if (fed)
+                continue;
+        }
         rc = read_record(r, on_field, &got, &r->saved);
         if (rc == SW_OK && got)
             rc = finish_record(r, &keep, t, &r->saved);
@@ -927,6 +1098,37 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
             *has_row = 1;
             return SW_OK;
         }
+    }
+    return SW_OK;
+}
+
+int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
+                        double *values, size_t *n, sw_error *err)
+{
+    sw_reader *r = reader;
+    size_t nc = r->n_columns;
+    int has_row, rc;
+
+    *n = 0;
+    while (*n < max) {
+        size_t avail = r->q_n - r->q_pos;
+        if (avail > 0) {
+            /* a plain run's queue: in blocks */
+            size_t take = avail < max - *n ? avail : max - *n;
+            memcpy(&t[*n], &r->q_t[r->q_pos], take * sizeof *t);
+            if (nc > 0)
+                memcpy(&values[*n * nc], &r->q_v[r->q_pos * nc],
+                       take * nc * sizeof *values);
+            r->q_pos += take;
+            *n += take;
+            continue;
+        }
+        rc = sw_reader_next(r, &has_row, &t[*n], &values[*n * nc], err);
+        if (rc != SW_OK)
+            return *n > 0 ? SW_OK : rc; /* sticky: the next call has it */
+        if (!has_row)
+            break;
+        (*n)++;
     }
     return SW_OK;
 }
@@ -1004,6 +1206,8 @@ void sw_reader_free(sw_reader *reader)
     free(reader->hdr);
     free(reader->hdr_off);
     free(reader->buf);
+    free(reader->q_t);
+    free(reader->q_v);
     free(reader->path);
     free(reader);
 }

@@ -143,20 +143,33 @@ struct sw_stepper {
 
 /* ---- small containers --------------------------------------------------- */
 
-static int ring_push(ring *q, sample s)
+/* Double the ring's capacity: the rare half of ring_push(), kept out of
+ * line so that the common half stays small enough to be inlined. */
+static int ring_grow(ring *q)
+#if defined(__GNUC__)
+    __attribute__((noinline))
+#endif
+    ;
+
+static int ring_grow(ring *q)
 {
-    if (q->count == q->cap) {
-        size_t cap = q->cap ? 2 * q->cap : 64;
-        sample *items = malloc(cap * sizeof *items);
-        if (items == NULL)
-            return -1;
-        for (size_t i = 0; i < q->count; i++)
-            items[i] = q->items[(q->head + i) & (q->cap - 1)];
-        free(q->items);
-        q->items = items;
-        q->head = 0;
-        q->cap = cap;
-    }
+    size_t cap = q->cap ? 2 * q->cap : 64;
+    sample *items = malloc(cap * sizeof *items);
+    if (items == NULL)
+        return -1;
+    for (size_t i = 0; i < q->count; i++)
+        items[i] = q->items[(q->head + i) & (q->cap - 1)];
+    free(q->items);
+    q->items = items;
+    q->head = 0;
+    q->cap = cap;
+    return 0;
+}
+
+static inline int ring_push(ring *q, sample s)
+{
+    if (q->count == q->cap && ring_grow(q) != 0)
+        return -1;
     q->items[(q->head + q->count) & (q->cap - 1)] = s;
     q->count++;
     return 0;
@@ -247,19 +260,19 @@ static void *read_ahead(void *arg)
             return NULL;
 
         batch *bt = &rs->b[tail];
-        bt->n = 0;
-        bt->status = SW_OK;
         bt->eof = 0;
-        while (bt->n < rs->batch_rows) {
-            int has_row = 0;
-            bt->status = sw_reader_next(rs->rd, &has_row, &bt->t[bt->n],
-                                        &bt->v[bt->n * rs->n_cols], &bt->err);
-            if (bt->status != SW_OK || !has_row) {
-                bt->eof = 1;
-                break;
-            }
-            bt->n++;
+        bt->status = sw_reader_next_rows(rs->rd, rs->batch_rows, bt->t, bt->v,
+                                         &bt->n, &bt->err);
+        if (bt->status == SW_OK && bt->n < rs->batch_rows) {
+            /* a short batch: the file ends after it, or an error follows
+             * it, which this call returns */
+            size_t none;
+            bt->status = sw_reader_next_rows(rs->rd, 1, &bt->t[bt->n],
+                                             &bt->v[bt->n * rs->n_cols],
+                                             &none, &bt->err);
         }
+        if (bt->status != SW_OK || bt->n < rs->batch_rows)
+            bt->eof = 1;
         pthread_mutex_lock(&rs->mu);
         rs->count++;
         pthread_cond_signal(&rs->cv);
@@ -879,8 +892,11 @@ static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
     const point *p = &g->pt[g->cur];
     const sw_gate_bounds *k = &g->bounds;
     double side_p = p->r.headwater_m - p->r.tailwater_m, side = hw - tw;
-    double dh = fmax(g->drift_hw, fabs(hw - p->r.headwater_m));
-    double dt = fmax(g->drift_tw, fabs(tw - p->r.tailwater_m));
+    double ah = fabs(hw - p->r.headwater_m), at = fabs(tw - p->r.tailwater_m);
+    /* levels are never NaN here, so a comparison does what fmax does
+     * (without the call, at every step) */
+    double dh = g->drift_hw > ah ? g->drift_hw : ah;
+    double dt = g->drift_tw > at ? g->drift_tw : at;
     double loss = k->slope_hw * dh + k->slope_tw * dt;
 
     if (st->opt.keep_points || p->state != SW_STATE_OK ||

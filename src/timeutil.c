@@ -994,38 +994,13 @@ static int two_digits(const char *p)
     return (a > 9u || b > 9u) ? -1 : (int)(a * 10u + b);
 }
 
-/* The shapes are checked at fixed positions, digit by digit, without
- * sscanf or strtol: this runs once per record of a level file. */
-int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
+/* The date YYYY-MM-DD at the start of the n bytes at p: its day number
+ * in *days, or SW_EDATA with a message as sw_stamp_parse() gives it. */
+static int read_date(const char *p, size_t n, int64_t *days, sw_error *err)
 {
-    const char *p = text, *end = text + len;
-    size_t n, i;
-    int year, month, day, hour, minute, second = 0, ms = 0, dim;
-    int frac_nonzero = 0;
+    int year, month, day, dim;
     unsigned y0, y1, y2, y3;
-    sw_stamp st;
 
-    if (text == NULL || len == 0)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp is empty; expected "
-                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
-    while (p < end && is_blank(*p))
-        p++;
-    while (end > p && is_blank(end[-1]))
-        end--;
-    n = (size_t)(end - p);
-    if (n == 0)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp is blank; expected "
-                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
-    /* A NUL byte would cut the text quoted in any message below short
-     * (a binary field was quoted as ''): name it instead. */
-    if (memchr(p, '\0', n) != NULL)
-        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
-                            "timestamp holds a NUL byte (is this a text "
-                            "file?)");
-
-    /* YYYY-MM-DD */
     if (n < 10) {
         if (n >= 4 && digit(p[0]) <= 9u && digit(p[1]) <= 9u
             && digit(p[2]) <= 9u && digit(p[3]) <= 9u)
@@ -1068,6 +1043,60 @@ int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
                             "%d days",
                             q.len, p, q.more, day, month_names[month - 1],
                             year, dim);
+    }
+
+    *days = sw_days_from_civil(year, month, day);
+    return SW_OK;
+}
+
+/* sw_stamp_parse(), with the date's day number taken from `memo` (which
+ * may be NULL) when the date's ten bytes are those it holds, and kept
+ * there when not.  The shapes are checked at fixed positions, digit by
+ * digit, without sscanf or strtol: this runs once per record of a level
+ * file. */
+static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
+                       sw_stamp *out, sw_error *err)
+{
+    const char *p = text, *end = text + len;
+    size_t n, i;
+    int hour, minute, second = 0, ms = 0;
+    int frac_nonzero = 0;
+    int64_t days = 0;
+    sw_stamp st;
+
+    if (text == NULL || len == 0)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp is empty; expected "
+                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
+    while (p < end && is_blank(*p))
+        p++;
+    while (end > p && is_blank(end[-1]))
+        end--;
+    n = (size_t)(end - p);
+    if (n == 0)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp is blank; expected "
+                            "YYYY-MM-DD hh:mm[:ss[.fff]][Z|+hh:mm]");
+    /* A NUL byte would cut the text quoted in any message below short
+     * (a binary field was quoted as ''): name it instead. */
+    if (memchr(p, '\0', n) != NULL)
+        return sw_error_set(err, SW_EDATA, NULL, 0, 0,
+                            "timestamp holds a NUL byte (is this a text "
+                            "file?)");
+
+    /* YYYY-MM-DD, read already when the memo holds it */
+    if (memo != NULL && memo->valid && n >= 10 &&
+        memcmp(p, memo->date, sizeof memo->date) == 0) {
+        days = memo->days;
+    } else {
+        int rc = read_date(p, n, &days, err);
+        if (rc != SW_OK)
+            return rc;
+        if (memo != NULL) {
+            memcpy(memo->date, p, sizeof memo->date);
+            memo->days = days;
+            memo->valid = 1;
+        }
     }
 
     /* 'T' or ' ', then hh:mm */
@@ -1178,11 +1207,22 @@ int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
 
     /* A 60th second and 24:00 need no special case: the sum below simply
      * runs into the next minute or day. */
-    st.wall_ms = sw_days_from_civil(year, month, day) * MS_PER_DAY
+    st.wall_ms = days * MS_PER_DAY
                  + ((int64_t)(hour * 60 + minute) * 60 + second) * SW_MS_PER_S
                  + ms;
     *out = st;
     return SW_OK;
+}
+
+int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err)
+{
+    return stamp_parse(text, len, NULL, out, err);
+}
+
+int sw_stamp_parse_memo(const char *text, size_t len, sw_stamp_memo *memo,
+                        sw_stamp *out, sw_error *err)
+{
+    return stamp_parse(text, len, memo, out, err);
 }
 
 int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,
@@ -1242,29 +1282,79 @@ int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,
 
 /* ---- writing and months -------------------------------------------------- */
 
-int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
+/* Two decimal digits of v (0..99) at w. */
+static char *put2(char *w, int v)
 {
-    int32_t off = sw_zone_offset_at(zone, t);
+    w[0] = (char)('0' + v / 10);
+    w[1] = (char)('0' + v % 10);
+    return w + 2;
+}
+
+/* sw_time_format() at a UTC offset of `off` seconds. */
+static int format_at_offset(char *buf, size_t n, sw_time_ms t, int32_t off)
+{
     sw_time_ms local = t + (sw_time_ms)off * SW_MS_PER_S;
     int64_t days = floor_div(local, MS_PER_DAY), y;
     int64_t ms_of_day = local - days * MS_PER_DAY;
     int m, d, sec_of_day = (int)(ms_of_day / 1000), ms = (int)(ms_of_day % 1000);
     int32_t aoff = off < 0 ? -off : off;
     char sign = off < 0 ? '-' : '+';
-    char frac[8] = "", offsec[8] = "";
+    char frac[8] = "", offsec[8] = "", text[48], *w = text;
+    size_t len;
 
     sw_civil_from_days(days, &y, &m, &d);
-    if (ms != 0)
-        snprintf(frac, sizeof frac, ".%03d", ms);
     /* ISO 8601 offsets stop at minutes; the historical local mean times
      * of the tz database (Berlin before 1893: +00:53:28) keep their
      * seconds, so that the text still names the instant exactly. */
-    if (aoff % 60 != 0)
-        snprintf(offsec, sizeof offsec, ":%02d", (int)(aoff % 60));
-    return snprintf(buf, n, "%04" PRId64 "-%02d-%02dT%02d:%02d:%02d%s%c%02d:%02d%s",
-                    y, m, d, sec_of_day / 3600, sec_of_day / 60 % 60,
-                    sec_of_day % 60, frac, sign, (int)(aoff / 3600),
-                    (int)(aoff / 60 % 60), offsec);
+    if (y < 0 || y > 9999 || aoff / 3600 > 99) {
+        if (ms != 0)
+            snprintf(frac, sizeof frac, ".%03d", ms);
+        if (aoff % 60 != 0)
+            snprintf(offsec, sizeof offsec, ":%02d", (int)(aoff % 60));
+        return snprintf(buf, n, "%04" PRId64 "-%02d-%02dT%02d:%02d:%02d%s%c"
+                        "%02d:%02d%s", y, m, d, sec_of_day / 3600,
+                        sec_of_day / 60 % 60, sec_of_day % 60, frac, sign,
+                        (int)(aoff / 3600), (int)(aoff / 60 % 60), offsec);
+    }
+    /* The same text written by hand: a report writes several a row, and
+     * snprintf was most of their cost. */
+    w = put2(w, (int)(y / 100));
+    w = put2(w, (int)(y % 100));
+    *w++ = '-';
+    w = put2(w, m);
+    *w++ = '-';
+    w = put2(w, d);
+    *w++ = 'T';
+    w = put2(w, sec_of_day / 3600);
+    *w++ = ':';
+    w = put2(w, sec_of_day / 60 % 60);
+    *w++ = ':';
+    w = put2(w, sec_of_day % 60);
+    if (ms != 0) {
+        *w++ = '.';
+        *w++ = (char)('0' + ms / 100);
+        w = put2(w, ms % 100);
+    }
+    *w++ = sign;
+    w = put2(w, (int)(aoff / 3600));
+    *w++ = ':';
+    w = put2(w, (int)(aoff / 60 % 60));
+    if (aoff % 60 != 0) {
+        *w++ = ':';
+        w = put2(w, (int)(aoff % 60));
+    }
+    len = (size_t)(w - text);
+    if (n > 0) {
+        size_t k = len < n - 1 ? len : n - 1;
+        memcpy(buf, text, k);
+        buf[k] = '\0';
+    }
+    return (int)len;
+}
+
+int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
+{
+    return format_at_offset(buf, n, t, sw_zone_offset_at(zone, t));
 }
 
 /* The instant of local midnight starting day `day`: the first instant

@@ -107,6 +107,15 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
 int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
                    double *values, sw_error *err);
 
+/* Read up to `max` data records at once: their times in t[0..*n) and
+ * their values in values[i * n_columns + c].  The same records, in the
+ * same order, as *n calls of sw_reader_next(); *n is below `max` only at
+ * the end of the file or before an error.  An error after some records
+ * leaves them in the arrays with SW_OK, and the next call returns it (with
+ * *n = 0); errors as sw_reader_next(). */
+int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
+                        double *values, size_t *n, sw_error *err);
+
 /* The counts so far. */
 const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader);
 

@@ -72,6 +72,21 @@ typedef struct sw_stamp {
  * 13"); the position fields of *err are left empty for the caller. */
 int sw_stamp_parse(const char *text, size_t len, sw_stamp *out, sw_error *err);
 
+/* The date a series of stamps shares, kept by the caller between calls of
+ * sw_stamp_parse_memo(); zero it (valid = 0) before the first. */
+typedef struct sw_stamp_memo {
+    char date[10];      /* YYYY-MM-DD as written */
+    int valid;
+    int64_t days;       /* its day number (sw_days_from_civil) */
+} sw_stamp_memo;
+
+/* sw_stamp_parse(), the same in every result and message, but a date
+ * (the first ten bytes after any blanks) equal to the one in *memo is not
+ * read again: a log holds dozens of stamps a day.  A date read and found
+ * valid is kept in *memo, whatever follows it. */
+int sw_stamp_parse_memo(const char *text, size_t len, sw_stamp_memo *memo,
+                        sw_stamp *out, sw_error *err);
+
 /* Parse Unix seconds (optionally with a fraction) to an instant.  Returns
  * SW_OK or SW_EDATA as above. */
 int sw_unix_parse(const char *text, size_t len, sw_time_ms *out,

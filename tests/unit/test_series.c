@@ -1149,6 +1149,100 @@ static void test_error_nonexistent_file(void **state)
     sw_reader_free(NULL);
 }
 
+/* Runs of plain lines are parsed in one piece: blank lines inside them
+ * (also lines of tabs in a tab-delimited file), and the lines the
+ * line-by-line path takes between them (a comment, a CRLF line, a quoted
+ * field over two lines), keep every later line number right. */
+static void test_plain_runs_count_lines(void **state)
+{
+    outcome o;
+    sw_reader_config cfg;
+    sw_column_config col[2];
+    const char *text = "time\theadwater\ttailwater\tnote\n"
+                       "2025-01-01T00:00:00Z\t2.385\t1.75\t\n"
+                       "\t\t\t\n"
+                       "   \n"
+                       "\n"
+                       "2025-01-01T00:15:00Z\t2.391\tbad1\t\n"
+                       "# a comment\n"
+                       "2025-01-01T00:30:00Z\t2.397\t1.76\t\r\n"
+                       "2025-01-01T00:45:00Z\t2.4\t1.77\t\"two\nlines\"\n"
+                       " \t \n"
+                       "2025-01-01T01:00:00Z\t2.403\tbad2\tx\n"
+                       "2025-01-01T01:15:00Z\t2.409\t1.78\n"
+                       "2025-01-01T01:30:00Z\t2.415\n";
+    (void)state;
+
+    default_config(&cfg);
+    set_column(&col[0], "headwater");
+    set_column(&col[1], "tailwater");
+    read_all(text, &cfg, col, 2, &o);
+    assert_int_equal(o.n, 6);
+    assert_true(o.t[4] == t_2025 + MS(3600));
+    assert_close(o.v[4][0], 2.403, 1e-15);
+    assert_true(isnan(o.v[4][1]));
+    expect_reject(&o.stats.column[1], 0, 6, 3, "bad1", "not a number");
+    expect_reject(&o.stats.column[1], 1, 12, 3, "bad2", "not a number");
+    expect_next_error(&o, SW_EDATA, 14, 3, "has 2 fields");
+}
+
+/* sw_reader_next_rows() hands out what sw_reader_next() does, in chunks,
+ * across plain runs and the lines between them, and then the error. */
+static void test_next_rows_same_as_next(void **state)
+{
+    fixture f;
+    sw_reader_config cfg;
+    sw_column_config col[2];
+    sw_reader *a = NULL, *b = NULL;
+    sw_error ea, eb;
+    const char *text = "time,headwater,tailwater\n"
+                       "2025-01-01T00:00:00Z,2.385,1.75\n"
+                       "2025-01-01T00:15:00Z,2.391,\n"
+                       "# a comment\n"
+                       "2025-01-01T00:30:00Z,\"2.397\",1.76\n"
+                       "2025-01-01T00:45:00Z,2.4,1.77\r\n"
+                       "2025-01-01T01:00:00Z,2.403,x\n"
+                       "2025-01-01T01:15:00Z,2.409,1.78\n"
+                       "2025-01-01T01:30:00Z,2.415,1.79\n"
+                       "2025-01-01T01:15:00Z,2.421,1.80\n";
+    sw_time_ms ta[16], tb[16];
+    double va[32], vb[32];
+    size_t na = 0, nb = 0, got;
+    int has_row = 1, rca, rcb;
+    (void)state;
+
+    fixture_write(&f, text, strlen(text));
+    default_config(&cfg);
+    cfg.path = f.path;
+    set_column(&col[0], "headwater");
+    set_column(&col[1], "tailwater");
+    assert_int_equal(sw_reader_open(&a, &cfg, col, 2, &ea), SW_OK);
+    assert_int_equal(sw_reader_open(&b, &cfg, col, 2, &eb), SW_OK);
+    while ((rca = sw_reader_next(a, &has_row, &ta[na], &va[2 * na], &ea)) ==
+               SW_OK && has_row)
+        na++;
+    while ((rcb = sw_reader_next_rows(b, 3, &tb[nb], &vb[2 * nb], &got,
+                                      &eb)) == SW_OK && got > 0)
+        nb += got;
+    assert_int_equal(na, 7);
+    assert_int_equal(nb, na);
+    assert_int_equal(rca, SW_EDATA);
+    assert_int_equal(rcb, rca);
+    assert_int_equal(got, 0);
+    assert_int_equal(eb.line, ea.line);
+    assert_int_equal(eb.column, ea.column);
+    assert_string_equal(eb.message, ea.message);
+    for (size_t i = 0; i < na; i++) {
+        assert_true(ta[i] == tb[i]);
+        for (size_t c = 0; c < 2; c++)
+            assert_true(va[2 * i + c] == vb[2 * i + c] ||
+                        (isnan(va[2 * i + c]) && isnan(vb[2 * i + c])));
+    }
+    sw_reader_free(a);
+    sw_reader_free(b);
+    unlink(f.path);
+}
+
 static void test_error_is_sticky(void **state)
 {
     fixture f;
@@ -1220,6 +1314,8 @@ int main(void)
         cmocka_unit_test(test_error_open_quote_runs_on),
         cmocka_unit_test(test_error_nonexistent_file),
         cmocka_unit_test(test_error_is_sticky),
+        cmocka_unit_test(test_plain_runs_count_lines),
+        cmocka_unit_test(test_next_rows_same_as_next),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

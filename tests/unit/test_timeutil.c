@@ -1280,6 +1280,46 @@ static void test_duration_errors(void **state)
 #undef UNITS
 }
 
+/* sw_stamp_parse_memo() gives what sw_stamp_parse() gives, result and
+ * message, over stamps that share dates, change them, and fail before,
+ * in and after the date (the memo must not let a bad time through). */
+static void test_stamp_memo_same_as_plain(void **state)
+{
+    static const char *const stamps[] = {
+        "2025-03-30T01:45:00Z", "2025-03-30T02:00:00+02:00",
+        "  2025-03-30 02:15 ", "2025-03-30T25:00:00Z", "2025-03-30T02:3",
+        "2025-03-30", "2025-03-30T24:00:00Z", "2025-03-30T24:00:01Z",
+        "2025-03-31T00:00:00.125Z", "2025-03-31T00:00:00x", "2025-02-29T00:00Z",
+        "2025-03-31T00:15:00-03:30", "2024-02-29T23:59:60Z", "2025-13-01 00:00",
+        "2024-02-29 00:00", "2024-02-29T00:00:00+24:00", "2024-02-29",
+        "2024-02-2", "", "   ", "2024-02-29T12:00:00Z"
+    };
+    sw_stamp_memo memo;
+    (void)state;
+
+    memset(&memo, 0, sizeof memo);
+    for (size_t k = 0; k < sizeof stamps / sizeof stamps[0]; k++) {
+        sw_stamp a, b;
+        sw_error ea, eb;
+        size_t len = strlen(stamps[k]);
+        int ra, rb;
+
+        memset(&a, 0, sizeof a);
+        memset(&b, 0, sizeof b);
+        sw_error_clear(&ea);
+        sw_error_clear(&eb);
+        ra = sw_stamp_parse(stamps[k], len, &a, &ea);
+        rb = sw_stamp_parse_memo(stamps[k], len, &memo, &b, &eb);
+        assert_int_equal(ra, rb);
+        assert_string_equal(ea.message, eb.message);
+        if (ra == SW_OK) {
+            assert_true(a.wall_ms == b.wall_ms);
+            assert_int_equal(a.has_offset, b.has_offset);
+            assert_int_equal(a.offset_s, b.offset_s);
+        }
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -1306,6 +1346,7 @@ int main(void)
                                         scratch_setup, scratch_teardown),
         cmocka_unit_test(test_durations),
         cmocka_unit_test(test_duration_errors),
+        cmocka_unit_test(test_stamp_memo_same_as_plain),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
