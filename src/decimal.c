@@ -296,10 +296,12 @@ static int parse_general(const char *text, size_t len, int allow_comma,
         /* The "C" locale holds (see the top of the file), and the copy has
          * no separator, so strtod reads it the same in any locale. */
         value = strtod(buf, &end);
-        /* A magnitude beyond DBL_MAX is not a usable level: strtod's
-         * HUGE_VAL is reported as "not a number" rather than stored. */
-        if (*end != '\0' || isinf(value))
+        if (*end != '\0')
             return -1;
+        /* A magnitude beyond DBL_MAX is a number but no usable level:
+         * strtod's HUGE_VAL is reported, not stored. */
+        if (isinf(value))
+            return 1;
     }
     *out = value;
     return 0;

@@ -465,9 +465,10 @@ static void take_value(sw_reader *r, int c, const char *s, size_t len)
             return;
         }
     }
-    if (sw_decimal_parse(s, len, r->delim == ';', &v) != 0) {
+    int parsed = sw_decimal_parse(s, len, r->delim == ';', &v);
+    if (parsed < 0) {
         reject_value(r, c, s, len, "not a number");
-    } else if (!isfinite(v) || fabs(v) > LEVEL_MAX_ABS) {
+    } else if (parsed > 0 || !isfinite(v) || fabs(v) > LEVEL_MAX_ABS) {
         reject_value(r, c, s, len, "implausible level (|value| > 100000)");
     } else {
         r->val[c] = v * col->scale + col->offset_m;

@@ -12,8 +12,10 @@
  * (the nearest double, as strtod gives): a fast exact path handles up to
  * 19 significant digits with a power of ten within 10^22 (Clinger 1990,
  * "How to read floating point numbers accurately", PLDI), and everything
- * else falls back to strtod.  Returns 0 and stores the value, or -1 if the
- * text is not such a number (the value is then untouched). */
+ * else falls back to strtod.  Returns 0 and stores the value; 1 if the
+ * text is such a number but its magnitude is beyond the largest double
+ * ("1e400"); -1 if the text is not such a number.  On 1 and -1 the value is
+ * untouched. */
 int sw_decimal_parse(const char *text, size_t len, int allow_comma,
                      double *out);
 
