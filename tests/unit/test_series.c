@@ -747,7 +747,7 @@ static void test_rejected_fields(void **state)
                   "implausible level (|value| > 100000)");
     expect_reject(&o.stats.column[0], 2, 5, 3, "-100000.5",
                   "implausible level (|value| > 100000)");
-    /* Out of the double range: the decimal reader calls it no number. */
+    /* Out of the double range: a number, but no plausible level. */
     expect_reject(&o.stats.column[0], 3, 6, 3, "1e400",
                   "implausible level (|value| > 100000)");
     expect_reject(&o.stats.column[0], 4, 7, 3, "0x1A", "not a number");
