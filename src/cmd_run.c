@@ -118,12 +118,6 @@ static int parse_args(int argc, char **argv, run_opts *o)
     return sw_cli_site_operand("run", argc, argv, o->outdir, &o->site_path);
 }
 
-static void hours_text(char *buf, size_t n, sw_time_ms ms)
-{
-    long long h4 = sw_report_hours4(ms);
-    snprintf(buf, n, "%lld.%04lld", h4 / 10000, h4 % 10000);
-}
-
 static void print_summary(const sw_site *site, const sw_stepper *st)
 {
     sw_time_ms t0, t1;
@@ -132,7 +126,7 @@ static void print_summary(const sw_site *site, const sw_stepper *st)
     sw_stepper_span(st, &t0, &t1);
     sw_time_format(a, sizeof a, t0, site->zone);
     sw_time_format(b, sizeof b, t1, site->zone);
-    hours_text(span, sizeof span, t1 - t0);
+    sw_report_hours_text(span, sizeof span, t1 - t0);
     printf("replay of site '%s': %s to %s (%s h)\n\n", site->name, a, b,
            span);
     printf("%-12s %11s %11s %10s %10s %7s %9s  %-s\n", "gate",
@@ -141,10 +135,10 @@ static void print_summary(const sw_site *site, const sw_stepper *st)
     for (size_t i = 0; i < site->n_gates; i++) {
         const sw_tally *t = sw_stepper_tally(st, i);
         char e[24], n[24], l[24], o[24], fs[24], when[64] = "";
-        hours_text(e, sizeof e, t->evaluated);
-        hours_text(n, sizeof n, (t1 - t0) - t->evaluated);
-        hours_text(l, sizeof l, t->low);
-        hours_text(o, sizeof o, t->open);
+        sw_report_hours_text(e, sizeof e, t->evaluated);
+        sw_report_hours_text(n, sizeof n, (t1 - t0) - t->evaluated);
+        sw_report_hours_text(l, sizeof l, t->low);
+        sw_report_hours_text(o, sizeof o, t->open);
         if (t->evaluated == 0 && isinf(t->min_fs))
             snprintf(fs, sizeof fs, "-");
         else if (isinf(t->min_fs))
@@ -163,7 +157,7 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
     char h[24], when[64];
 
     printf("\ndata quality (gaps are intervals longer than max_gap, %s h):\n",
-           (hours_text(h, sizeof h, site->max_gap_ms), h));
+           (sw_report_hours_text(h, sizeof h, site->max_gap_ms), h));
     for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
         const sw_site_series *sr = sw_stepper_series(st, i);
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
@@ -178,11 +172,11 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
                    rs->duplicates, rs->first_duplicate_line);
         printf("\n");
         if (gs->gaps > 0) {
-            hours_text(h, sizeof h, gs->total);
+            sw_report_hours_text(h, sizeof h, gs->total);
             sw_time_format(when, sizeof when, gs->longest_start, site->zone);
             printf("    %ld gap%s, %s h in all; longest ", gs->gaps,
                    gs->gaps == 1 ? "" : "s", h);
-            hours_text(h, sizeof h, gs->longest);
+            sw_report_hours_text(h, sizeof h, gs->longest);
             printf("%s h from %s\n", h, when);
         }
         for (size_t k = 0; k < cs->n_kept; k++)
@@ -383,7 +377,7 @@ int sw_cmd_run(int argc, char **argv)
             exit_code = SW_EXIT_BELOW;
         if (t->evaluated < t1 - t0 && !o.quiet) {
             char h[24];
-            hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
+            sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
             fprintf(stderr, "sillwatch: warning: gate %s: %s h without level "
                     "data were not evaluated; they are not counted as "
                     "safe\n", site.gates[i].gate.name, h);

@@ -577,20 +577,33 @@ static void escf(FILE *fp, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)))
 #endif
     ;
-static void escf(FILE *fp, const char *fmt, ...)
+static void escv(FILE *fp, const char *fmt, va_list ap)
 {
     char buf[1024];
-    va_list ap;
-    va_start(ap, fmt);
     vsnprintf(buf, sizeof buf, fmt, ap);
-    va_end(ap);
     esc(fp, buf);
 }
 
-static void hours_text(char *buf, size_t n, sw_time_ms ms)
+static void escf(FILE *fp, const char *fmt, ...)
 {
-    long long h4 = sw_report_hours4(ms);
-    snprintf(buf, n, "%lld.%04lld", h4 / 10000, h4 % 10000);
+    va_list ap;
+    va_start(ap, fmt);
+    escv(fp, fmt, ap);
+    va_end(ap);
+}
+
+/* The caution, on one line: its line breaks become spaces. */
+static void put_caution(FILE *fp, const char *caution)
+{
+    char buf[1024];
+    size_t n = strlen(caution);
+    while (n > 0 && caution[n - 1] == '\n')
+        n--;
+    snprintf(buf, sizeof buf, "%.*s", (int)n, caution);
+    for (char *c = buf; *c != '\0'; c++)
+        if (*c == '\n')
+            *c = ' ';
+    esc(fp, buf);
 }
 
 static void fs_text(char *buf, size_t n, double fs)
@@ -906,6 +919,13 @@ static void svg_defs(FILE *fp)
           "</defs></svg>\n", fp);
 }
 
+/* The plot area's border. */
+static void frame_rect(FILE *fp, const frame *f)
+{
+    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
+            "height=\"%.1f\"/>\n", f->x0, f->y0, f->x1 - f->x0, f->y1 - f->y0);
+}
+
 static void clip_rect(FILE *fp, const char *id, const frame *f)
 {
     fprintf(fp, "<clipPath id=\"%s\"><rect x=\"%.1f\" y=\"%.1f\" "
@@ -1011,8 +1031,7 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
     clip_rect(fp, "clip-levels", &f);
     y_axis(fp, &f, step, "level above site datum (m)");
     time_axis(fp, &f, site->zone);
-    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
-            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    frame_rect(fp, &f);
     fputs("<g clip-path=\"url(#clip-levels)\">\n", fp);
     /* the first gate's headwater last, over the others */
     for (size_t i = r->n_lv; i-- > 0;) {
@@ -1113,8 +1132,7 @@ static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
     shade(fp, r, &f, g, nc, F_OPEN, 0, "shade-open", "url(#hatch-open)");
     y_axis(fp, &f, step, "factor of safety (\xE2\x80\x93)");
     time_axis(fp, &f, r->site->zone);
-    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
-            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    frame_rect(fp, &f);
     fprintf(fp, "<g clip-path=\"url(#%s)\">\n", id);
     fprintf(fp, "<line class=\"req\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
             "y2=\"%.1f\"/>\n", f.x0, fy(&f, req), f.x1, fy(&f, req));
@@ -1228,8 +1246,7 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
     fputs("</g>\n", fp);
     x_axis(fp, &f, sx, "headwater (m)");
     y_axis(fp, &f, sy, "tailwater (m)");
-    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
-            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    frame_rect(fp, &f);
     double x = f.x0;
     legend_item(fp, &x, 18, "fill=\"#DCEAF5\" stroke=\"#777777\"", "ok", 1);
     legend_item(fp, &x, 18, "fill=\"#F5C26B\"", "low", 1);
@@ -1316,8 +1333,7 @@ static void chart_months(FILE *fp, const sw_html_report *r)
                     f.y1 + 16, label);
         }
     }
-    fprintf(fp, "<rect class=\"frame\" x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
-            "height=\"%.1f\"/>\n", f.x0, f.y0, f.x1 - f.x0, f.y1 - f.y0);
+    frame_rect(fp, &f);
     fprintf(fp, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" "
             "text-anchor=\"middle\">%s (site time zone)</text>\n",
             (f.x0 + f.x1) / 2, f.y1 + 34, by_year ? "year" : "month");
@@ -1357,12 +1373,12 @@ static void table_summary(FILE *fp, const sw_html_report *r,
           "</tr></thead>\n<tbody>\n", fp);
     for (size_t g = 0; g < r->n_gates; g++) {
         const sw_tally *t = sw_stepper_tally(st, g);
-        hours_text(a, sizeof a, t->evaluated);
-        hours_text(b, sizeof b, (t1 - t0) - t->evaluated);
-        hours_text(c, sizeof c, t->low);
-        hours_text(d, sizeof d, t->open);
-        hours_text(e, sizeof e, t->low + t->open);
-        hours_text(h, sizeof h, t->longest_event);
+        sw_report_hours_text(a, sizeof a, t->evaluated);
+        sw_report_hours_text(b, sizeof b, (t1 - t0) - t->evaluated);
+        sw_report_hours_text(c, sizeof c, t->low);
+        sw_report_hours_text(d, sizeof d, t->open);
+        sw_report_hours_text(e, sizeof e, t->low + t->open);
+        sw_report_hours_text(h, sizeof h, t->longest_event);
         if (t->evaluated == 0 && isinf(t->min_fs)) {
             snprintf(fs, sizeof fs, "\xE2\x80\x93");
             snprintf(when, sizeof when, "\xE2\x80\x93");
@@ -1398,7 +1414,7 @@ static void table_worst(FILE *fp, const sw_html_report *r)
         const sw_event *ev = &r->worst[i];
         when_text(a, sizeof a, ev->start, r->site->zone);
         when_text(b, sizeof b, ev->end, r->site->zone);
-        hours_text(h, sizeof h, ev->end - ev->start);
+        sw_report_hours_text(h, sizeof h, ev->end - ev->start);
         fs_text(fs, sizeof fs, ev->min_fs);
         when_text(when, sizeof when, ev->min_fs_t, r->site->zone);
         fprintf(fp, "<tr class=\"%s\"><td>%zu</td><td>",
@@ -1422,16 +1438,14 @@ static void note_item(FILE *fp, int *any, const char *fmt, ...)
     ;
 static void note_item(FILE *fp, int *any, const char *fmt, ...)
 {
-    char buf[1024];
     va_list ap;
     if (!(*any)++)
         fputs("<p>Notes on the readings (the first ten rejected fields of "
               "each series):</p>\n<ul class=\"rejects\">\n", fp);
-    va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
-    va_end(ap);
     fputs("<li>", fp);
-    esc(fp, buf);
+    va_start(ap, fmt);
+    escv(fp, fmt, ap);
+    va_end(ap);
     fputs("</li>\n", fp);
 }
 
@@ -1440,7 +1454,7 @@ static void table_quality(FILE *fp, const sw_html_report *r,
 {
     char h[32], l[32], when[64];
 
-    hours_text(h, sizeof h, r->site->max_gap_ms);
+    sw_report_hours_text(h, sizeof h, r->site->max_gap_ms);
     fprintf(fp, "<p>A gap is an interval between valid readings longer "
             "than max_gap (%s h); across it the level is unknown and the "
             "hours count as not evaluated, never as safe.</p>\n", h);
@@ -1465,8 +1479,8 @@ static void table_quality(FILE *fp, const sw_html_report *r,
                 "<td>%ld</td><td>%ld</td>", rs->records, cs->valid,
                 cs->missing, cs->rejected, rs->duplicates, gs->gaps);
         if (gs->gaps > 0) {
-            hours_text(h, sizeof h, gs->total);
-            hours_text(l, sizeof l, gs->longest);
+            sw_report_hours_text(h, sizeof h, gs->total);
+            sw_report_hours_text(l, sizeof l, gs->longest);
             when_text(when, sizeof when, gs->longest_start, r->site->zone);
             fprintf(fp, "<td>%s</td><td>%s</td><td>%s</td></tr>\n", h, l,
                     when);
@@ -1666,7 +1680,7 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
     fputs("</h1>\n", fp);
     when_text(a, sizeof a, t0, site->zone);
     when_text(b, sizeof b, t1, site->zone);
-    hours_text(h, sizeof h, t1 - t0);
+    sw_report_hours_text(h, sizeof h, t1 - t0);
     fputs("<p class=\"meta\">", fp);
     escf(fp, "Replay from %s to %s (%s h), times in %s.", a, b, h,
          site->zone != NULL ? sw_zone_name(site->zone) : "UTC");
@@ -1688,12 +1702,12 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
             const sw_tally *t = sw_stepper_tally(st, g);
             if (t->low + t->open == 0)
                 continue;
-            hours_text(h, sizeof h, t->low + t->open);
+            sw_report_hours_text(h, sizeof h, t->low + t->open);
             fputs(any++ ? "; " : "<strong>Below the required margin:</strong> ",
                   fp);
             escf(fp, "gate %s for %s h", site->gates[g].gate.name, h);
             if (t->open > 0) {
-                hours_text(h, sizeof h, t->open);
+                sw_report_hours_text(h, sizeof h, t->open);
                 escf(fp, " (open for %s h)", h);
             }
         }
@@ -1705,19 +1719,14 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
         for (size_t g = 0; g < r->n_gates; g++) {
             const sw_tally *t = sw_stepper_tally(st, g);
             if (t->evaluated < t1 - t0) {
-                hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
+                sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
                 escf(fp, " Gate %s: %s h without level data, not counted as "
                      "safe.", site->gates[g].gate.name, h);
             }
         }
     }
     fputs("</p>\n<p class=\"caution\">", fp);
-    for (const char *c = meta->caution; *c != '\0'; c++) {
-        char one[2] = {*c == '\n' ? ' ' : *c, '\0'};
-        if (*c == '\n' && c[1] == '\0')
-            break;
-        esc(fp, one);
-    }
+    put_caution(fp, meta->caution);
     fputs("</p>\n", fp);
 
     fputs("<h2 id=\"summary\">Summary</h2>\n", fp);
@@ -1780,12 +1789,7 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
     table_gates(fp, r);
 
     fputs("<h2 id=\"caution\">Caution</h2>\n<p>", fp);
-    for (const char *c = meta->caution; *c != '\0'; c++) {
-        char one[2] = {*c == '\n' ? ' ' : *c, '\0'};
-        if (*c == '\n' && c[1] == '\0')
-            break;
-        esc(fp, one);
-    }
+    put_caution(fp, meta->caution);
     fputs(" The model is the hydrostatic one of the README: still water on "
           "both faces of a rigid leaf, no dynamic or impact loads, no "
           "hinge friction, no seal or structural checks.</p>\n"

@@ -106,6 +106,13 @@ static char *put_hours(char *w, long long h4)
     return put_uint(w, a % 10000, 4);
 }
 
+void sw_report_hours_text(char *buf, size_t n, sw_time_ms ms)
+{
+    char tmp[32];
+    *put_hours(tmp, sw_report_hours4(ms)) = '\0';
+    snprintf(buf, n, "%s", tmp);
+}
+
 static char *put_instant(char *w, sw_time_ms t, const sw_zone *zone)
 {
     int k = sw_time_format(w, INSTANT_MAX, t, zone);

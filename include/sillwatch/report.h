@@ -18,6 +18,10 @@
 /* Milliseconds to units of 0.0001 h, rounded half up (ms >= 0). */
 long long sw_report_hours4(sw_time_ms ms);
 
+/* Milliseconds (>= 0) as hours with 4 decimals, as in the CSV outputs
+ * ("83.3265"), into buf[n]. */
+void sw_report_hours_text(char *buf, size_t n, sw_time_ms ms);
+
 void sw_report_summary_header(FILE *fp);
 void sw_report_summary_row(FILE *fp, const char *gate, sw_time_ms start,
                            sw_time_ms end, const sw_tally *t,
