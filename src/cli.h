@@ -77,6 +77,12 @@ int sw_cli_generation_time(char *buf, size_t n);
 extern const char sw_cli_caution[];
 
 /* Commands. */
+/* Print one line saying on which basis the gates' factors of safety are
+ * ("factor of safety on the net water load basis, R / D, for every gate",
+ * or gate by gate where they differ). */
+struct sw_site;
+void sw_cli_print_fs_basis(const struct sw_site *site);
+
 int sw_cmd_check(int argc, char **argv);
 int sw_cmd_point(int argc, char **argv);
 int sw_cmd_run(int argc, char **argv);

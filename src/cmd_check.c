@@ -77,6 +77,8 @@ static void print_gate(const sw_site_gate *sg)
     row("volume", g->volume_m3, "m^3");
     row("extra_moment", g->extra_moment_Nm, "N*m, + holds shut");
     row("required_fs", g->required_fs, "-");
+    printf("    %-20s %14s  %s\n", "fs_basis", sw_fs_basis_name(g->fs_basis),
+           sw_fs_basis_phrase(g->fs_basis));
     row("min_sill_reaction", g->min_sill_reaction_N, "N");
     printf("    %-20s %14s\n", "headwater series",
            sg->headwater[0] ? sg->headwater : "(none)");

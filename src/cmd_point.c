@@ -23,6 +23,11 @@ static const char point_help[] =
     "                      csv: one row per gate (units m, N, N*m)\n"
     "  -h, --help          show this help and exit\n"
     "\n"
+    "The factor of safety is on each gate's fs_basis (site file): net, the\n"
+    "default, is the leaf's own restraint R = weight - buoyancy + extra\n"
+    "over the net water moment D = headwater - tailwater moment;\n"
+    "overturning is the classical Mr / hw_moment.\n"
+    "\n"
     "Exit status: 0 every gate ok, 1 some gate low or open, 2 usage,\n"
     "3 site file, 6 numerical failure; see 'sillwatch --help'.\n"
     "\n";
@@ -132,12 +137,17 @@ static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
     printf("  driving moment        %15.1f N*m (headwater)\n",
            r->hw_moment_Nm);
     printf("  net moment            %15.1f N*m\n", r->net_moment_Nm);
+    printf("  leaf's restraint R    %15.1f N*m (weight - buoyancy + extra)\n",
+           r->restraint_Nm);
+    printf("  net water moment D    %15.1f N*m (headwater - tailwater)\n",
+           r->net_water_moment_Nm);
     if (isinf(r->fs))
-        printf("  factor of safety      %15s     (required %.2f)\n",
-               r->fs > 0 ? "infinite" : "-infinite", g->required_fs);
+        printf("  factor of safety      %15s     (required %.2f; %s)\n",
+               r->fs > 0 ? "infinite" : "-infinite", g->required_fs,
+               sw_fs_basis_phrase(g->fs_basis));
     else
-        printf("  factor of safety      %15.3f     (required %.2f)\n", r->fs,
-               g->required_fs);
+        printf("  factor of safety      %15.3f     (required %.2f; %s)\n",
+               r->fs, g->required_fs, sw_fs_basis_phrase(g->fs_basis));
     printf("  sill reaction         %15.1f N   (minimum %.1f N)\n",
            r->sill_reaction_N, g->min_sill_reaction_N);
     printf("  state                 %s\n", state_words(r->state));

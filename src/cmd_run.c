@@ -150,6 +150,7 @@ static void print_summary(const sw_site *site, const sw_stepper *st)
         printf("%-12s %11s %11s %10s %10s %7ld %9s  %s\n",
                site->gates[i].gate.name, e, n, l, o, t->events, fs, when);
     }
+    sw_cli_print_fs_basis(site);
 }
 
 static void print_quality(const sw_site *site, const sw_stepper *st)

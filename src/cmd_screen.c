@@ -486,6 +486,7 @@ int sw_cmd_screen(int argc, char **argv)
         }
     }
     if (!o.quiet) {
+        sw_cli_print_fs_basis(&site);
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
                "required_max.csv\n", o.outdir);
         fputs(sw_cli_caution, stdout);

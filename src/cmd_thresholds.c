@@ -322,8 +322,12 @@ static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
             site->water[SW_UPSTREAM].rho_kgm3,
             site->water[SW_DOWNSTREAM].rho_kgm3);
     for (size_t g = 0; g < n_gates; g++)
-        fprintf(fp, "# gate %s: required_fs %.6g, min_sill_reaction %.6g N\n",
+        fprintf(fp,
+                "# gate %s: required_fs %.6g on fs_basis %s (%s), "
+                "min_sill_reaction %.6g N\n",
                 gates[g]->name, gates[g]->required_fs,
+                sw_fs_basis_name(gates[g]->fs_basis),
+                sw_fs_basis_phrase(gates[g]->fs_basis),
                 gates[g]->min_sill_reaction_N);
     fputs("# caution: hydrostatic screening only (no waves, surges, debris, "
           "ice or friction);\n#   not a structural assessment; defer to "

@@ -47,6 +47,17 @@ const char *sw_side_name(sw_side side)
     return side == SW_DOWNSTREAM ? "downstream" : "upstream";
 }
 
+const char *sw_fs_basis_name(sw_fs_basis basis)
+{
+    return basis == SW_FS_OVERTURNING ? "overturning" : "net";
+}
+
+const char *sw_fs_basis_phrase(sw_fs_basis basis)
+{
+    return basis == SW_FS_OVERTURNING ? "overturning, Mr / hw_moment"
+                                      : "net water load, R / D";
+}
+
 /* ---- validation --------------------------------------------------------- */
 
 static int bad(sw_error *err, const char **bad_key, const sw_gate *g,
@@ -365,6 +376,33 @@ static sw_side buoyancy_side(const sw_gate *g, double hw, double tw)
                : SW_UPSTREAM;
 }
 
+double sw_gate_fs_denominator(const sw_gate *g, const sw_gate_result *r)
+{
+    return g->fs_basis == SW_FS_OVERTURNING ? r->hw_moment_Nm
+                                            : r->net_water_moment_Nm;
+}
+
+/* The factor of safety on the gate's basis (model document, "Factor of
+ * safety: two bases").  net: R / D where the net water moment D opens
+ * (D > 0); where D <= 0 the waters together hold the leaf shut, and fs is
+ * infinite with the sign of the net moment.  overturning: Mr / hw_moment,
+ * infinite with the sign of Mr where there is no headwater load. */
+static double factor_of_safety(const sw_gate *g, const sw_gate_result *r)
+{
+    double num = g->fs_basis == SW_FS_OVERTURNING ? r->resisting_moment_Nm
+                                                  : r->restraint_Nm;
+    double den = sw_gate_fs_denominator(g, r);
+    double sign = g->fs_basis == SW_FS_OVERTURNING ? r->resisting_moment_Nm
+                                                   : r->net_moment_Nm;
+    if (den > 0.0)
+        return num / den;
+    if (sign > 0.0)
+        return INFINITY;
+    if (sign < 0.0)
+        return -INFINITY;
+    return 0.0;
+}
+
 /* Evaluate with the buoyancy taken in the water `side`; the critical-level
  * searches fix the side to keep each stretch they search continuous. */
 static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
@@ -397,22 +435,18 @@ static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
     out->buoyancy_moment_Nm = out->buoyancy_force_N * out->buoyancy_arm_m;
     out->extra_moment_Nm = g->extra_moment_Nm;
 
-    out->resisting_moment_Nm = out->tw_moment_Nm + out->weight_moment_Nm -
-                               out->buoyancy_moment_Nm + out->extra_moment_Nm;
+    out->restraint_Nm = out->weight_moment_Nm - out->buoyancy_moment_Nm +
+                        out->extra_moment_Nm;
+    out->net_water_moment_Nm = out->hw_moment_Nm - out->tw_moment_Nm;
+    out->resisting_moment_Nm = out->tw_moment_Nm + out->restraint_Nm;
     out->net_moment_Nm = out->resisting_moment_Nm - out->hw_moment_Nm;
-    if (out->hw_moment_Nm > 0.0)
-        out->fs = out->resisting_moment_Nm / out->hw_moment_Nm;
-    else if (out->resisting_moment_Nm > 0.0)
-        out->fs = INFINITY;
-    else if (out->resisting_moment_Nm < 0.0)
-        out->fs = -INFINITY;
-    else
-        out->fs = 0.0;
+    out->fs = factor_of_safety(g, out);
     out->sill_reaction_N = out->net_moment_Nm / g->s_sill_m;
 
     /* one rule for the state, shared with the stepping engine: open where
-     * net <= 0; low where fs < required_fs or the sill reaction is below
-     * its minimum, written as margins so that no division decides */
+     * net <= 0; low where the basis's required-margin test fails or the
+     * sill reaction is below its minimum, written as margins so that no
+     * division decides */
     double m[SW_N_MARGINS];
     sw_gate_margins(g, out, m);
     out->state = sw_gate_state_of(m);
@@ -428,9 +462,9 @@ void sw_gate_evaluate(const sw_gate *g, double hw_m, double tw_m,
 
 /* The margin of a limit, continuous in either level while the buoyancy side
  * is fixed.  open:  net moment (shut while > 0).
- * alarm: min(Mr - required_fs * hw_moment, net - min_sill_reaction * s_sill),
- *        which is >= 0 exactly where fs >= required_fs and the sill
- *        reaction >= its minimum, i.e. where the state is `ok`. */
+ * alarm: min(m[1], net - min_sill_reaction * s_sill) of sw_gate_margins(),
+ *        which is >= 0 exactly where the basis's required-margin test and
+ *        the sill reaction's minimum hold, i.e. where the state is `ok`. */
 typedef struct margin_ctx {
     const sw_gate *gate;
     sw_limit limit;
@@ -443,7 +477,12 @@ void sw_gate_margins(const sw_gate *g, const sw_gate_result *r,
                      double m[SW_N_MARGINS])
 {
     m[0] = r->net_moment_Nm;
-    m[1] = r->resisting_moment_Nm - g->required_fs * r->hw_moment_Nm;
+    /* the required-margin test of the basis, R >= required_fs * D or
+     * Mr >= required_fs * hw_moment, valid for either sign of D */
+    if (g->fs_basis == SW_FS_OVERTURNING)
+        m[1] = r->resisting_moment_Nm - g->required_fs * r->hw_moment_Nm;
+    else
+        m[1] = r->restraint_Nm - g->required_fs * r->net_water_moment_Nm;
     m[2] = r->net_moment_Nm - g->min_sill_reaction_N * g->s_sill_m;
 }
 
@@ -465,11 +504,14 @@ void sw_gate_get_bounds(const sw_gate *g, sw_gate_bounds *b)
      * s0 = (hinge - z) / sin a, has slope rho g V |cos a| s0 / (L sin a)
      * <= rho g V |cot a|, curvature rho g V |cos a| / (L sin^2 a), and
      * its slope falls to 0 where z passes the leaf's far end (s0 = L).
-     * m[1] weighs the headwater moment by required_fs. */
+     * m[1] weighs the headwater moment by required_fs; on the net basis
+ * it weighs the tailwater moment by required_fs too
+ * (R - f D = Mr - f hw_moment + (f - 1) tw_moment). */
     double rho_max = fmax(g->rho_kgm3[SW_UPSTREAM], g->rho_kgm3[SW_DOWNSTREAM]);
     double w_max = g->shape == SW_SHAPE_RECTANGLE ? g->seal_width_m
                                                   : g->diameter_m;
     double fs = fmax(1.0, g->required_fs);
+    double fs_tw = g->fs_basis == SW_FS_NET ? fs : 1.0;
     double cot = fabs(g->cos_a / g->sin_a);
     double buoy_slope = rho_max * g->g_ms2 * g->volume_m3 * cot;
     double buoy_curv = rho_max * g->g_ms2 * g->volume_m3 * fabs(g->cos_a) /
@@ -478,10 +520,12 @@ void sw_gate_get_bounds(const sw_gate *g, sw_gate_bounds *b)
 
     b->slope_hw = fs * g->rho_kgm3[SW_UPSTREAM] * g->g_ms2 * g->first_moment_m3 +
                   buoy_slope;
-    b->slope_tw = g->rho_kgm3[SW_DOWNSTREAM] * g->g_ms2 * g->first_moment_m3 +
+    b->slope_tw = fs_tw * g->rho_kgm3[SW_DOWNSTREAM] * g->g_ms2 *
+                      g->first_moment_m3 +
                   buoy_slope;
     b->curv_hw = fs * g->rho_kgm3[SW_UPSTREAM] * m_curv + buoy_curv;
-    b->curv_tw = g->rho_kgm3[SW_DOWNSTREAM] * m_curv + buoy_curv;
+    b->curv_tw = fs_tw * g->rho_kgm3[SW_DOWNSTREAM] * m_curv + buoy_curv;
+    b->curv_tw_net = g->rho_kgm3[SW_DOWNSTREAM] * m_curv + buoy_curv;
     b->kink = buoy_slope;
     b->kink_level_m = g->leaf_bottom_level_m;
 }
@@ -567,7 +611,10 @@ static double slope_bound(const margin_ctx *c, double level)
     sw_side own = c->vary_tailwater ? SW_DOWNSTREAM : SW_UPSTREAM;
     double rho = g->rho_kgm3[own];
     double k = rho * g->g_ms2 * wetted_first_moment(g, level);
-    if (!c->vary_tailwater && c->limit == SW_LIMIT_ALARM && g->required_fs > 1.0)
+    /* the alarm margin weighs the headwater's moment by required_fs, and
+     * on the net basis the tailwater's too (see sw_gate_get_bounds) */
+    if (c->limit == SW_LIMIT_ALARM && g->required_fs > 1.0 &&
+        (!c->vary_tailwater || g->fs_basis == SW_FS_NET))
         k *= g->required_fs;
     if (c->side == own && g->volume_m3 > 0.0)
         k += rho * g->g_ms2 * g->volume_m3 * fabs(g->cos_a / g->sin_a);

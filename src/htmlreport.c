@@ -1120,8 +1120,8 @@ static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
     if (f.vx1 <= f.vx0)
         f.vx1 = f.vx0 + 1;
 
-    snprintf(label, sizeof label, "Factor of safety of gate %s",
-             gate->name);
+    snprintf(label, sizeof label, "Factor of safety of gate %s (%s)",
+             gate->name, sw_fs_basis_phrase(gate->fs_basis));
     snprintf(id, sizeof id, "fs-%zu", g + 1);
     svg_open(fp, id, 960, 236, label);
     snprintf(id, sizeof id, "clip-fs-%zu", g + 1);
@@ -1553,12 +1553,13 @@ static void param_row(FILE *fp, const char *name, const char *unit,
         case 12: fprintf(fp, "%.3f", q->sill_level_m); break;
         case 13: fprintf(fp, "%.3f", q->seal_top_level_m); break;
         case 14: fprintf(fp, "%.2f", q->required_fs); break;
-        case 15: fprintf(fp, "%.1f", q->min_sill_reaction_N); break;
-        case 16: fprintf(fp, "%.2f / %.2f", q->rho_kgm3[SW_UPSTREAM],
+        case 15: fputs(sw_fs_basis_phrase(q->fs_basis), fp); break;
+        case 16: fprintf(fp, "%.1f", q->min_sill_reaction_N); break;
+        case 17: fprintf(fp, "%.2f / %.2f", q->rho_kgm3[SW_UPSTREAM],
                          q->rho_kgm3[SW_DOWNSTREAM]);
             break;
-        case 17: fprintf(fp, "%.5f", q->g_ms2); break;
-        case 18: esc(fp, sg->headwater); break;
+        case 18: fprintf(fp, "%.5f", q->g_ms2); break;
+        case 19: esc(fp, sg->headwater); break;
         default: esc(fp, sg->tailwater); break;
         }
         fputs("</td>", fp);
@@ -1586,6 +1587,7 @@ static void table_gates(FILE *fp, const sw_html_report *r)
         {"sill level (derived)", "m"},
         {"top of opening level (derived)", "m"},
         {"required factor of safety", "\xE2\x80\x93"},
+        {"factor-of-safety basis (fs_basis)", ""},
         {"least sill reaction", "N"},
         {"water density: upstream / downstream", "kg/m\xC2\xB3"},
         {"gravity", "m/s\xC2\xB2"},
@@ -1749,11 +1751,18 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
         fputs("<figure>\n", fp);
         chart_fs(fp, r, g, t1);
         fputs("<figcaption>", fp);
-        escf(fp, "Gate %s: the factor of safety (resisting over opening "
-             "moment about the hinge) against its required value. Shaded: "
-             "periods below the margin (a column is shaded when any part of "
-             "it was, so no event is lost in drawing) and periods without "
-             "level data.", site->gates[g].gate.name);
+        const sw_gate *q = &site->gates[g].gate;
+        escf(fp, "Gate %s: the factor of safety on the %s basis (%s) "
+             "against its required value. Shaded: periods below the margin "
+             "(a column is shaded when any part of it was, so no event is "
+             "lost in drawing) and periods without level data.",
+             q->name, sw_fs_basis_name(q->fs_basis),
+             q->fs_basis == SW_FS_OVERTURNING
+                 ? "resisting over opening moment about the hinge, the "
+                   "tailwater counted as resisting"
+                 : "the leaf's own restraint over the net water moment, "
+                   "headwater less tailwater; infinite where the waters "
+                   "together hold the leaf shut");
         fputs("</figcaption>\n</figure>\n", fp);
     }
 

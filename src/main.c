@@ -51,6 +51,25 @@ int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
 /* The generation time as ISO 8601 UTC: SOURCE_DATE_EPOCH when set (the
  * reproducible-builds convention: seconds since 1970-01-01T00:00:00Z, a
  * malformed value is an error), else now.  Returns 0 or -1. */
+void sw_cli_print_fs_basis(const sw_site *site)
+{
+    int mixed = 0;
+    for (size_t i = 1; i < site->n_gates; i++)
+        mixed |= site->gates[i].gate.fs_basis != site->gates[0].gate.fs_basis;
+    if (!mixed && site->n_gates > 0) {
+        sw_fs_basis b = site->gates[0].gate.fs_basis;
+        printf("fs basis for every gate: %s (%s)\n", sw_fs_basis_name(b),
+               sw_fs_basis_phrase(b));
+        return;
+    }
+    fputs("fs basis by gate:", stdout);
+    for (size_t i = 0; i < site->n_gates; i++)
+        printf("%s %s %s (%s)", i > 0 ? ";" : "", site->gates[i].gate.name,
+               sw_fs_basis_name(site->gates[i].gate.fs_basis),
+               sw_fs_basis_phrase(site->gates[i].gate.fs_basis));
+    fputc('\n', stdout);
+}
+
 int sw_cli_generation_time(char *buf, size_t n)
 {
     const char *env = getenv("SOURCE_DATE_EPOCH");

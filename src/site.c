@@ -43,7 +43,8 @@ typedef enum key_kind {
     KIND_TEXT,   /* free text, up to SW_SITE_NAME_MAX * 2 - 1 bytes */
     KIND_PATH,   /* a file path, up to SW_ERROR_PATH_MAX - 1 bytes */
     KIND_NAME,   /* a name as for [gate NAME]: letters, digits, _ - . */
-    KIND_SHAPE   /* rectangle | circle */
+    KIND_SHAPE,  /* rectangle | circle */
+    KIND_BASIS   /* net | overturning: the factor of safety's basis */
 } key_kind;
 
 /* When a key must, may or must not be given. */
@@ -85,7 +86,7 @@ typedef struct section_def {
 
 enum site_key {
     SK_NAME, SK_GRAVITY, SK_LATITUDE, SK_ELEVATION, SK_REQUIRED_FS,
-    SK_MIN_SILL_REACTION, SK_MAX_GAP, SK_TIMEZONE, SK_ENSEMBLE, SK_COUNT
+    SK_FS_BASIS, SK_MIN_SILL_REACTION, SK_MAX_GAP, SK_TIMEZONE, SK_ENSEMBLE, SK_COUNT
 };
 
 static const key_def site_keys[SK_COUNT] = {
@@ -105,6 +106,8 @@ static const key_def site_keys[SK_COUNT] = {
     [SK_REQUIRED_FS] = {"required_fs", KIND_NUMBER, NEED_OPTIONAL, "", 1.0,
                         INFINITY, NULL, NULL,
                         "a factor of safety is at least 1"},
+    [SK_FS_BASIS] = {"fs_basis", KIND_BASIS, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
     [SK_MIN_SILL_REACTION] = {"min_sill_reaction", KIND_NUMBER,
                               NEED_OPTIONAL, "N", 0.0, INFINITY, NULL, NULL,
                               "give the least sill reaction accepted, in N"},
@@ -136,7 +139,7 @@ static const key_def water_keys[WK_COUNT] = {
 enum gate_key {
     GK_SHAPE, GK_HINGE_LEVEL, GK_INCLINATION, GK_SEAL_TOP, GK_SEAL_HEIGHT,
     GK_SEAL_WIDTH, GK_DIAMETER, GK_LEAF_LENGTH, GK_MASS, GK_CG_ALONG,
-    GK_CG_OFFSET, GK_VOLUME, GK_EXTRA_MOMENT, GK_REQUIRED_FS,
+    GK_CG_OFFSET, GK_VOLUME, GK_EXTRA_MOMENT, GK_REQUIRED_FS, GK_FS_BASIS,
     GK_MIN_SILL_REACTION, GK_HEADWATER, GK_TAILWATER, GK_COUNT
 };
 
@@ -171,6 +174,8 @@ static const key_def gate_keys[GK_COUNT] = {
                          NO_RANGE, NULL, NULL, NULL},
     [GK_REQUIRED_FS] = {"required_fs", KIND_NUMBER, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
+    [GK_FS_BASIS] = {"fs_basis", KIND_BASIS, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
     [GK_MIN_SILL_REACTION] = {"min_sill_reaction", KIND_NUMBER,
                               NEED_OPTIONAL, "N", NO_RANGE, NULL, NULL,
                               NULL},
@@ -243,6 +248,7 @@ typedef struct slot {
     long line, key_col, val_col;
     double num;                 /* KIND_NUMBER */
     sw_shape shape;             /* KIND_SHAPE */
+    sw_fs_basis basis;          /* KIND_BASIS */
     char text[PATH_SIZE];       /* KIND_TEXT, KIND_NAME, KIND_PATH */
 } slot;
 
@@ -399,6 +405,34 @@ static int fail(parser *p, long line, long col, const char *fmt, ...)
     va_end(ap);
     p->status = sw_error_set(p->err, SW_ESITE, p->path, line, col, "%s", msg);
     return p->status;
+}
+
+/* fs_basis = net | overturning (model document, "Factor of safety: two
+ * bases"); a near miss is named. */
+static int read_basis(parser *p, const char *where, const char *value,
+                      long col, sw_fs_basis *out)
+{
+    static const sw_fs_basis all[] = {SW_FS_NET, SW_FS_OVERTURNING};
+    const char *near = NULL;
+
+    for (size_t i = 0; i < sizeof all / sizeof all[0]; i++) {
+        const char *word = sw_fs_basis_name(all[i]);
+        if (strcmp(value, word) == 0) {
+            *out = all[i];
+            return SW_OK;
+        }
+        if (edit_distance(value, word) <= NEAR_MISS)
+            near = word;
+    }
+    if (near != NULL)
+        return fail(p, p->lineno, col,
+                    "%s: key 'fs_basis': '%.60s' is not a factor-of-safety "
+                    "basis: did you mean '%s'?",
+                    where, value, near);
+    return fail(p, p->lineno, col,
+                "%s: key 'fs_basis': '%.60s' is not a factor-of-safety "
+                "basis: write net (the default) or overturning",
+                where, value);
 }
 
 /* The 1-based column in the physical line of a pointer into the buffer
@@ -831,6 +865,10 @@ static int site_handler(void *user, const char *ini_section, const char *name,
             return 0;
         }
         break;
+    case KIND_BASIS:
+        if (read_basis(p, where, value, val_col, &sl->basis) != SW_OK)
+            return 0;
+        break;
     }
     sl->given = 1;
     sl->line = p->lineno;
@@ -1243,6 +1281,8 @@ static int build_gate(parser *p, const section *s, const section *site_sec,
                                                    : 0;
     g->required_fs = sl[GK_REQUIRED_FS].given ? sl[GK_REQUIRED_FS].num
                                               : site->required_fs;
+    g->fs_basis = sl[GK_FS_BASIS].given ? sl[GK_FS_BASIS].basis
+                                        : site->fs_basis;
     g->min_sill_reaction_N = sl[GK_MIN_SILL_REACTION].given
                                  ? sl[GK_MIN_SILL_REACTION].num
                                  : site->min_sill_reaction_N;
@@ -1314,6 +1354,8 @@ static int resolve(parser *p, sw_site *site)
     }
     if (site_sec != NULL && site_sec->slots[SK_REQUIRED_FS].given)
         site->required_fs = site_sec->slots[SK_REQUIRED_FS].num;
+    if (site_sec != NULL && site_sec->slots[SK_FS_BASIS].given)
+        site->fs_basis = site_sec->slots[SK_FS_BASIS].basis;
     if (site_sec != NULL && site_sec->slots[SK_MIN_SILL_REACTION].given)
         site->min_sill_reaction_N = site_sec->slots[SK_MIN_SILL_REACTION].num;
 
@@ -1395,6 +1437,7 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
 
     snprintf(site->path, sizeof site->path, "%s", path);
     site->required_fs = NAN;
+    site->fs_basis = SW_FS_NET;
     site->min_sill_reaction_N = 0.0;
 
     rc = ini_parse_stream(site_reader, &p, site_handler, &p);

@@ -109,6 +109,8 @@ typedef struct gate_state {
     size_t hw, tw;           /* series indices */
     sw_gate_bounds bounds;
     double rate_hw;          /* bound on d hw_moment / d hw, N*m per m */
+    double rate_tw;          /* the same for the tailwater's moment, where
+                                the basis divides by D; else 0 */
     /* Since the last evaluated point pt[cur] (the anchor), the levels have
      * strayed from it by at most these, without the waters crossing. */
     double drift_hw, drift_tw;
@@ -441,6 +443,10 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
         sw_gate_get_bounds(g->gate, &g->bounds);
         g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
                      g->gate->first_moment_m3;
+        g->rate_tw = g->gate->fs_basis == SW_FS_NET
+                         ? g->gate->rho_kgm3[SW_DOWNSTREAM] *
+                               g->gate->g_ms2 * g->gate->first_moment_m3
+                         : 0.0;
         g->run.min_fs = INFINITY;
         g->month.min_fs = INFINITY;
     }
@@ -716,19 +722,24 @@ static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
 
 /* How far, at most, a margin strays from the straight line between its
  * values at a and b (see the notes at the top). */
-static double stray(const gate_state *g, const point *a, const point *b)
+static void stray(const gate_state *g, const point *a, const point *b,
+                  double e[SW_N_MARGINS])
 {
     const sw_gate_bounds *k = &g->bounds;
     double dh = b->r.headwater_m - a->r.headwater_m;
     double dt = b->r.tailwater_m - a->r.tailwater_m;
-    double e = (k->curv_hw * dh * dh + k->curv_tw * dt * dt) / 8.0;
+    double kink = 0.0;
     /* the water holding the buoyancy (the same at both ends here) */
     int up = a->r.buoyancy_side == SW_UPSTREAM;
     double za = up ? a->r.headwater_m : a->r.tailwater_m;
     double zb = up ? b->r.headwater_m : b->r.tailwater_m;
     if ((za - k->kink_level_m) * (zb - k->kink_level_m) <= 0.0)
-        e += k->kink * fabs(zb - za) / 4.0;
-    return e;
+        kink = k->kink * fabs(zb - za) / 4.0;
+    /* the net moment's margins (0 and 2) and the required-margin test's
+     * (1), which on the net basis bends more with the tailwater */
+    e[0] = e[2] = (k->curv_hw * dh * dh + k->curv_tw_net * dt * dt) / 8.0 +
+                  kink;
+    e[1] = (k->curv_hw * dh * dh + k->curv_tw * dt * dt) / 8.0 + kink;
 }
 
 /* Does the buoyancy change water inside [a, b]?  (a jump in the margins) */
@@ -756,7 +767,7 @@ static int settle_piece(sw_stepper *st, gate_state *g, const point *a,
                         const point *b, int *rc, sw_error *err)
 {
     double span = (double)(b->t - a->t);
-    double e, z0[SW_N_MARGINS], z1[SW_N_MARGINS];
+    double e[SW_N_MARGINS], z0[SW_N_MARGINS], z1[SW_N_MARGINS];
     sw_time_ms cuts[2 * SW_N_MARGINS + 1];
     size_t n_cuts = 0;
 
@@ -768,16 +779,16 @@ static int settle_piece(sw_stepper *st, gate_state *g, const point *a,
     }
     if (side_changes(a, b))
         return 0;
-    e = stray(g, a, b);
+    stray(g, a, b, e);
     for (int k = 0; k < SW_N_MARGINS; k++) {
-        double fa = a->m[k], fb = b->m[k];
+        double fa = a->m[k], fb = b->m[k], ek = e[k];
         z0[k] = z1[k] = -1.0; /* no uncertain stretch (fractions of span) */
-        if ((fa > e && fb > e) || (fa < -e && fb < -e))
+        if ((fa > ek && fb > ek) || (fa < -ek && fb < -ek))
             continue;
-        if (!((fa > e && fb < -e) || (fa < -e && fb > e)))
+        if (!((fa > ek && fb < -ek) || (fa < -ek && fb > ek)))
             return 0; /* near zero at an end: look closer */
-        /* the line is within e of zero for fractions in [z0, z1] */
-        double u0 = (fa - e) / (fa - fb), u1 = (fa + e) / (fa - fb);
+        /* the line is within ek of zero for fractions in [z0, z1] */
+        double u0 = (fa - ek) / (fa - fb), u1 = (fa + ek) / (fa - fb);
         z0[k] = fmin(u0, u1);
         z1[k] = fmax(u0, u1);
         if ((z1[k] - z0[k]) * span > (double)RESOLUTION_MS)
@@ -884,7 +895,8 @@ static int settle(sw_stepper *st, gate_state *g, const point *A,
  * the levels' travel since it can change them (the slope bounds, valid
  * while the waters do not cross), stay positive, so the state is ok
  * throughout; and where the factor of safety cannot have fallen below the
- * least one recorded (fs >= required_fs + m[1] / hw_moment), so that the
+ * least one recorded (fs >= required_fs + m[1] / den, with den the
+ * basis's denominator, sw_gate_fs_denominator()), so that the
  * reported minima are those at every time step.  A quiet stretch then
  * costs no evaluation at all. */
 static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
@@ -905,14 +917,17 @@ static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
     for (int m = 0; m < SW_N_MARGINS; m++)
         if (!(p->m[m] - loss > 0.0))
             return 0;
-    /* fs >= required_fs + (m[1] - loss) / hwm >= min_fs, written without
-     * the division (this runs at every step); an infinite min_fs (nothing
-     * evaluated yet) makes the product infinite or NaN: no skip. */
-    double hwm = p->r.hw_moment_Nm + g->rate_hw * dh;
+    /* fs >= required_fs + (m[1] - loss) / den >= min_fs, with den the
+     * most the basis's denominator (hw_moment, or D = hw_moment -
+     * tw_moment) can reach since the anchor, written without the division
+     * (this runs at every step); an infinite min_fs (nothing evaluated
+     * yet) makes the product infinite or NaN: no skip. */
+    double den = sw_gate_fs_denominator(g->gate, &p->r) + g->rate_hw * dh +
+                 g->rate_tw * dt;
     double spare = p->m[1] - loss;
-    if (!(spare >= (g->run.min_fs - g->gate->required_fs) * hwm) ||
+    if (!(spare >= (g->run.min_fs - g->gate->required_fs) * den) ||
         (st->opt.by_month &&
-         !(spare >= (g->month.min_fs - g->gate->required_fs) * hwm)))
+         !(spare >= (g->month.min_fs - g->gate->required_fs) * den)))
         return 0;
     g->drift_hw = dh;
     g->drift_tw = dt;

@@ -19,6 +19,17 @@ typedef enum sw_shape { SW_SHAPE_RECTANGLE = 0, SW_SHAPE_CIRCLE } sw_shape;
 /* Which water a quantity belongs to. */
 typedef enum sw_side { SW_UPSTREAM = 0, SW_DOWNSTREAM = 1 } sw_side;
 
+/* The basis of the factor of safety (model document, "Factor of safety:
+ * two bases"):
+ *   SW_FS_NET          fs = R / D, the leaf's own restraint
+ *                      R = weight - buoyancy + extra moment against the
+ *                      net water moment D = hw_moment - tw_moment; the
+ *                      default;
+ *   SW_FS_OVERTURNING  fs = Mr / hw_moment, the classical overturning
+ *                      ratio (tailwater counted as a resisting load).
+ * The two agree wherever the tailwater does not reach the opening. */
+typedef enum sw_fs_basis { SW_FS_NET = 0, SW_FS_OVERTURNING } sw_fs_basis;
+
 /* Margin state, in order of increasing trouble. */
 typedef enum sw_state { SW_STATE_OK = 0, SW_STATE_LOW, SW_STATE_OPEN } sw_state;
 
@@ -41,6 +52,7 @@ typedef struct sw_gate {
     double volume_m3;           /* displaced volume of the leaf */
     double extra_moment_Nm;     /* + holds shut */
     double required_fs;         /* factor of safety required, >= 1 */
+    sw_fs_basis fs_basis;       /* what fs and required_fs measure */
     double min_sill_reaction_N; /* least sill reaction accepted, >= 0 */
     double rho_kgm3[2];         /* water density, by sw_side */
     double g_ms2;               /* acceleration of gravity */
@@ -71,8 +83,11 @@ typedef struct sw_gate_result {
     sw_side buoyancy_side;             /* the water taken as displaced */
     double extra_moment_Nm;
     double resisting_moment_Nm;        /* Mr */
-    double net_moment_Nm;              /* Mr - hw_moment */
-    double fs;                         /* Mr / hw_moment; +-inf, see below */
+    double net_moment_Nm;              /* Mr - hw_moment = R - D */
+    double restraint_Nm;               /* R = weight - buoyancy + extra */
+    double net_water_moment_Nm;        /* D = hw_moment - tw_moment */
+    double fs;                         /* on the gate's fs_basis: R / D or
+                                          Mr / hw_moment; +-inf, see below */
     double sill_reaction_N;            /* net / s_sill */
     sw_state state;
 } sw_gate_result;
@@ -94,8 +109,11 @@ void sw_gate_prepare(sw_gate *gate);
 /* Evaluate the gate at headwater `hw_m` and tailwater `tw_m` (elevations,
  * m).  Levels may lie anywhere, below the sill or above the hinge; they must
  * be finite.  Closed forms throughout: no allocation, no iteration.
- * `fs` is Mr/hw_moment; where hw_moment is 0 it is +inf if Mr > 0, -inf if
- * Mr < 0 and 0 if Mr = 0. */
+ * `fs` is on the gate's `fs_basis`:
+ *   SW_FS_NET:         R / D where D > 0; where D <= 0, +inf if the net
+ *                      moment is > 0, -inf if < 0, 0 if = 0;
+ *   SW_FS_OVERTURNING: Mr / hw_moment; where hw_moment is 0, +inf if
+ *                      Mr > 0, -inf if Mr < 0 and 0 if Mr = 0. */
 void sw_gate_evaluate(const sw_gate *gate, double hw_m, double tw_m,
                       sw_gate_result *out);
 
@@ -107,10 +125,13 @@ void sw_gate_water_load(const sw_gate *gate, double level_m, double rho_kgm3,
 
 /* The margins behind the state of a result, N*m:
  *   m[0] = net moment                                  (open where <= 0)
- *   m[1] = Mr - required_fs * hw_moment                (low where < 0)
+ *   m[1] = the required-margin test of the gate's basis (low where < 0):
+ *          SW_FS_NET          R - required_fs * D
+ *          SW_FS_OVERTURNING  Mr - required_fs * hw_moment
  *   m[2] = net - min_sill_reaction * s_sill            (low where < 0)
  * The state is open where m[0] <= 0, else low where m[1] < 0 or m[2] < 0,
- * else ok.  Each is a smooth function of each level (see
+ * else ok.  This is the one place that decides `low`: every command goes
+ * through it.  Each margin is a smooth function of each level (see
  * sw_gate_bounds). */
 #define SW_N_MARGINS 3
 void sw_gate_margins(const sw_gate *gate, const sw_gate_result *r,
@@ -133,6 +154,10 @@ typedef struct sw_gate_bounds {
     double slope_hw, slope_tw;
     double curv_hw, curv_tw;
     double kink, kink_level_m;
+    /* The tailwater's curvature bound of the net moment alone (m[0] and
+     * m[2]); curv_tw bounds every margin, and on the net basis m[1] weighs
+     * the tailwater's moment by required_fs, so curv_tw is larger there. */
+    double curv_tw_net;
 } sw_gate_bounds;
 void sw_gate_get_bounds(const sw_gate *gate, sw_gate_bounds *b);
 
@@ -175,10 +200,20 @@ int sw_gate_critical_tailwater(const sw_gate *gate, double hw_m,
 int sw_gate_critical_headwater(const sw_gate *gate, double tw_m,
                                sw_limit limit, sw_crit *out, sw_error *err);
 
+/* The denominator of fs on the gate's basis, N*m: D (SW_FS_NET) or
+ * hw_moment (SW_FS_OVERTURNING).  Where it is > 0, fs = required_fs +
+ * m[1] / denominator; the stepping engine uses that to bound fs. */
+double sw_gate_fs_denominator(const sw_gate *gate, const sw_gate_result *r);
+
 /* Names for output: "ok", "low", "open"; "rectangle", "circle";
- * "upstream", "downstream". */
+ * "upstream", "downstream"; "net", "overturning". */
 const char *sw_state_name(sw_state state);
 const char *sw_shape_name(sw_shape shape);
 const char *sw_side_name(sw_side side);
+const char *sw_fs_basis_name(sw_fs_basis basis);
+
+/* A phrase saying what fs measures on `basis`, for output beside every
+ * factor of safety: "net water load" or "overturning (Mr / hw_moment)". */
+const char *sw_fs_basis_phrase(sw_fs_basis basis);
 
 #endif

@@ -4,14 +4,16 @@
  * of the model document:
  *
  *   [site]             name, gravity | latitude (+ elevation),
- *                      required_fs, min_sill_reaction, max_gap, timezone,
+ *                      required_fs, fs_basis, min_sill_reaction, max_gap,
+ *                      timezone,
  *                      ensemble
  *   [water upstream]   density | temperature (+ salinity)
  *   [water downstream] density | temperature (+ salinity)
  *   [gate NAME]        shape, hinge_level, inclination, seal_top,
  *                      seal_height, seal_width, diameter, leaf_length, mass,
  *                      cg_along, cg_offset, volume, extra_moment,
- *                      required_fs, min_sill_reaction, headwater, tailwater
+ *                      required_fs, fs_basis, min_sill_reaction, headwater,
+ *                      tailwater
  *   [series NAME]      file, time_column, value_column, time_format,
  *                      offset, unit, missing, delimiter
  *
@@ -70,6 +72,7 @@ typedef struct sw_site {
     double latitude_deg, elevation_m;
     double g_ms2;                   /* the gravity in use */
     double required_fs;             /* site-wide; NAN when not given */
+    sw_fs_basis fs_basis;           /* site-wide; SW_FS_NET when not given */
     double min_sill_reaction_N;     /* site-wide; 0 when not given */
     sw_site_water water[2];         /* indexed by sw_side */
     sw_time_ms max_gap_ms;          /* longest interpolated interval;

@@ -357,8 +357,18 @@ static void test_weight_buoyancy_and_state(void **state)
                  r.tw_moment_Nm + r.weight_moment_Nm - r.buoyancy_moment_Nm + 415.0,
                  1e-13);
     assert_close(r.net_moment_Nm, r.resisting_moment_Nm - r.hw_moment_Nm, 1e-13);
-    assert_close(r.fs, r.resisting_moment_Nm / r.hw_moment_Nm, 1e-13);
+    /* model: R = weight - buoyancy + extra, D = hw_moment - tw_moment */
+    assert_close(r.restraint_Nm,
+                 r.weight_moment_Nm - r.buoyancy_moment_Nm + 415.0, 1e-13);
+    assert_close(r.net_water_moment_Nm, r.hw_moment_Nm - r.tw_moment_Nm,
+                 1e-13);
+    assert_true(r.net_water_moment_Nm > 0.0);
+    assert_close(r.fs, r.restraint_Nm / r.net_water_moment_Nm, 1e-13);
     assert_close(r.sill_reaction_N, r.net_moment_Nm / 2.0, 1e-13);
+    g.fs_basis = SW_FS_OVERTURNING;
+    sw_gate_evaluate(&g, 19.87, 18.42, &r);
+    assert_close(r.fs, r.resisting_moment_Nm / r.hw_moment_Nm, 1e-13);
+    g.fs_basis = SW_FS_NET;
 
     /* dry headwater: fs is infinite and the gate is ok */
     sw_gate_evaluate(&g, 15.0, 15.0, &r);
@@ -395,6 +405,231 @@ static void test_states(void **state)
         }
     }
     assert_true(seen_low);
+}
+
+/* ---- the factor of safety's two bases ----------------------------------- */
+
+static sw_gate random_gate(gsl_rng *rng, int i);
+
+/* A vertical leaf (sin a = 1, cos a = 0) hinged at 14.3 m with a 1.37 m
+ * wide opening from s = 0 to s = 1.86 m: every load can be worked by hand
+ * (common practice, no source: the pressure prism on a vertical plane).
+ * A water at level z whose surface is at s_w = 14.3 - z above the opening's
+ * foot has, over the wetted part s in [max(s_w, 0), H],
+ *   F = rho g w int (s - s_w) ds,  M = rho g w int (s - s_w) s ds. */
+static sw_gate hand_gate(void)
+{
+    sw_gate g = rect_gate(14.3, 90.0, 0.0, 1.86, 1.37);
+    g.mass_kg = 1173.0;
+    g.cg_along_m = 0.93;
+    g.cg_offset_m = 0.071; /* weight moment m g cg_offset */
+    g.extra_moment_Nm = 612.5;
+    g.required_fs = 1.35;
+    g.rho_kgm3[SW_UPSTREAM] = RHO_FRESH;
+    g.rho_kgm3[SW_DOWNSTREAM] = RHO_FRESH;
+    sw_gate_prepare(&g);
+    return g;
+}
+
+/* M of a vertical rectangle from s = 0 to H for a surface at s_w:
+ * wetted from a = max(s_w, 0):  rho g w [s^3/3 - s_w s^2/2] from a to H. */
+static double hand_moment(double s_w, double H, double w)
+{
+    double a = s_w > 0.0 ? s_w : 0.0;
+    if (a >= H)
+        return 0.0;
+    return RHO_FRESH * G * w *
+           ((H * H * H - a * a * a) / 3.0 - s_w * (H * H - a * a) / 2.0);
+}
+
+static void evaluate_on(sw_gate *g, sw_fs_basis basis, double hw, double tw,
+                        sw_gate_result *r)
+{
+    g->fs_basis = basis;
+    sw_gate_evaluate(g, hw, tw, r);
+}
+
+/* Dry tailwater: the two bases agree exactly (model document: "The two
+ * bases agree wherever the tailwater does not reach the sealed opening"). */
+static void test_fs_bases_agree_dry_tailwater(void **state)
+{
+    (void)state;
+    sw_gate g = hand_gate();
+    sw_gate_result n, o;
+    const double hws[] = {12.61, 13.127, 13.884, 14.3, 15.06};
+    for (size_t i = 0; i < sizeof hws / sizeof hws[0]; i++) {
+        evaluate_on(&g, SW_FS_NET, hws[i], 11.9, &n);
+        evaluate_on(&g, SW_FS_OVERTURNING, hws[i], 11.9, &o);
+        assert_true(n.tw_moment_Nm == 0.0);
+        assert_true(n.fs == o.fs); /* exactly */
+        assert_int_equal(n.state, o.state);
+        /* R = m g cg_offset + extra (vertical leaf, no volume), by hand */
+        assert_close(n.fs, (1173.0 * G * 0.071 + 612.5) /
+                               hand_moment(14.3 - hws[i], 1.86, 1.37),
+                     1e-12);
+    }
+}
+
+/* Tailwater over part of the opening, below the headwater: fs = R / D on
+ * the net basis and Mr / hw_moment on the overturning basis, by hand. */
+static void test_fs_bases_partly_wetted(void **state)
+{
+    (void)state;
+    sw_gate g = hand_gate();
+    sw_gate_result n, o;
+    double R = 1173.0 * G * 0.071 + 612.5;
+    double mh = hand_moment(14.3 - 13.517, 1.86, 1.37);
+    double mt = hand_moment(14.3 - 12.893, 1.86, 1.37);
+
+    evaluate_on(&g, SW_FS_NET, 13.517, 12.893, &n);
+    evaluate_on(&g, SW_FS_OVERTURNING, 13.517, 12.893, &o);
+    assert_close(n.hw_moment_Nm, mh, 1e-12);
+    assert_close(n.tw_moment_Nm, mt, 1e-12);
+    assert_close(n.fs, R / (mh - mt), 1e-12);
+    assert_close(o.fs, (mt + R) / mh, 1e-12);
+    /* the net ratio is the smaller one here (the tailwater is counted once,
+     * against the load, not as a resisting moment) */
+    assert_true(n.fs < o.fs);
+}
+
+/* Both faces submerged (both levels above the hinge): the net water moment
+ * is rho g w (H^2 / 2) (hw - tw) for equal densities; with the tailwater
+ * above the headwater the waters hold the leaf shut and fs is +inf on the
+ * net basis, the gate `ok`, while the overturning ratio tends to 1 and
+ * reads `low` (the defect the net basis corrects). */
+static void test_fs_bases_submerged(void **state)
+{
+    (void)state;
+    sw_gate g = hand_gate();
+    sw_gate_result n, o;
+    double R = 1173.0 * G * 0.071 + 612.5;
+    double k = RHO_FRESH * G * 1.37 * 1.86 * 1.86 / 2.0;
+
+    /* tailwater below the headwater */
+    evaluate_on(&g, SW_FS_NET, 16.842, 16.797, &n);
+    assert_close(n.net_water_moment_Nm, k * (16.842 - 16.797), 1e-9);
+    assert_close(n.fs, R / (k * 0.045), 1e-9);
+    /* tailwater above the headwater: D < 0 */
+    evaluate_on(&g, SW_FS_NET, 16.842, 16.913, &n);
+    evaluate_on(&g, SW_FS_OVERTURNING, 16.842, 16.913, &o);
+    assert_close(n.net_water_moment_Nm, -k * 0.071, 1e-9);
+    assert_true(isinf(n.fs) && n.fs > 0.0);
+    assert_int_equal(n.state, SW_STATE_OK);
+    assert_close(o.fs, (o.tw_moment_Nm + R) / o.hw_moment_Nm, 1e-12);
+    assert_true(o.fs > 1.0 && o.fs < 1.35);
+    assert_int_equal(o.state, SW_STATE_LOW);
+    /* the sill reaction is the same on both bases */
+    assert_true(n.sill_reaction_N == o.sill_reaction_N);
+}
+
+/* D = 0 exactly (equal levels and densities) and R < 0 with D < 0: fs
+ * takes the sign of the net moment (model document). */
+static void test_fs_net_signs(void **state)
+{
+    (void)state;
+    sw_gate g = hand_gate();
+    sw_gate_result r;
+
+    evaluate_on(&g, SW_FS_NET, 14.06, 14.06, &r);
+    assert_true(r.net_water_moment_Nm == 0.0);
+    assert_true(isinf(r.fs) && r.fs > 0.0);
+    assert_int_equal(r.state, SW_STATE_OK);
+
+    /* the leaf past vertical (inclination 104 deg) leans open under its own
+     * weight: R < 0 */
+    sw_gate p = rect_gate(14.3, 104.0, 0.0, 1.86, 1.37);
+    p.mass_kg = 1173.0;
+    p.cg_along_m = 0.93;
+    p.required_fs = 1.35;
+    p.rho_kgm3[SW_UPSTREAM] = p.rho_kgm3[SW_DOWNSTREAM] = RHO_FRESH;
+    sw_gate_prepare(&p);
+    evaluate_on(&p, SW_FS_NET, 13.1, 13.1, &r);
+    assert_true(r.restraint_Nm < 0.0 && r.net_water_moment_Nm == 0.0);
+    assert_true(isinf(r.fs) && r.fs < 0.0);
+    assert_int_equal(r.state, SW_STATE_OPEN);
+    /* a little more tailwater: D < 0 but |D| < |R|, still open, fs -inf */
+    evaluate_on(&p, SW_FS_NET, 13.1, 13.104, &r);
+    assert_true(r.net_water_moment_Nm < 0.0 &&
+                r.net_water_moment_Nm > r.restraint_Nm);
+    assert_true(isinf(r.fs) && r.fs < 0.0);
+    assert_int_equal(r.state, SW_STATE_OPEN);
+    /* enough tailwater to hold it shut with margin: R - 1.35 D >= 0 */
+    evaluate_on(&p, SW_FS_NET, 13.1, 13.9, &r);
+    assert_true(r.restraint_Nm - 1.35 * r.net_water_moment_Nm >= 0.0);
+    assert_true(isinf(r.fs) && r.fs > 0.0);
+    assert_int_equal(r.state, SW_STATE_OK);
+    /* net moment exactly 0: no load at all and no restraint */
+    sw_gate z = hand_gate();
+    z.mass_kg = 1173.0;
+    z.cg_offset_m = 0.0;
+    z.extra_moment_Nm = 0.0;
+    sw_gate_prepare(&z);
+    evaluate_on(&z, SW_FS_NET, 10.0, 10.0, &r);
+    assert_true(r.net_moment_Nm == 0.0 && r.fs == 0.0);
+    assert_int_equal(r.state, SW_STATE_OPEN);
+}
+
+/* Property over random gates, both levels above the hinge, equal densities,
+ * no least sill reaction.  The leaf is then wholly submerged, so R is the
+ * same whichever water holds the buoyancy, and a water's moment rises at
+ * dM/dz = rho g Q with Q = int s w ds the opening's first moment:
+ * D = rho g Q (hw - tw).  Open where R - D <= 0: hw - tw_open = R / (rho g
+ * Q).  Alarm on the net basis where R < f D: hw - tw_alarm = R / (f rho g
+ * Q), so
+ *     tw_alarm = hw - (hw - tw_open) / f.
+ * On the overturning basis the alarm is Mr = f hw_moment, i.e.
+ * M(tw_alarm) = f M(hw) - R with M(z) = M(hinge) + rho g Q (z - hinge)
+ * above the hinge: the classical result, unchanged. */
+static void test_fs_alarm_property(void **state)
+{
+    (void)state;
+    gsl_rng *rng = gsl_rng_alloc(gsl_rng_mt19937);
+    gsl_rng_set(rng, 27183);
+    int n_net = 0, n_ov = 0;
+
+    for (int i = 0; i < 400; i++) {
+        sw_gate g = random_gate(rng, i);
+        g.rho_kgm3[SW_DOWNSTREAM] = g.rho_kgm3[SW_UPSTREAM];
+        g.min_sill_reaction_N = 0.0;
+        g.fs_basis = (i % 2) ? SW_FS_OVERTURNING : SW_FS_NET;
+        sw_gate_prepare(&g);
+        double rgq = g.rho_kgm3[SW_UPSTREAM] * g.g_ms2 * g.first_moment_m3;
+        sw_gate_result r;
+        sw_gate_evaluate(&g, g.hinge_level_m + 50.0, g.hinge_level_m + 50.0,
+                         &r);
+        double R = r.restraint_Nm;
+        if (!(R > 0.0))
+            continue;
+        double hw = g.hinge_level_m + R / rgq + 0.2 + 3.0 * gsl_rng_uniform(rng);
+        sw_crit open, alarm;
+        sw_error err;
+        assert_int_equal(sw_gate_critical_tailwater(&g, hw, SW_LIMIT_OPEN,
+                                                    &open, &err), SW_OK);
+        assert_int_equal(sw_gate_critical_tailwater(&g, hw, SW_LIMIT_ALARM,
+                                                    &alarm, &err), SW_OK);
+        assert_int_equal(open.kind, SW_CRIT_LEVEL);
+        assert_int_equal(alarm.kind, SW_CRIT_LEVEL);
+        assert_close_abs(open.level_m, hw - R / rgq, 2.0 * SW_CRIT_TOL_M);
+        if (g.fs_basis == SW_FS_NET) {
+            n_net++;
+            assert_close_abs(alarm.level_m,
+                             hw - (hw - open.level_m) / g.required_fs,
+                             2.0 * SW_CRIT_TOL_M);
+        } else {
+            double mh, mhinge, f;
+            sw_gate_water_load(&g, hw, g.rho_kgm3[SW_UPSTREAM], &f, &mh);
+            sw_gate_water_load(&g, g.hinge_level_m, g.rho_kgm3[SW_UPSTREAM],
+                               &f, &mhinge);
+            double want = g.hinge_level_m +
+                          (g.required_fs * mh - R - mhinge) / rgq;
+            if (want <= g.hinge_level_m)
+                continue; /* the classical alarm lies below the hinge */
+            n_ov++;
+            assert_close_abs(alarm.level_m, want, 2.0 * SW_CRIT_TOL_M);
+        }
+    }
+    assert_true(n_net > 60 && n_ov > 60); /* 94 and 96 with this seed */
+    gsl_rng_free(rng);
 }
 
 static void test_validation(void **state)
@@ -464,6 +699,8 @@ static sw_gate random_gate(gsl_rng *rng, int i)
     g.extra_moment_Nm = (i % 4 == 0) ? 1500.0 * gsl_rng_uniform(rng) : 0.0;
     g.required_fs = 1.0 + gsl_rng_uniform(rng);
     g.min_sill_reaction_N = (i % 5 == 0) ? 300.0 : 0.0;
+    /* both bases of the factor of safety, on every shape and kind */
+    g.fs_basis = (i / 2) % 2 ? SW_FS_OVERTURNING : SW_FS_NET;
     sw_gate_prepare(&g);
     return g;
 }
@@ -724,6 +961,11 @@ int main(void)
         cmocka_unit_test(test_vertical_rectangle_by_hand),
         cmocka_unit_test(test_weight_buoyancy_and_state),
         cmocka_unit_test(test_states),
+        cmocka_unit_test(test_fs_bases_agree_dry_tailwater),
+        cmocka_unit_test(test_fs_bases_partly_wetted),
+        cmocka_unit_test(test_fs_bases_submerged),
+        cmocka_unit_test(test_fs_net_signs),
+        cmocka_unit_test(test_fs_alarm_property),
         cmocka_unit_test(test_validation),
         cmocka_unit_test(test_critical_tailwater_brute_force),
         cmocka_unit_test(test_critical_headwater_brute_force),
