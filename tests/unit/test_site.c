@@ -339,6 +339,30 @@ static void test_site_required_fs_fallback(void **state)
     sw_site_fini(&site);
 }
 
+/* fs_basis: net by default, [site] sets it for every gate, a gate's own
+ * key overrides it (model document, "Factor of safety: two bases"). */
+static void test_fs_basis(void **state)
+{
+    sw_site site;
+    (void)state;
+
+    load_ok("[site]\nrequired_fs = 1.42\n" WATER
+            G_HEAD G_SHAPE G_HINGE G_INCL G_TOP G_HEIGHT G_WIDTH G_MASS G_CG,
+            &site);
+    assert_int_equal(site.gates[0].gate.fs_basis, SW_FS_NET);
+    sw_site_fini(&site);
+
+    load_ok("[site]\nrequired_fs = 1.42\nfs_basis = overturning\n" WATER
+            G_HEAD G_SHAPE G_HINGE G_INCL G_TOP G_HEIGHT G_WIDTH G_MASS G_CG
+            "[gate G2]\n"
+            G_SHAPE G_HINGE G_INCL G_TOP G_HEIGHT G_WIDTH G_MASS G_CG
+            "fs_basis = net\n",
+            &site);
+    assert_int_equal(site.gates[0].gate.fs_basis, SW_FS_OVERTURNING);
+    assert_int_equal(site.gates[1].gate.fs_basis, SW_FS_NET);
+    sw_site_fini(&site);
+}
+
 static void test_gravity_from_latitude(void **state)
 {
     sw_site site;
@@ -914,6 +938,7 @@ int main(void)
         cmocka_unit_test(test_two_gates_every_value),
         cmocka_unit_test(test_defaults_without_site_section),
         cmocka_unit_test(test_site_required_fs_fallback),
+        cmocka_unit_test(test_fs_basis),
         cmocka_unit_test(test_gravity_from_latitude),
         cmocka_unit_test(test_density_from_temperature),
         cmocka_unit_test(test_layout_tolerated),

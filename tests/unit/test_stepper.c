@@ -340,11 +340,11 @@ static void test_gate_without_series(void **state)
  * same linear interpolation; the hours in each state must agree within one
  * second per state change (the engine's resolution).  Two gates: a
  * buoyant rectangle and a circle (reference: the model evaluated
- * directly, sample by sample). */
-static void test_hours_match_brute_force(void **state)
+ * directly, sample by sample), on the factor-of-safety basis `basis`. */
+static void hours_match_brute_force(const char *basis)
 {
-    (void)state;
     enum { N = 97 };
+    char ini[2048];
     double hw[N], tw[N];
     char csv[N * 64 + 64], *q = csv;
     run_result r;
@@ -366,8 +366,9 @@ static void test_hours_match_brute_force(void **state)
     }
     q += sprintf(q, "2025-04-02T00:00:00Z,%.4f,%.4f\n", hw[N - 1], tw[N - 1]);
     sw_test_write("l.csv", csv);
-    sw_test_write("site.ini",
+    snprintf(ini, sizeof ini,
                "[site]\nrequired_fs = 1.5\nmin_sill_reaction = 300\n"
+               "fs_basis = %s\n"
                "[water upstream]\ntemperature = 9\n"
                "[water downstream]\ntemperature = 12.5\nsalinity = 8\n"
                "[series hw]\nfile = l.csv\nvalue_column = hw\n"
@@ -381,7 +382,8 @@ static void test_hours_match_brute_force(void **state)
                "inclination = 75\nseal_top = 0.12\ndiameter = 0.9\n"
                "leaf_length = 1.1\nmass = 420\ncg_along = 0.55\n"
                "volume = 0.054\nextra_moment = 700\n"
-               "headwater = hw\ntailwater = tw\n");
+               "headwater = hw\ntailwater = tw\n", basis);
+    sw_test_write("site.ini", ini);
     assert_int_equal(run_site(0, &r, &err), SW_OK);
 
     char path[128];
@@ -417,6 +419,18 @@ static void test_hours_match_brute_force(void **state)
     sw_site_fini(&site);
 }
 
+static void test_hours_match_brute_force(void **state)
+{
+    (void)state;
+    hours_match_brute_force("net");
+}
+
+static void test_hours_match_brute_force_overturning(void **state)
+{
+    (void)state;
+    hours_match_brute_force("overturning");
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -431,6 +445,7 @@ int main(void)
         cmocka_unit_test(test_backwards_time_is_an_error),
         cmocka_unit_test(test_gate_without_series),
         cmocka_unit_test(test_hours_match_brute_force),
+        cmocka_unit_test(test_hours_match_brute_force_overturning),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }
