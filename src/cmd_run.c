@@ -5,6 +5,7 @@
 #include <math.h>
 #include <signal.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <time.h>
@@ -261,6 +262,63 @@ static int write_step(const sw_stepper *st, const sw_site *site,
     return SW_OK;
 }
 
+/* The command line as typed, for the report's provenance: arguments
+ * with characters a shell would read are single-quoted. */
+static void command_line(char *buf, size_t n, int argc, char **argv)
+{
+    size_t used = (size_t)snprintf(buf, n, "sillwatch");
+    for (int i = 0; i < argc && used < n; i++) {
+        const char *a = argv[i];
+        int plain = a[0] != '\0' && strspn(a, "abcdefghijklmnopqrstuvwxyz"
+                                               "ABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                               "0123456789-_./=:,+@%") ==
+                                           strlen(a);
+        used += (size_t)snprintf(buf + used, n - used, plain ? " %s" : " '",
+                                 a);
+        if (plain)
+            continue;
+        for (; *a != '\0' && used + 5 < n; a++)
+            used += (size_t)snprintf(buf + used, n - used,
+                                     *a == '\'' ? "'\\''" : "%c", *a);
+        if (used < n)
+            used += (size_t)snprintf(buf + used, n - used, "'");
+    }
+}
+
+/* Write the season report: the site's and every level file's SHA-256, the
+ * generation time and the command line go into its provenance. */
+static int write_report(const sw_html_report *rep, FILE *fp,
+                        const sw_stepper *st, const sw_site *site,
+                        const char *cmd, sw_error *err)
+{
+    size_t n = sw_stepper_n_series(st);
+    char sha[SW_CLI_SHA256_HEX], when[32];
+    char (*hex)[SW_CLI_SHA256_HEX] = calloc(n + 1, sizeof *hex);
+    const char **hexp = calloc(n + 1, sizeof *hexp);
+    sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution, cmd, hexp};
+    int rc;
+
+    if (hex == NULL || hexp == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+        goto done;
+    }
+    if ((rc = sw_cli_sha256_file(site->path, sha, err)) != SW_OK)
+        goto done;
+    for (size_t i = 0; i < n; i++) {
+        if ((rc = sw_cli_sha256_file(sw_stepper_series(st, i)->path, hex[i],
+                                     err)) != SW_OK)
+            goto done;
+        hexp[i] = hex[i];
+    }
+    if (sw_cli_generation_time(when, sizeof when) != 0)
+        snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
+    rc = sw_html_report_write(rep, fp, st, &meta, err);
+done:
+    free(hex);
+    free(hexp);
+    return rc;
+}
+
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
@@ -273,8 +331,10 @@ int sw_cmd_run(int argc, char **argv)
     long steps = 0;
     int show_progress;
     struct timespec last, now;
+    char cmd[2048];
 
     memset(out, 0, sizeof out);
+    command_line(cmd, sizeof cmd, argc, argv); /* before getopt permutes */
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
     if (sw_site_load(&site, o.site_path, &err) != SW_OK)
@@ -349,17 +409,9 @@ int sw_cmd_run(int argc, char **argv)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
     }
-    if (o.report) {
-        char sha[SW_CLI_SHA256_HEX], when[32];
-        sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution};
-        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
-            goto fail;
-        if (sw_cli_generation_time(when, sizeof when) != 0)
-            snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
-        if ((rc = sw_html_report_write(rep, out[OUT_REPORT].fp, st, &meta,
-                                       &err)) != SW_OK)
-            goto fail;
-    }
+    if (o.report && (rc = write_report(rep, out[OUT_REPORT].fp, st, &site,
+                                       cmd, &err)) != SW_OK)
+        goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;

@@ -627,6 +627,57 @@ static void when_text(char *buf, size_t n, sw_time_ms t, const sw_zone *z)
     snprintf(buf, n, "%s", full);
 }
 
+/* A duration for prose, to the nearest minute: "3 h 12 min", "14 min",
+ * "2 h", "under 1 min" (tables keep decimal hours). */
+static void duration_text(char *buf, size_t n, sw_time_ms ms)
+{
+    long long min = (long long)((ms + 30000) / 60000);
+    if (ms > 0 && min == 0)
+        snprintf(buf, n, "under 1 min");
+    else if (min < 60)
+        snprintf(buf, n, "%lld min", min);
+    else if (min % 60 == 0)
+        snprintf(buf, n, "%lld h", min / 60);
+    else
+        snprintf(buf, n, "%lld h %lld min", min / 60, min % 60);
+}
+
+/* A text as a CSS string's content: every character but letters, digits
+ * and spaces as a hexadecimal escape of its code point (invalid UTF-8 as
+ * U+FFFD), so that no quote, backslash or markup character survives. */
+static void css_string(FILE *fp, const char *s)
+{
+    const unsigned char *p = (const unsigned char *)s;
+    while (*p != '\0') {
+        unsigned long cp = 0xFFFD;
+        size_t len = 1;
+        if (*p < 0x80) {
+            cp = *p;
+        } else {
+            size_t need = (*p & 0xE0) == 0xC0 ? 2 : (*p & 0xF0) == 0xE0 ? 3
+                          : (*p & 0xF8) == 0xF0 ? 4 : 0;
+            unsigned long v = need == 2 ? (*p & 0x1Fu) : need == 3
+                              ? (*p & 0x0Fu) : (*p & 0x07u);
+            size_t i = 1;
+            for (; need > 0 && i < need && (p[i] & 0xC0) == 0x80; i++)
+                v = (v << 6) | (p[i] & 0x3Fu);
+            if (need > 0 && i == need && v >= 0x80 && v <= 0x10FFFF &&
+                !(v >= 0xD800 && v <= 0xDFFF)) {
+                cp = v;
+                len = need;
+            }
+        }
+        if ((cp >= '0' && cp <= '9') || (cp >= 'A' && cp <= 'Z') ||
+            (cp >= 'a' && cp <= 'z') || cp == ' ')
+            fputc((int)cp, fp);
+        else if (cp >= 0x20 && cp != 0x7F)
+            fprintf(fp, "\\%lX ", cp);
+        else
+            fputs("\\FFFD ", fp);
+        p += len;
+    }
+}
+
 /* ---- writing: axes ------------------------------------------------------ */
 
 /* A plot area and the value ranges it shows. */
@@ -940,9 +991,14 @@ static double col_x(const sw_html_report *r, const frame *f, size_t k)
 }
 
 /* One trace as a path: within a column its first, least, greatest and
- * last values; across columns joined unless the line is broken. */
-static void trace_path(FILE *fp, const sw_html_report *r, const frame *f,
-                       const trace *t, size_t n_cols, const char *attrs)
+ * last values; across columns joined unless the line is broken.  Where a
+ * column's values spread over more than `spread` units (a tide within
+ * the column), the line leaves it out: the band of trace_band() shows the
+ * range there, and a comb of vertical strokes would hide what is drawn
+ * beneath. */
+static void trace_path_spread(FILE *fp, const sw_html_report *r,
+                              const frame *f, const trace *t, size_t n_cols,
+                              const char *attrs, double spread)
 {
     int pen = 0;
     fprintf(fp, "<path %s d=\"", attrs);
@@ -951,6 +1007,10 @@ static void trace_path(FILE *fp, const sw_html_report *r, const frame *f,
         if (b->n == 0)
             continue;
         double x = col_x(r, f, k);
+        if (b->n > 1 && fy(f, b->lo) - fy(f, b->hi) > spread) {
+            pen = 0;
+            continue;
+        }
         fprintf(fp, "%c%.1f %.1f", pen && !b->brk ? 'L' : 'M', x,
                 fy(f, b->first));
         if (b->n > 1) {
@@ -964,6 +1024,78 @@ static void trace_path(FILE *fp, const sw_html_report *r, const frame *f,
         pen = 1;
     }
     fputs("\"/>\n", fp);
+}
+
+static void trace_path(FILE *fp, const sw_html_report *r, const frame *f,
+                       const trace *t, size_t n_cols, const char *attrs)
+{
+    trace_path_spread(fp, r, f, t, n_cols, attrs, INFINITY);
+}
+
+/* A trace's range per column as a filled band: for each unbroken run of
+ * columns, along the greatest values and back along the least. */
+static void trace_band(FILE *fp, const sw_html_report *r, const frame *f,
+                       const trace *t, size_t n_cols, const char *attrs)
+{
+    fprintf(fp, "<path %s d=\"", attrs);
+    size_t k = 0;
+    while (k < n_cols) {
+        if (t->b[k].n == 0) {
+            k++;
+            continue;
+        }
+        size_t e = k + 1;
+        while (e < n_cols && t->b[e].n > 0 && !t->b[e].brk)
+            e++;
+        for (size_t j = k; j < e; j++)
+            fprintf(fp, "%c%.1f %.1f", j == k ? 'M' : 'L', col_x(r, f, j),
+                    fy(f, t->b[j].hi));
+        for (size_t j = e; j-- > k;)
+            fprintf(fp, "L%.1f %.1f", col_x(r, f, j), fy(f, t->b[j].lo));
+        fputc('z', fp);
+        k = e;
+    }
+    fputs("\"/>\n", fp);
+}
+
+/* Each gate's sill and hinge as thin reference lines, labelled at the
+ * right; gates with the same level share one line and label. */
+static void reference_lines(FILE *fp, const sw_html_report *r,
+                            const frame *f)
+{
+    const sw_site *site = r->site;
+    for (size_t g = 0; g < r->n_gates; g++) {
+        for (int kind = 0; kind < 2; kind++) {
+            const sw_gate *q = &site->gates[g].gate;
+            double z = kind == 0 ? q->sill_level_m : q->hinge_level_m;
+            int seen = 0;
+            for (size_t h = 0; h < g && !seen; h++) {
+                const sw_gate *p = &site->gates[h].gate;
+                seen = fabs((kind == 0 ? p->sill_level_m : p->hinge_level_m) -
+                            z) < 5e-4;
+            }
+            if (seen || z < f->vy0 || z > f->vy1)
+                continue;
+            fprintf(fp, "<line class=\"ref\" x1=\"%.1f\" y1=\"%.1f\" "
+                    "x2=\"%.1f\" y2=\"%.1f\"/>\n<text class=\"ref\" "
+                    "x=\"%.1f\" y=\"%.1f\" text-anchor=\"end\">",
+                    f->x0, fy(f, z), f->x1, fy(f, z), f->x1 - 3,
+                    fy(f, z) - 2.5);
+            fputs(kind == 0 ? "sill " : "hinge ", fp);
+            int first = 1;
+            for (size_t h = g; h < r->n_gates; h++) {
+                const sw_gate *p = &site->gates[h].gate;
+                if (fabs((kind == 0 ? p->sill_level_m : p->hinge_level_m) -
+                         z) >= 5e-4)
+                    continue;
+                if (!first)
+                    fputs(", ", fp);
+                esc(fp, p->name);
+                first = 0;
+            }
+            fprintf(fp, " %.3f m</text>\n", z);
+        }
+    }
 }
 
 static size_t n_columns(const sw_html_report *r, sw_time_ms t1)
@@ -1033,15 +1165,26 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
     time_axis(fp, &f, site->zone);
     frame_rect(fp, &f);
     fputs("<g clip-path=\"url(#clip-levels)\">\n", fp);
-    /* the first gate's headwater last, over the others */
+    reference_lines(fp, r, &f);
+    /* each level's range per column as a light band, then its line
+     * (through the middle of a column's range where the range is wide);
+     * the first gate's headwater last, over the others */
+    for (size_t i = r->n_lv; i-- > 0;) {
+        snprintf(style, sizeof style, "class=\"band\" fill=\"%s\"",
+                 palette[i % N_PALETTE]);
+        trace_band(fp, r, &f, &r->tr[i], nc, style);
+    }
     for (size_t i = r->n_lv; i-- > 0;) {
         snprintf(style, sizeof style, "class=\"level\" stroke=\"%s\"%s",
                  palette[i % N_PALETTE],
                  i % 2 ? " stroke-width=\"1\"" : "");
-        trace_path(fp, r, &f, &r->tr[i], nc, style);
+        trace_path_spread(fp, r, &f, &r->tr[i], nc, style, 4.0);
     }
-    /* the critical levels over the levels, so that they stay visible */
+    /* the critical levels over the levels, on a white halo, so that they
+     * stay visible over a band */
     for (size_t k = 0; k < r->n_tw; k++) {
+        trace_path(fp, r, &f, &r->tr[tr_alarm(r, k)], nc, "class=\"halo\"");
+        trace_path(fp, r, &f, &r->tr[tr_open(r, k)], nc, "class=\"halo\"");
         trace_path(fp, r, &f, &r->tr[tr_alarm(r, k)], nc,
                    "class=\"crit-alarm\"");
         trace_path(fp, r, &f, &r->tr[tr_open(r, k)], nc,
@@ -1065,6 +1208,8 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
                 "tw_alarm, governing gate", 0);
     legend_item(fp, &x, 20, "class=\"crit-open\"",
                 "tw_open, governing gate", 0);
+    legend_item(fp, &x, 20, "fill=\"#E69F00\" fill-opacity=\"0.45\"",
+                "range in a column", 1);
     fputs("</svg>\n", fp);
 }
 
@@ -1130,7 +1275,23 @@ static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
           "url(#hatch-nodata)");
     shade(fp, r, &f, g, nc, F_LOW, F_OPEN, "shade-low", "#F5C26B");
     shade(fp, r, &f, g, nc, F_OPEN, 0, "shade-open", "url(#hatch-open)");
-    y_axis(fp, &f, step, "factor of safety (\xE2\x80\x93)");
+    /* an axis cut below the trace's highest value says so: a break mark
+     * on the axis and the highest value in its title */
+    int cut = hi > f.vy1;
+    if (cut) {
+        char hv[32];
+        if (hi >= FS_DRAW_CAP)
+            snprintf(hv, sizeof hv, "infinite");
+        else
+            snprintf(hv, sizeof hv, "%.2f", hi);
+        snprintf(label, sizeof label, "axis cut at %g; highest: %s",
+                 f.vy1, hv);
+        y_axis(fp, &f, step, "factor of safety (\xE2\x80\x93)");
+        fprintf(fp, "<path class=\"axis-break\" d=\"M%.1f %.1fl10 -4M%.1f "
+                "%.1fl10 -4\"/>\n", f.x0 - 5, f.y0 + 8, f.x0 - 5, f.y0 + 13);
+    } else {
+        y_axis(fp, &f, step, "factor of safety (\xE2\x80\x93)");
+    }
     time_axis(fp, &f, r->site->zone);
     frame_rect(fp, &f);
     fprintf(fp, "<g clip-path=\"url(#%s)\">\n", id);
@@ -1138,8 +1299,15 @@ static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
             "y2=\"%.1f\"/>\n", f.x0, fy(&f, req), f.x1, fy(&f, req));
     fprintf(fp, "<line class=\"one\" x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" "
             "y2=\"%.1f\"/>\n", f.x0, fy(&f, 1.0), f.x1, fy(&f, 1.0));
-    trace_path(fp, r, &f, t, nc, "class=\"fs\"");
+    trace_band(fp, r, &f, t, nc, "class=\"band\" fill=\"#0072B2\"");
+    trace_path_spread(fp, r, &f, t, nc, "class=\"fs\"", 4.0);
     fputs("</g>\n", fp);
+    if (cut) {
+        fprintf(fp, "<text class=\"cutnote\" x=\"%.1f\" y=\"%.1f\" "
+                "text-anchor=\"end\">", f.x1 - 4, f.y0 + 13);
+        esc(fp, label);
+        fputs("</text>\n", fp);
+    }
     double x = f.x0;
     legend_item(fp, &x, 18, "class=\"fs\"", "factor of safety", 0);
     snprintf(label, sizeof label, "required %.2f", req);
@@ -1149,6 +1317,11 @@ static void chart_fs(FILE *fp, const sw_html_report *r, size_t g,
     legend_item(fp, &x, 18, "fill=\"url(#hatch-open)\"", "open", 1);
     legend_item(fp, &x, 18, "fill=\"url(#hatch-nodata)\" stroke=\"#9A9A9A\"",
                 "no data", 1);
+    fprintf(fp, "<path d=\"M%.1f 20l-4 -7h8z\" fill=\"#F5C26B\" "
+            "stroke=\"#000000\" stroke-width=\"0.6\"/>", x + 6);
+    x += 14;
+    legend_item(fp, &x, 18, "fill=\"none\"",
+                "too short to see: marked on the top edge", 1);
     fputs("</svg>\n", fp);
 }
 
@@ -1189,8 +1362,12 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
     clip_rect(fp, id, &f);
 
     /* the regions: the state at each cell's centre, as vertical runs */
-    fprintf(fp, "<g clip-path=\"url(#%s)\" shape-rendering=\"crispEdges\">\n",
-            id);
+    /* `ok` as the ground, the other states over it; each run overlaps its
+     * right and lower neighbours by 0.6 units, which they then paint over,
+     * so that no seam of background shows between adjacent cells */
+    fprintf(fp, "<g clip-path=\"url(#%s)\">\n<rect x=\"%.1f\" y=\"%.1f\" "
+            "width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>\n", id, f.x0,
+            f.y0, f.x1 - f.x0, f.y1 - f.y0, fill[SW_STATE_OK]);
     double cw = (f.x1 - f.x0) / ENV_NX, ch = (f.y1 - f.y0) / ENV_NY;
     for (int i = 0; i < ENV_NX; i++) {
         double hw = hlo + (i + 0.5) * (hhi - hlo) / ENV_NX;
@@ -1204,11 +1381,11 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
                 s = (int)res.state;
             }
             if (s != run_state) {
-                if (run_state >= 0)
-                    fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.2f\" "
-                            "height=\"%.1f\" fill=\"%s\"/>", f.x0 + i * cw,
-                            f.y1 - j * ch, cw + 0.05, (j - run_start) * ch,
-                            fill[run_state]);
+                if (run_state > SW_STATE_OK)
+                    fprintf(fp, "<rect x=\"%.2f\" y=\"%.2f\" width=\"%.2f\" "
+                            "height=\"%.2f\" fill=\"%s\"/>", f.x0 + i * cw,
+                            f.y1 - j * ch, cw + 0.6,
+                            (j - run_start) * ch + 0.6, fill[run_state]);
                 run_state = s;
                 run_start = j;
             }
@@ -1251,7 +1428,8 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
     legend_item(fp, &x, 18, "fill=\"#DCEAF5\" stroke=\"#777777\"", "ok", 1);
     legend_item(fp, &x, 18, "fill=\"#F5C26B\"", "low", 1);
     legend_item(fp, &x, 18, "fill=\"url(#hatch-open)\"", "open", 1);
-    legend_item(fp, &x, 18, "class=\"obs\"", "observed", 1);
+    legend_item(fp, &x, 18, "class=\"obs\" fill-opacity=\"0.5\"",
+                "observed pairs", 1);
     legend_item(fp, &x, 18, "class=\"diag\"", "hw = tw", 0);
     fputs("</svg>\n", fp);
     return SW_OK;
@@ -1312,6 +1490,20 @@ static void chart_months(FILE *fp, const sw_html_report *r)
             double y_open = fy(&f, op_h), y_top = fy(&f, op_h + lo_h);
             if (op_h + lo_h <= 0)
                 continue;
+            /* a bar too small to see is drawn 2.5 units high and labelled
+             * with its hours */
+            if (f.y1 - y_top < 2.5) {
+                char v[24];
+                if (op_h + lo_h < 0.1)
+                    snprintf(v, sizeof v, "&lt; 0.1 h");
+                else
+                    snprintf(v, sizeof v, "%.1f h", op_h + lo_h);
+                y_top = f.y1 - 2.5;
+                y_open = op_h > 0 ? y_top : f.y1;
+                fprintf(fp, "<text class=\"barlabel\" x=\"%.1f\" "
+                        "y=\"%.1f\" text-anchor=\"middle\">%s</text>",
+                        x + bw * 0.46, y_top - 2, v);
+            }
             fprintf(fp, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" "
                     "height=\"%.1f\" fill=\"%s\" stroke=\"#000000\" "
                     "stroke-width=\"0.5\"/>", x, y_top, bw * 0.92,
@@ -1567,6 +1759,72 @@ static void param_row(FILE *fp, const char *name, const char *unit,
     fputs("</tr>\n", fp);
 }
 
+/* Where every number came from: each series' file, column, unit, offset,
+ * zone, rows, first and last time and the file's SHA-256; the site file,
+ * the program, the command line and each gate's factor-of-safety basis. */
+static void table_provenance(FILE *fp, const sw_html_report *r,
+                             const sw_stepper *st, const sw_html_meta *meta)
+{
+    const sw_site *site = r->site;
+    char a[64], b[64];
+
+    fputs("<table id=\"table-provenance\">\n<thead><tr><th>series</th>"
+          "<th>file</th><th>column</th><th>unit</th><th>offset (m)</th>"
+          "<th>times without an offset</th><th>rows</th><th>first</th>"
+          "<th>last</th><th>SHA-256 of the file</th></tr></thead>\n"
+          "<tbody>\n", fp);
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *s = sw_stepper_series(st, i);
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        fputs("<tr><td>", fp);
+        esc(fp, s->name);
+        fputs("</td><td>", fp);
+        esc(fp, s->path);
+        fputs("</td><td>", fp);
+        esc(fp, s->value_column);
+        fprintf(fp, "</td><td>%s</td><td>%.4f</td><td>",
+                s->scale == 1.0 ? "m" : "ft (0.3048 m)", s->offset_m);
+        esc(fp, site->zone != NULL ? sw_zone_name(site->zone)
+                                   : "none (an error)");
+        fprintf(fp, "</td><td>%ld</td>", rs->records);
+        if (rs->records > 0 && rs->last_t >= rs->first_t) {
+            when_text(a, sizeof a, rs->first_t, site->zone);
+            when_text(b, sizeof b, rs->last_t, site->zone);
+        } else {
+            snprintf(a, sizeof a, "\xE2\x80\x93");
+            snprintf(b, sizeof b, "\xE2\x80\x93");
+        }
+        fprintf(fp, "<td>%s</td><td>%s</td><td class=\"hash\">", a, b);
+        esc(fp, meta->series_sha256 != NULL && meta->series_sha256[i] != NULL
+                    ? meta->series_sha256[i]
+                    : "\xE2\x80\x93");
+        fputs("</td></tr>\n", fp);
+    }
+    fputs("</tbody>\n</table>\n<ul class=\"provenance\">\n<li>Site file ",
+          fp);
+    esc(fp, site->path);
+    fputs(", SHA-256 <span class=\"hash\">", fp);
+    esc(fp, meta->site_sha256);
+    fputs("</span>.</li>\n<li>Program: sillwatch ", fp);
+    esc(fp, meta->version);
+    fputs(", page made ", fp);
+    esc(fp, meta->generated);
+    fputs(".</li>\n", fp);
+    if (meta->command_line != NULL) {
+        fputs("<li>Command line: <code>", fp);
+        esc(fp, meta->command_line);
+        fputs("</code></li>\n", fp);
+    }
+    fputs("<li>Factor of safety: ", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_gate *q = &site->gates[g].gate;
+        escf(fp, "%sgate %s on the %s basis (%s), required %.2f",
+             g > 0 ? "; " : "", q->name, sw_fs_basis_name(q->fs_basis),
+             sw_fs_basis_phrase(q->fs_basis), q->required_fs);
+    }
+    fputs(".</li>\n</ul>\n", fp);
+}
+
 static void table_gates(FILE *fp, const sw_html_report *r)
 {
     static const struct {
@@ -1620,7 +1878,18 @@ static const char css[] =
     ".meta{color:#333;font-size:0.9em;margin:0.2em 0}\n"
     ".caution{border:2px solid #000;padding:0.5em 0.8em;margin:1em 0;"
     "font-weight:bold}\n"
-    ".verdict{font-size:1.1em;margin:0.6em 0}\n"
+    ".verdict{font-size:1.05em;margin:0.4em 0}\n"
+    "ul.verdict{padding-left:1.4em}\n"
+    ".hash{font-family:\"DejaVu Sans Mono\",monospace;font-size:0.85em;"
+    "word-break:break-all}\n"
+    "code{font-family:\"DejaVu Sans Mono\",monospace;font-size:0.85em;"
+    "word-break:break-all}\n"
+    "ul.provenance{font-size:0.85em}\n"
+    "table.signatures{width:100%;margin-top:1em}\n"
+    "table.signatures td{height:2.4em;text-align:left}\n"
+    "table.signatures th{text-align:left}\n"
+    ".keep{break-inside:avoid;page-break-inside:avoid}\n"
+    "h2,h3{break-after:avoid;page-break-after:avoid}\n"
     "table{border-collapse:collapse;font-size:0.8em;margin:0.5em 0;"
     "width:100%}\n"
     "th,td{border:1px solid #999;padding:0.2em 0.4em;text-align:right;"
@@ -1634,16 +1903,24 @@ static const char css[] =
     "svg.defs{width:0;height:0;position:absolute}\n"
     "figure{margin:0.6em 0;break-inside:avoid;page-break-inside:avoid}\n"
     "figcaption{font-size:0.85em;color:#333}\n"
-    ".envelopes{display:flex;flex-wrap:wrap;gap:1%}\n"
+    ".envelopes{display:flex;flex-wrap:wrap;gap:1%;break-inside:avoid;"
+    "page-break-inside:avoid}\n"
     ".envelopes figure{width:49%}\n"
     "text{font-family:\"DejaVu Sans\",Arial,Helvetica,sans-serif;"
     "fill:#111}\n"
     "text.tick{font-size:11px}\n"
     "text.axis{font-size:12px}\n"
     "text.legend{font-size:11px}\n"
+    "text.barlabel{font-size:8px}\n"
     ".grid{stroke:#d0d0d0;stroke-width:0.6}\n"
     ".frame{fill:none;stroke:#333;stroke-width:1}\n"
     ".level{fill:none;stroke-width:1.6}\n"
+    ".band{stroke:none;fill-opacity:0.45}\n"
+    "text.cutnote{font-size:11px;paint-order:stroke;stroke:#FFFFFF;"
+    "stroke-width:3}\n"
+    ".halo{fill:none;stroke:#FFFFFF;stroke-width:4.5;stroke-opacity:0.9}\n"
+    "line.ref{stroke:#555;stroke-width:0.8;stroke-dasharray:1 2}\n"
+    "text.ref{font-size:10px;fill:#333}\n"
     ".crit-alarm{fill:none;stroke:#CC79A7;stroke-width:2;"
     "stroke-dasharray:7 4}\n"
     ".crit-open{fill:none;stroke:#000;stroke-width:1.6;"
@@ -1651,13 +1928,102 @@ static const char css[] =
     ".fs{fill:none;stroke:#0072B2;stroke-width:1.2}\n"
     ".req{stroke:#000;stroke-width:1.2;stroke-dasharray:8 4}\n"
     ".one{stroke:#000;stroke-width:1;stroke-dasharray:2 3}\n"
+    ".axis-break{fill:none;stroke:#000;stroke-width:1.4}\n"
     ".diag{stroke:#555;stroke-width:1;stroke-dasharray:4 3}\n"
-    ".obs{fill:#111;stroke:none}\n"
+    ".obs{fill:#111;fill-opacity:0.3;stroke:none}\n"
     "ul.rejects{font-size:0.85em;font-family:monospace}\n"
-    "@page{size:auto;margin:14mm}\n"
-    "@media print{body{max-width:none;margin:0;padding:0;font-size:10pt}"
-    "h2{break-after:avoid;page-break-after:avoid}"
-    "table{break-inside:auto}tr{break-inside:avoid}}\n";
+    "@media print{body{max-width:none;margin:0;padding:0;font-size:9.5pt}"
+    "h1{margin-top:0}"
+    "tr{break-inside:avoid}}\n";
+
+/* The verdict in words, a line per gate: time below the margin and
+ * open, the least factor of safety and when, time without data. */
+static void write_verdict(FILE *fp, const sw_html_report *r,
+                          const sw_stepper *st, sw_time_ms span)
+{
+    const sw_site *site = r->site;
+    char h[48], o[48], when[64];
+    int any = 0;
+
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_tally *t = sw_stepper_tally(st, g);
+        any |= t->low + t->open > 0;
+    }
+    fputs(any ? "<p class=\"verdict\"><strong>Below the required margin"
+                "</strong> at some time in the run:</p>\n"
+              : "<p class=\"verdict\"><strong>Every gate held its required "
+                "margin</strong> wherever its levels were known.</p>\n",
+          fp);
+    fputs("<ul class=\"verdict\">\n", fp);
+    for (size_t g = 0; g < r->n_gates; g++) {
+        const sw_tally *t = sw_stepper_tally(st, g);
+        const sw_gate *q = &site->gates[g].gate;
+        fputs("<li>", fp);
+        escf(fp, "Gate %s: ", q->name);
+        if (t->low + t->open > 0) {
+            duration_text(h, sizeof h, t->low + t->open);
+            escf(fp, "below the margin for %s", h);
+            if (t->open > 0) {
+                duration_text(o, sizeof o, t->open);
+                escf(fp, ", of which open for %s", o);
+            }
+            escf(fp, " in %ld event%s", t->events, t->events == 1 ? "" : "s");
+        } else {
+            fputs("held its margin", fp);
+        }
+        if (t->evaluated > 0) {
+            when_text(when, sizeof when, t->min_fs_t, site->zone);
+            if (isinf(t->min_fs))
+                escf(fp, "; least factor of safety %s", t->min_fs > 0
+                     ? "infinite (the waters held it shut throughout)"
+                     : "\xE2\x88\x92infinite");
+            else
+                escf(fp, "; least factor of safety %.2f (required %.2f) at "
+                     "%s", t->min_fs, q->required_fs, when);
+        }
+        if (t->evaluated < span) {
+            duration_text(h, sizeof h, span - t->evaluated);
+            escf(fp, "; %s without level data, not counted as safe", h);
+        }
+        fputs(".</li>\n", fp);
+    }
+    fputs("</ul>\n", fp);
+}
+
+/* The signature block that closes a filed report. */
+static void write_signatures(FILE *fp)
+{
+    fputs("<table id=\"table-signatures\" class=\"signatures\">\n"
+          "<thead><tr><th>role</th><th>name</th><th>signature</th>"
+          "<th>date</th></tr></thead>\n<tbody>\n", fp);
+    static const char *const roles[] = {"prepared by", "checked by",
+                                        "approved by"};
+    for (size_t i = 0; i < sizeof roles / sizeof roles[0]; i++)
+        fprintf(fp, "<tr><td>%s</td><td></td><td></td><td></td></tr>\n",
+                roles[i]);
+    fputs("</tbody>\n</table>\n", fp);
+}
+
+/* Printing: the page box, and on every page the site's name, the
+ * generation time and "page N of M" (CSS page-margin boxes; a browser
+ * without them prints the page plain). */
+static void write_page_style(FILE *fp, const sw_html_report *r,
+                             const sw_html_meta *meta)
+{
+    fputs("<style>\n@page{size:auto;margin:17mm 13mm 15mm 13mm;"
+          "@top-left{content:\"", fp);
+    css_string(fp, r->site->name);
+    fputs("\";font:8pt \"DejaVu Sans\",Arial,sans-serif;color:#333}"
+          "@top-right{content:\"season report, made ", fp);
+    css_string(fp, meta->generated);
+    fputs("\";font:8pt \"DejaVu Sans\",Arial,sans-serif;color:#333}"
+          "@bottom-left{content:\"hydrostatic screening only; not a "
+          "structural assessment\";font:7pt \"DejaVu Sans\",Arial,"
+          "sans-serif;color:#333}"
+          "@bottom-right{content:\"page \" counter(page) \" of \" "
+          "counter(pages);font:8pt \"DejaVu Sans\",Arial,sans-serif;"
+          "color:#333}}\n</style>\n", fp);
+}
 
 int sw_html_report_write(const sw_html_report *r, FILE *fp,
                          const sw_stepper *st, const sw_html_meta *meta,
@@ -1674,7 +2040,9 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
           "<meta name=\"viewport\" content=\"width=device-width\"/>\n"
           "<title>", fp);
     escf(fp, "Season report: %s", site->name);
-    fprintf(fp, "</title>\n<style>\n%s</style>\n</head>\n<body>\n", css);
+    fprintf(fp, "</title>\n<style>\n%s</style>\n", css);
+    write_page_style(fp, r, meta);
+    fputs("</head>\n<body>\n", fp);
     svg_defs(fp);
 
     fputs("<h1>", fp);
@@ -1696,46 +2064,17 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
     esc(fp, meta->generated);
     fputs(".</p>\n", fp);
 
-    /* the verdict, in one line */
-    fputs("<p class=\"verdict\">", fp);
-    {
-        int any = 0;
-        for (size_t g = 0; g < r->n_gates; g++) {
-            const sw_tally *t = sw_stepper_tally(st, g);
-            if (t->low + t->open == 0)
-                continue;
-            sw_report_hours_text(h, sizeof h, t->low + t->open);
-            fputs(any++ ? "; " : "<strong>Below the required margin:</strong> ",
-                  fp);
-            escf(fp, "gate %s for %s h", site->gates[g].gate.name, h);
-            if (t->open > 0) {
-                sw_report_hours_text(h, sizeof h, t->open);
-                escf(fp, " (open for %s h)", h);
-            }
-        }
-        if (!any)
-            fputs("Every gate held its required margin wherever its levels "
-                  "were known.", fp);
-        else
-            fputs(".", fp);
-        for (size_t g = 0; g < r->n_gates; g++) {
-            const sw_tally *t = sw_stepper_tally(st, g);
-            if (t->evaluated < t1 - t0) {
-                sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
-                escf(fp, " Gate %s: %s h without level data, not counted as "
-                     "safe.", site->gates[g].gate.name, h);
-            }
-        }
-    }
-    fputs("</p>\n<p class=\"caution\">", fp);
+    write_verdict(fp, r, st, t1 - t0);
+    fputs("<p class=\"caution\">", fp);
     put_caution(fp, meta->caution);
     fputs("</p>\n", fp);
 
-    fputs("<h2 id=\"summary\">Summary</h2>\n", fp);
+    fputs("<div class=\"keep\"><h2 id=\"summary\">Summary</h2>\n", fp);
     table_summary(fp, r, st);
+    fputs("</div>\n", fp);
 
-    fputs("<h2 id=\"levels\">Levels and critical tailwaters</h2>\n<figure>\n",
-          fp);
+    fputs("<div class=\"keep\"><h2 id=\"levels\">Levels and critical "
+          "tailwaters</h2>\n<figure>\n", fp);
     chart_levels(fp, r, t1);
     fputs("<figcaption>The levels as the gates saw them (interpolated "
           "between readings up to max_gap apart, broken across gaps), with "
@@ -1744,11 +2083,13 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
           "tailwater holds its required margin, and tw_open, the least at "
           "which none opens. Where a trace is not drawn, no tailwater is "
           "needed at that headwater. Each drawn column keeps its least and "
-          "greatest value.</figcaption>\n</figure>\n", fp);
+          "greatest value.</figcaption>\n</figure>\n</div>\n", fp);
 
-    fputs("<h2 id=\"fs\">Factor of safety per gate</h2>\n", fp);
     for (size_t g = 0; g < r->n_gates; g++) {
-        fputs("<figure>\n", fp);
+        /* the heading stays with the first chart */
+        fputs(g == 0 ? "<div class=\"keep\"><h2 id=\"fs\">Factor of safety "
+                       "per gate</h2>\n<figure>\n"
+                     : "<figure>\n", fp);
         chart_fs(fp, r, g, t1);
         fputs("<figcaption>", fp);
         const sw_gate *q = &site->gates[g].gate;
@@ -1763,12 +2104,18 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
                  : "the leaf's own restraint over the net water moment, "
                    "headwater less tailwater; infinite where the waters "
                    "together hold the leaf shut");
-        fputs("</figcaption>\n</figure>\n", fp);
+        fputs(g == 0 ? "</figcaption>\n</figure>\n</div>\n"
+                     : "</figcaption>\n</figure>\n", fp);
     }
 
-    fputs("<h2 id=\"envelope\">Operating envelopes</h2>\n"
-          "<div class=\"envelopes\">\n", fp);
+    /* two envelopes a row, each row kept whole, the heading with the
+     * first */
     for (size_t g = 0; g < r->n_gates; g++) {
+        if (g == 0)
+            fputs("<div class=\"keep\"><h2 id=\"envelope\">Operating "
+                  "envelopes</h2>\n", fp);
+        if (g % 2 == 0)
+            fputs("<div class=\"envelopes\">\n", fp);
         fputs("<figure>\n", fp);
         if ((rc = chart_envelope(fp, r, g, err)) != SW_OK)
             return rc;
@@ -1776,32 +2123,47 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
         escf(fp, "Gate %s: its state over headwater and tailwater, with the "
              "level pairs observed in the run.", site->gates[g].gate.name);
         fputs("</figcaption>\n</figure>\n", fp);
+        if (g % 2 == 1 || g + 1 == r->n_gates)
+            fputs(g < 2 ? "</div>\n</div>\n" : "</div>\n", fp);
     }
-    fputs("</div>\n", fp);
 
-    fputs("<h2 id=\"months\">Hours below margin by month</h2>\n<figure>\n",
-          fp);
+    fputs("<div class=\"keep\"><h2 id=\"months\">Hours below margin by "
+          "month</h2>\n<figure>\n", fp);
     chart_months(fp, r);
     fputs("<figcaption>Hours below the required margin (low or open) per "
           "gate and calendar month in the site's time zone; the hatched "
-          "part is the time open.</figcaption>\n</figure>\n", fp);
+          "part is the time open.</figcaption>\n</figure>\n</div>\n", fp);
 
-    fputs("<h2 id=\"events\">The ten worst events</h2>\n", fp);
+    fputs("<div class=\"keep\"><h2 id=\"events\">The ten worst events</h2>\n",
+          fp);
     fputs("<p>Ranked open before low, then by the least factor of safety, "
           "then by length. The whole list is in events.csv.</p>\n", fp);
     table_worst(fp, r);
+    fputs("</div>\n", fp);
 
-    fputs("<h2 id=\"quality\">Data quality</h2>\n", fp);
+    fputs("<div class=\"keep\"><h2 id=\"quality\">Data quality</h2>\n", fp);
     table_quality(fp, r, st);
+    fputs("</div>\n", fp);
 
-    fputs("<h2 id=\"gates\">Gate parameters</h2>\n", fp);
+    fputs("<div class=\"keep\"><h2 id=\"gates\">Gate parameters</h2>\n", fp);
     table_gates(fp, r);
+    fputs("</div>\n", fp);
 
-    fputs("<h2 id=\"caution\">Caution</h2>\n<p>", fp);
+    fputs("<div class=\"keep\"><h2 id=\"provenance\">Provenance</h2>\n",
+          fp);
+    table_provenance(fp, r, st, meta);
+    fputs("</div>\n", fp);
+
+    fputs("<div class=\"keep\"><h2 id=\"caution\">Caution and sign-off"
+          "</h2>\n<p>", fp);
     put_caution(fp, meta->caution);
-    fputs(" The model is the hydrostatic one of the README: still water on "
-          "both faces of a rigid leaf, no dynamic or impact loads, no "
-          "hinge friction, no seal or structural checks.</p>\n"
-          "</body>\n</html>\n", fp);
+    fputs(" The model is hydrostatic: still water on both faces of a rigid "
+          "leaf hinged at its top, loads from the water's weight alone; no "
+          "waves, surges of flow, impact, debris or ice loads, no hinge or "
+          "seal friction, and no check of the leaf, the hinge, the seal or "
+          "the structure. A result of ok is not a statement that the gate "
+          "is safe.</p>\n", fp);
+    write_signatures(fp);
+    fputs("</div>\n</body>\n</html>\n", fp);
     return SW_OK;
 }

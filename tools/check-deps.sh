@@ -21,6 +21,8 @@ have_header nettle/sha2.h || missing="$missing nettle-dev"
 # The tests: the report's well-formedness (xmllint), the browser test's
 # image reader (libpng).
 command -v xmllint >/dev/null 2>&1 || missing="$missing libxml2-utils"
+# The print test reads the report's PDF back (pdfinfo, pdftotext, pdftoppm).
+command -v pdfinfo >/dev/null 2>&1 || missing="$missing poppler-utils"
 have_header png.h || missing="$missing libpng-dev"
 # The tz database: zone names in site files and the tests' zones.
 [ -f "${TZDIR:-/usr/share/zoneinfo}/Europe/Berlin" ] || missing="$missing tzdata"

@@ -45,6 +45,10 @@ typedef struct sw_html_meta {
     const char *generated;     /* ISO 8601 generation time */
     const char *version;       /* of the program */
     const char *caution;       /* plain text; line breaks become spaces */
+    const char *command_line;  /* as the user gave it; NULL: not shown */
+    const char *const *series_sha256; /* hex digest of each series' file,
+                                         in the stepper's series order;
+                                         NULL (or a NULL entry): unknown */
 } sw_html_meta;
 
 typedef struct sw_html_report sw_html_report; /* opaque */

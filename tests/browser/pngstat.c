@@ -7,6 +7,10 @@
  *       4096) -- enough to tell a rendered page from a blank one.
  *   pngstat IMAGE.png X Y W H OUT.png
  *       also writes the W x H part at (X, Y) to OUT.png (for looking).
+ *   pngstat IMAGE.png fill Y0 Y1
+ *       prints how far down the band of rows [Y0, Y1) its ink reaches, in
+ *       per cent of the band (0: no ink): for a printed page, how full it
+ *       is between the running header and footer.
  *
  * Exit 0, or 1 when the image cannot be read or written.
  */
@@ -51,8 +55,10 @@ int main(int argc, char **argv)
     size_t n, ink = 0, n_colours = 0;
     static unsigned colours[8192]; /* open addressing; 0 = empty */
 
-    if (argc != 2 && argc != 7) {
-        fprintf(stderr, "usage: pngstat IMAGE.png [X Y W H OUT.png]\n");
+    int fill = argc == 5 && strcmp(argv[2], "fill") == 0;
+    if (argc != 2 && argc != 7 && !fill) {
+        fprintf(stderr, "usage: pngstat IMAGE.png [X Y W H OUT.png | "
+                "fill Y0 Y1]\n");
         return 1;
     }
     memset(&img, 0, sizeof img);
@@ -81,6 +87,24 @@ int main(int argc, char **argv)
             colours[k] = c;
             n_colours++;
         }
+    }
+    if (fill) {
+        long y0 = atol(argv[3]), y1 = atol(argv[4]), last = y0 - 1;
+        if (y0 < 0 || y1 <= y0 || y1 > (long)img.height) {
+            fprintf(stderr, "pngstat: band outside the image\n");
+            return 1;
+        }
+        for (long y = y0; y < y1; y++)
+            for (size_t x = 0; x < img.width; x++) {
+                const png_byte *p = px + 4 * ((size_t)y * img.width + x);
+                if (p[0] < 230 || p[1] < 230 || p[2] < 230) {
+                    last = y;
+                    break;
+                }
+            }
+        printf("%ld\n", (last - y0 + 1) * 100 / (y1 - y0));
+        free(px);
+        return 0;
     }
     printf("%u %u %zu %zu\n", (unsigned)img.width, (unsigned)img.height,
            n ? ink * 1000 / n : 0, n_colours);
