@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "sillwatch/critcache.h"
 #include "sillwatch/report.h"
 
 #define NB SW_HTML_BUCKETS
@@ -63,8 +64,7 @@ struct sw_html_report {
     sw_time_ms *noeval;   /* per gate, the tally at the last point */
     int *gap_prev;        /* per gate: no data after the last point */
     /* per gate, CRIT_CACHE critical tailwaters by headwater in mm */
-    int64_t *memo_mm;
-    sw_crit *memo_alarm, *memo_open;
+    sw_crit_cache **crit;
     sw_crit alarm_now, open_now;
     double *val;          /* per trace, scratch for one point */
     int *brk;             /* per trace, scratch */
@@ -143,9 +143,7 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
     r->gate_twk = calloc(ng, sizeof *r->gate_twk);
     r->noeval = calloc(ng, sizeof *r->noeval);
     r->gap_prev = calloc(ng, sizeof *r->gap_prev);
-    r->memo_mm = malloc(ng * CRIT_CACHE * sizeof *r->memo_mm);
-    r->memo_alarm = calloc(ng * CRIT_CACHE, sizeof *r->memo_alarm);
-    r->memo_open = calloc(ng * CRIT_CACHE, sizeof *r->memo_open);
+    r->crit = calloc(ng + 1, sizeof *r->crit);
     r->clouds = malloc(ng * sizeof *r->clouds);
     r->flags = calloc(ng * NB, 1);
     r->lv_series = calloc(2 * ng + 1, sizeof *r->lv_series);
@@ -154,15 +152,16 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
     r->spare_t = malloc((CLOUD_MAX + 1) * sizeof *r->spare_t);
     if (r->lv_series == NULL || r->tw_lv == NULL || r->spare_h == NULL ||
         r->spare_t == NULL || r->gate_hw == NULL || r->gate_tw == NULL || r->gate_twk == NULL ||
-        r->noeval == NULL || r->gap_prev == NULL || r->memo_mm == NULL ||
-        r->memo_alarm == NULL || r->memo_open == NULL || r->clouds == NULL ||
+        r->noeval == NULL || r->gap_prev == NULL || r->crit == NULL ||
+        r->clouds == NULL ||
         r->flags == NULL)
         goto fail;
     for (size_t g = 0; g < ng; g++) {
         r->gate_hw[g] = lv_index(r, site->gates[g].headwater);
         r->gate_tw[g] = lv_index(r, site->gates[g].tailwater);
-        for (size_t k = 0; k < CRIT_CACHE; k++)
-            r->memo_mm[g * CRIT_CACHE + k] = INT64_MIN; /* empty */
+        if (sw_crit_cache_alloc(&r->crit[g], &site->gates[g].gate,
+                                CRIT_CACHE, err) != SW_OK)
+            goto fail;
         clear_cloud(&r->clouds[g]);
     }
     for (size_t g = 0; g < ng; g++) {
@@ -197,9 +196,9 @@ void sw_html_report_free(sw_html_report *r)
     free(r->gate_twk);
     free(r->noeval);
     free(r->gap_prev);
-    free(r->memo_mm);
-    free(r->memo_alarm);
-    free(r->memo_open);
+    for (size_t g = 0; r->crit != NULL && g < r->n_gates; g++)
+        sw_crit_cache_free(r->crit[g]);
+    free(r->crit);
     free(r->clouds);
     free(r->flags);
     free(r->lv_series);
@@ -354,34 +353,15 @@ static void cloud_add(sw_html_report *r, cloud *c, double hw, double tw)
 }
 
 /* The critical tailwaters of gate g for drawing: those at the headwater
- * rounded to the millimetre, kept in a small direct-mapped cache (a level
- * record visits few millimetres many times; a millimetre is far below a
- * drawn pixel).  steps.csv gives the exact values.  Sets alarm_now and
+ * rounded to the millimetre, through the gate's cache (a level record
+ * visits few millimetres many times; a millimetre is far below a drawn
+ * pixel).  steps.csv gives the exact values.  Sets alarm_now and
  * open_now. */
 static int crit_at(sw_html_report *r, size_t g, double hw, sw_error *err)
 {
-    const sw_gate *gate = &r->site->gates[g].gate;
-    double mm = floor(hw * 1000.0 + 0.5);
-    int64_t key = (int64_t)fmax(-1e15, fmin(1e15, mm));
-    size_t slot = g * CRIT_CACHE + ((size_t)key & (CRIT_CACHE - 1));
-    int rc;
-    if (r->memo_mm[slot] != key) {
-        if ((rc = sw_gate_critical_tailwater(gate, (double)key / 1000.0,
-                                             SW_LIMIT_ALARM,
-                                             &r->memo_alarm[slot], err)) !=
-                SW_OK ||
-            (rc = sw_gate_critical_tailwater(gate, (double)key / 1000.0,
-                                             SW_LIMIT_OPEN,
-                                             &r->memo_open[slot], err)) !=
-                SW_OK) {
-            r->memo_mm[slot] = INT64_MIN;
-            return rc;
-        }
-        r->memo_mm[slot] = key;
-    }
-    r->alarm_now = r->memo_alarm[slot];
-    r->open_now = r->memo_open[slot];
-    return SW_OK;
+    double mm = fmax(-1e15, fmin(1e15, floor(hw * 1000.0 + 0.5)));
+    return sw_crit_cache_tailwater(r->crit[g], mm / 1000.0, &r->alarm_now,
+                                   &r->open_now, err);
 }
 
 int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
