@@ -3,7 +3,6 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
-#include <signal.h>
 #include <stdio.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -11,6 +10,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
 #include "sillwatch/htmlreport.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
@@ -30,8 +30,10 @@ static const char run_help[] =
     "  months.csv    with --by month: the summary per calendar month\n"
     "  report.html   with --report: the season report, one page with\n"
     "                charts and tables, to open, print or attach\n"
-    "Each file is written whole or not at all; a failed run leaves the\n"
-    "previous outputs as they were.\n"
+    "  manifest.csv  written last: each file's size and SHA-256; a folder\n"
+    "                without it holds no complete set\n"
+    "The files are put in place as one set: a failed or interrupted run\n"
+    "leaves the previous set as it was.\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE instead of the\n"
@@ -43,16 +45,9 @@ static const char run_help[] =
     "  -h, --help             show this help and exit\n"
     "\n"
     "Exit status: 0 every gate held its margin, 1 some gate was low or open,\n"
-    "2 usage, 3 site file, 4 level data, 5 output, 130 interrupted; see\n"
-    "'sillwatch --help'.\n"
+    "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
+    "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
-
-static volatile sig_atomic_t interrupted;
-
-static void on_signal(int sig)
-{
-    interrupted = sig;
-}
 
 enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, N_OUT };
 static const char *const out_names[N_OUT] = {
@@ -192,6 +187,10 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
                    "%ld\n",
                    rs->time_rejected, rs->time_rejected == 1 ? "" : "s",
                    rs->first_time_rejected_line);
+        if (rs->partial_line > 0)
+            printf("    line %ld: the last line, without a line end, was left "
+                   "out: the file changed while it was read\n",
+                   rs->partial_line);
         if (rs->unresolved > 0)
             printf("    %ld row(s) in a repeated daylight-saving hour could not "
                    "be placed by order and were taken as the first "
@@ -260,6 +259,14 @@ static int write_step(const sw_stepper *st, const sw_site *site,
     return SW_OK;
 }
 
+static int run_interrupted(const char *outdir)
+{
+    char what[SW_ERROR_PATH_MAX + 64];
+    snprintf(what, sizeof what, "earlier outputs in %s are left as they were",
+             outdir);
+    return sw_cli_interrupted("run", what);
+}
+
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
@@ -283,15 +290,14 @@ int sw_cmd_run(int argc, char **argv)
         return rc;
     }
 
-    signal(SIGINT, on_signal);
-    signal(SIGTERM, on_signal);
     /* the report draws every point and sums the months */
     sw_stepper_options sopt = {o.by_month || o.report, o.steps || o.report};
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
         goto fail;
     if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
         goto fail;
-    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
+        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
         if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
@@ -313,7 +319,7 @@ int sw_cmd_run(int argc, char **argv)
     while (!done) {
         if ((rc = sw_stepper_advance(st, &done, &err)) != SW_OK)
             goto fail;
-        if (interrupted)
+        if (sw_cancel_requested())
             goto stop;
         if (!done) {
             if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
@@ -348,13 +354,13 @@ int sw_cmd_run(int argc, char **argv)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
     }
+    char sha[SW_CLI_SHA256_HEX], when[32];
+    if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
+        goto fail;
+    if (sw_cli_generation_time(when, sizeof when) != 0)
+        snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
     if (o.report) {
-        char sha[SW_CLI_SHA256_HEX], when[32];
         sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution};
-        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
-            goto fail;
-        if (sw_cli_generation_time(when, sizeof when) != 0)
-            snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
         if ((rc = sw_html_report_write(rep, out[OUT_REPORT].fp, st, &meta,
                                        &err)) != SW_OK)
             goto fail;
@@ -362,11 +368,14 @@ int sw_cmd_run(int argc, char **argv)
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
-    if (interrupted)
+    if (sw_cancel_requested())
         goto stop;
-    for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+    {
+        sw_outset_meta mm = {SW_VERSION, sha, when};
+        if ((rc = sw_outset_publish(o.outdir, out, out_names, N_OUT, &mm,
+                                    &err)) != SW_OK)
             goto fail;
+    }
 
     exit_code = SW_EXIT_OK;
     for (size_t i = 0; i < site.n_gates; i++) {
@@ -383,10 +392,20 @@ int sw_cmd_run(int argc, char **argv)
                     "safe\n", site.gates[i].gate.name, h);
         }
     }
+    for (size_t i = 0; i < sw_stepper_n_series(st) && !o.quiet; i++) {
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        if (rs->partial_line > 0)
+            fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has "
+                            "no line end and the file changed while it was "
+                            "read (a writer was still at it); it is left "
+                            "out\n",
+                    sw_stepper_series(st, i)->path, rs->partial_line);
+    }
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv%s%s%s\n", o.outdir,
+        printf("\noutputs in %s: summary.csv, events.csv%s%s%s, "
+               "manifest.csv\n", o.outdir,
                o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
                o.report ? ", report.html" : "");
         fputs(sw_cli_caution, stdout);
@@ -399,14 +418,12 @@ int sw_cmd_run(int argc, char **argv)
 stop:
     if (show_progress)
         fputs("\n", stderr);
-    fprintf(stderr, "sillwatch: run: interrupted; earlier outputs in %s are "
-                    "left as they were\n", o.outdir);
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
-    return 130;
+    return run_interrupted(o.outdir);
 
 fail:
     for (int k = 0; k < N_OUT; k++)
@@ -414,5 +431,7 @@ fail:
     sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
+    if (rc == SW_EINTERRUPTED)
+        return run_interrupted(o.outdir);
     return sw_cli_report(&err);
 }

@@ -10,6 +10,7 @@
 #include <sys/stat.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
 #include "sillwatch/ensemble.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
@@ -43,8 +44,12 @@ static const char screen_help[] =
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "\n"
+    "  manifest.csv   written last: each file's size and SHA-256; the\n"
+    "                 files are put in place as one set, or not at all\n"
+    "\n"
     "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
-    "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
+    "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
+    "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
 enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
@@ -170,7 +175,8 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
           "fs_p90,sill_reaction_p10,sill_reaction_p50,sill_reaction_p90\n",
           fp);
     for (int last = 0; !last;) {
-        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK)
+        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
+            (rc = sw_cancel_check(err)) != SW_OK)
             goto cleanup;
         if (done) {
             if ((rc = sw_stepper_finish(st, err)) != SW_OK)
@@ -287,7 +293,8 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
             sw_time_ms t;
             double hw;
             sw_crit c[2];
-            if ((rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
+            if ((rc = sw_cancel_check(err)) != SW_OK ||
+                (rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
                 !has_row)
                 break;
             if (isnan(hw))
@@ -390,7 +397,8 @@ int sw_cmd_screen(int argc, char **argv)
 
     if ((rc = sw_ensemble_expand(&ens, &site, &err)) != SW_OK)
         goto fail;
-    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
+        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
@@ -451,9 +459,18 @@ int sw_cmd_screen(int argc, char **argv)
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
-    for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+    {
+        char sha[SW_CLI_SHA256_HEX], when[32];
+        sw_outset_meta mm = {SW_VERSION, sha, when};
+        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK ||
+            (rc = sw_cancel_check(&err)) != SW_OK)
             goto fail;
+        if (sw_cli_generation_time(when, sizeof when) != 0)
+            snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
+        if ((rc = sw_outset_publish(o.outdir, out, out_names, N_OUT, &mm,
+                                    &err)) != SW_OK)
+            goto fail;
+    }
 
     if (!o.quiet && n_v > 0) {
         char when[64];
@@ -487,7 +504,7 @@ int sw_cmd_screen(int argc, char **argv)
     }
     if (!o.quiet) {
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv\n", o.outdir);
+               "required_max.csv, manifest.csv\n", o.outdir);
         fputs(sw_cli_caution, stdout);
     }
     free(vd);
@@ -501,5 +518,11 @@ fail:
     free(vd);
     sw_ensemble_fini(&ens);
     sw_site_fini(&site);
+    if (rc == SW_EINTERRUPTED) {
+        char what[SW_ERROR_PATH_MAX + 64];
+        snprintf(what, sizeof what, "earlier outputs in %s are left as they "
+                                    "were", o.outdir);
+        return sw_cli_interrupted("screen", what);
+    }
     return sw_cli_report(&err);
 }

@@ -79,6 +79,9 @@ typedef struct sw_reader_stats {
     long unresolved;          /* repeated-hour times taken as the first */
     long first_unresolved_line;
     sw_time_ms first_t, last_t;
+    long partial_line;        /* a last line without a line end, left out
+                                 because the file changed while it was
+                                 read (a writer was still at it); 0 none */
     sw_column_stats column[SW_SERIES_MAX_COLUMNS];
 } sw_reader_stats;
 
