@@ -159,12 +159,15 @@ int sw_cli_recover(const char *dir, int quiet, sw_error *err)
         fprintf(stderr, "sillwatch: warning: %s: process %ld was stopped "
                         "after it put its outputs in place; its journal is "
                         "removed\n", dir, rec.publish_pid);
-    if (rec.stale_removed > 0)
+    if (rec.stale_removed == 1)
+        fprintf(stderr, "sillwatch: warning: %s: removed a temporary file "
+                        "left by process %ld, which is gone\n",
+                dir, rec.stale_pid);
+    else if (rec.stale_removed > 1)
         fprintf(stderr, "sillwatch: warning: %s: removed %ld temporary "
-                        "file%s left by process %ld%s, which is gone\n", dir,
-                rec.stale_removed, rec.stale_removed == 1 ? "" : "s",
-                rec.stale_pid,
-                rec.stale_removed > 1 ? " and others" : "");
+                        "files left by processes that are gone (process %ld "
+                        "among them)\n",
+                dir, rec.stale_removed, rec.stale_pid);
     return SW_OK;
 }
 

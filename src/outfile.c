@@ -408,11 +408,13 @@ static int swap_in(journal *j, sw_outfile *files, sw_outfile *mf,
                                     strerror(errno));
             f->tmp[0] = '\0';
             f->closed = 0;
-        } else if (j->held[k] == HELD_OLD && unlink(f->path) != 0 &&
-                   errno != ENOENT) {
-            return sw_error_set(err, SW_EOUTPUT, f->path, 0, 0,
-                                "cannot remove the previous output: %s",
-                                strerror(errno));
+        } else if (j->held[k] == HELD_OLD) {
+            /* a name the new set does not have */
+            if (join(p, sizeof p, j->dir, j->name[k]) != 0 ||
+                (unlink(p) != 0 && errno != ENOENT))
+                return sw_error_set(err, SW_EOUTPUT, p, 0, 0,
+                                    "cannot remove the previous output: %s",
+                                    strerror(errno));
         }
     }
     if ((rc = sw_outfile_check_target(mf->path, err)) != SW_OK)
@@ -493,11 +495,29 @@ static long name_pid(const char *name, const char **rest)
     return pid;
 }
 
+/* Whether process `pid` no longer runs: no such process, or a zombie
+ * (dead, not yet reaped: in a container whose first process does not
+ * reap, a killed writer stays one). */
 static int process_gone(long pid)
 {
+    char path[64], buf[256];
+    FILE *fp;
+    int gone = 0;
+
     if (pid == (long)getpid())
         return 0;
-    return kill((pid_t)pid, 0) != 0 && errno == ESRCH;
+    if (kill((pid_t)pid, 0) != 0)
+        return errno == ESRCH;
+    snprintf(path, sizeof path, "/proc/%ld/stat", pid);
+    if ((fp = fopen(path, "r")) == NULL)
+        return 0;
+    if (fgets(buf, sizeof buf, fp) != NULL) {
+        const char *close_paren = strrchr(buf, ')'); /* after the name */
+        gone = close_paren != NULL && close_paren[1] == ' ' &&
+               close_paren[2] == 'Z';
+    }
+    fclose(fp);
+    return gone;
 }
 
 /* Read a journal's list; 0 when complete, -1 when there is none yet (the
@@ -601,7 +621,8 @@ int sw_outset_recover(const char *dir, sw_outset_recovery *rec,
                 if (lstat(p, &sb) == 0 && S_ISREG(sb.st_mode) &&
                     unlink(p) == 0) {
                     rec->stale_removed++;
-                    rec->stale_pid = pid;
+                    if (rec->stale_pid == 0 || pid < rec->stale_pid)
+                        rec->stale_pid = pid; /* the lowest: stable */
                 }
             }
         }

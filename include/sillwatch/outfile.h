@@ -82,7 +82,7 @@ int sw_outset_publish(const char *dir, sw_outfile *files,
 /* What sw_outset_recover() found and did. */
 typedef struct sw_outset_recovery {
     long stale_removed;     /* temporary files of gone processes removed */
-    long stale_pid;         /* the process of the last of them */
+    long stale_pid;         /* the lowest process id among them */
     int publish;            /* 0 none; 1 a finished publish's journal
                                removed; 2 an interrupted publish rolled
                                back (the previous set restored) */
