@@ -500,9 +500,17 @@ void sw_html_report_event(sw_html_report *r, const sw_event *ev)
 int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
                          sw_error *err)
 {
-    size_t i = r->n_months;
-    while (i > 0 && r->yyyymm[i - 1] != m->yyyymm)
-        i--;
+    /* yyyymm[] is kept sorted: a binary search finds the month (the
+     * gates' rows interleave, so a scan from the end could go far back) */
+    size_t at = 0, hi = r->n_months, i;
+    while (at < hi) {
+        size_t mid = at + (hi - at) / 2;
+        if (r->yyyymm[mid] < m->yyyymm)
+            at = mid + 1;
+        else
+            hi = mid;
+    }
+    i = at < r->n_months && r->yyyymm[at] == m->yyyymm ? at + 1 : 0;
     if (i == 0) {
         if (r->n_months == r->cap_months) {
             size_t cap = r->cap_months ? 2 * r->cap_months : 16;
@@ -521,10 +529,18 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
             r->m_open = op;
             r->cap_months = cap;
         }
-        i = r->n_months++;
+        /* insert at `at` (the end, as months come in order) */
+        size_t ng = r->n_gates, tail = r->n_months - at;
+        memmove(&r->yyyymm[at + 1], &r->yyyymm[at], tail * sizeof *r->yyyymm);
+        memmove(&r->m_low[(at + 1) * ng], &r->m_low[at * ng],
+                tail * ng * sizeof *r->m_low);
+        memmove(&r->m_open[(at + 1) * ng], &r->m_open[at * ng],
+                tail * ng * sizeof *r->m_open);
+        r->n_months++;
+        i = at;
         r->yyyymm[i] = m->yyyymm;
-        for (size_t g = 0; g < r->n_gates; g++)
-            r->m_low[i * r->n_gates + g] = r->m_open[i * r->n_gates + g] = 0;
+        for (size_t g = 0; g < ng; g++)
+            r->m_low[i * ng + g] = r->m_open[i * ng + g] = 0;
         i++;
     }
     i--;

@@ -739,6 +739,15 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
     } else {
         t = r->rec_t;
     }
+    if (t < SW_SERIES_TIME_MIN_MS || t >= SW_SERIES_TIME_END_MS) {
+        sw_time_format(a, sizeof a, t, NULL);
+        return fail_at(r, err, SW_EDATA, r->rec_line, time_col,
+                       "time %s is outside the years 1900 to 2200 (UTC) "
+                       "that level times may have%s", a,
+                       t >= SW_SERIES_TIME_END_MS
+                           ? "; a time in milliseconds read as seconds?"
+                           : "");
+    }
 
     if (r->has_prev && t <= r->prev_t) {
         if (t < r->prev_t) {
