@@ -34,6 +34,7 @@
  * levels then stay within about that head of the hinge. */
 #define MIN_SIZE_M 1.0e-3
 #define MAX_HEAD_M 1.0e5
+#define MAX_REQUIRED_FS 100.0
 
 const char *sw_state_name(sw_state state)
 {
@@ -81,19 +82,25 @@ static int check_size(const sw_gate *g, const char *key, double v,
     return SW_OK;
 }
 
+/* The moment of a MAX_HEAD_M head of the densest water on the sealed
+ * opening at the sill's arm. */
+static double moment_bound(const sw_gate *g, double s_sill)
+{
+    double area = g->shape == SW_SHAPE_RECTANGLE
+                      ? g->seal_height_m * g->seal_width_m
+                      : M_PI * g->diameter_m * g->diameter_m / 4.0;
+    return 1100.0 * 9.9 * MAX_HEAD_M * area * s_sill;
+}
+
 /* The moments' bound (see MAX_HEAD_M): each of weight, buoyancy and
  * extra_moment at most that of a 100 km head on the sealed opening. */
 static int check_moments(const sw_gate *g, double s_sill,
                          const char **bad_key, sw_error *err)
 {
     const double rho = 1100.0, grav = 9.9;
-    double a = g->inclination_deg * M_PI / 180.0, area;
-    double weight, buoy, bound;
+    double a = g->inclination_deg * M_PI / 180.0;
+    double weight, buoy, bound = moment_bound(g, s_sill);
 
-    area = g->shape == SW_SHAPE_RECTANGLE
-               ? g->seal_height_m * g->seal_width_m
-               : M_PI * g->diameter_m * g->diameter_m / 4.0;
-    bound = rho * grav * MAX_HEAD_M * area * s_sill;
     weight = fabs(g->mass_kg * grav *
                   (g->cg_along_m * cos(a) + g->cg_offset_m * sin(a)));
     buoy = rho * grav * g->volume_m3 * g->leaf_length_m / 2.0;
@@ -214,6 +221,15 @@ int sw_gate_validate(const sw_gate *g, const char **bad_key, sw_error *err)
     if (!isfinite(g->min_sill_reaction_N) || g->min_sill_reaction_N < 0.0)
         return bad(err, bad_key, g, "min_sill_reaction", g->min_sill_reaction_N,
                    "must be >= 0 N");
+    if (g->required_fs > MAX_REQUIRED_FS)
+        return bad(err, bad_key, g, "required_fs", g->required_fs,
+                   "is implausibly large (over 100)");
+    if (g->min_sill_reaction_N * s_sill > moment_bound(g, s_sill))
+        return bad(err, bad_key, g, "min_sill_reaction",
+                   g->min_sill_reaction_N,
+                   "N is implausibly large for this opening: times the "
+                   "sill's arm it exceeds the moment of a 100 km head of "
+                   "water on the sealed area");
     for (int side = 0; side < 2; side++)
         if (!isfinite(g->rho_kgm3[side]) || g->rho_kgm3[side] <= 0.0)
             return bad(err, bad_key, g, "density", g->rho_kgm3[side],

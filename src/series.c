@@ -388,6 +388,18 @@ static int is_skipped_line(const char *s, size_t len)
     return 1;
 }
 
+/* Whether a CR stands inside the line, before other text (not just at
+ * its end, as in CRLF): a file whose lines end in CR alone reads as one
+ * line. */
+static int cr_inside(const char *s, size_t len)
+{
+    const char *cr = memchr(s, '\r', len);
+    for (; cr != NULL && cr < s + len; cr++)
+        if (*cr != '\r' && *cr != '\n')
+            return 1;
+    return 0;
+}
+
 /* The delimiter of a header line: the most frequent of ',' ';' and tab
  * outside quotes; ',' on a tie or when there is none. */
 static char detect_delimiter(const char *s, size_t len)
@@ -603,8 +615,15 @@ static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
         }
         r->line++;
         if (!r->in_record) {
-            if (is_skipped_line(s, len))
+            if (is_skipped_line(s, len)) {
+                if (s[0] == '#' && cr_inside(s, len))
+                    return fail_at(r, err, SW_EDATA, r->line, 0,
+                                   "a carriage return (CR) inside this "
+                                   "comment line: are the file's lines "
+                                   "ended by CR alone? give the file LF or "
+                                   "CRLF line ends");
                 continue;
+            }
             if (r->delim == 0) {
                 r->delim = detect_delimiter(s, len);
                 csv_set_delim(&r->csv, (unsigned char)r->delim);

@@ -1156,7 +1156,7 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
         st.has_offset = 1;
         i++;
     } else if (i < n && (p[i] == '+' || p[i] == '-')) {
-        int sign = p[i] == '-' ? -1 : 1, oh, om = 0;
+        int sign = p[i] == '-' ? -1 : 1, oh, om = 0, os = 0;
         if (n - i < 3 || (oh = two_digits(p + i + 1)) < 0)
             return stamp_shape_error(err, p, n,
                                      "has a UTC offset that is not +hh:mm, "
@@ -1168,6 +1168,17 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
                                          "has a UTC offset that is not "
                                          "+hh:mm, +hhmm or +hh");
             i += 3;
+            /* +hh:mm:ss: the local mean times of the tz database (before
+             * 1937 in Amsterdam: +00:19:32), as sw_time_format writes
+             * them, so that every time the tool writes reads back */
+            if (i < n && p[i] == ':') {
+                if (n - i < 3 || (os = two_digits(p + i + 1)) < 0 || os > 59)
+                    return stamp_shape_error(err, p, n,
+                                             "has a UTC offset that is not "
+                                             "+hh:mm, +hh:mm:ss, +hhmm or "
+                                             "+hh");
+                i += 3;
+            }
         } else if (n - i >= 2 && (om = two_digits(p + i)) >= 0) {
             i += 2;
         } else {
@@ -1178,7 +1189,7 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
         if (om > 59)
             return stamp_range_error(err, p, n, "UTC offset minutes", om);
         st.has_offset = 1;
-        st.offset_s = (int32_t)(sign * (oh * 3600 + om * 60));
+        st.offset_s = (int32_t)(sign * (oh * 3600 + om * 60 + os));
     }
     if (i != n) {
         quote q = quote_of(n);
