@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "sillwatch/cancel.h"
 #include "sillwatch/report.h"
 
 #define NB SW_HTML_BUCKETS
@@ -1762,6 +1763,8 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
 
     fputs("<h2 id=\"fs\">Factor of safety per gate</h2>\n", fp);
     for (size_t g = 0; g < r->n_gates; g++) {
+        if ((rc = sw_cancel_check(err)) != SW_OK)
+            return rc;
         fputs("<figure>\n", fp);
         chart_fs(fp, r, g, t1);
         fputs("<figcaption>", fp);
@@ -1777,7 +1780,8 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
           "<div class=\"envelopes\">\n", fp);
     for (size_t g = 0; g < r->n_gates; g++) {
         fputs("<figure>\n", fp);
-        if ((rc = chart_envelope(fp, r, g, err)) != SW_OK)
+        if ((rc = sw_cancel_check(err)) != SW_OK ||
+            (rc = chart_envelope(fp, r, g, err)) != SW_OK)
             return rc;
         fputs("<figcaption>", fp);
         escf(fp, "Gate %s: its state over headwater and tailwater, with the "
