@@ -188,6 +188,9 @@ int sw_cli_exit_code(int status)
 
 int sw_cli_report(const sw_error *err)
 {
+    /* an interruption is said once, by the command or by main() */
+    if (err->code == SW_EINTERRUPTED)
+        return sw_cli_exit_code(err->code);
     fputs("sillwatch: ", stderr);
     if (err->file[0] != '\0') {
         fputs(err->file, stderr);

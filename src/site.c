@@ -38,6 +38,7 @@
  * (/dev/zero, a binary) stops here instead of filling memory. */
 #define SITE_LINE_MAX ((size_t)64 * 1024)
 
+#include "sillwatch/cancel.h"
 #include "sillwatch/gravity.h"
 #include "sillwatch/water.h"
 
@@ -583,6 +584,15 @@ static ssize_t read_line(parser *p)
     errno = 0;
     for (;;) {
         c = getc(p->fp);
+        if (c == EOF && ferror(p->fp) && errno == EINTR) {
+            /* a signal during a read of a FIFO or terminal */
+            if (sw_cancel_requested()) {
+                p->status = sw_cancel_check(p->err);
+                return -1;
+            }
+            clearerr(p->fp);
+            continue;
+        }
         if (c == EOF)
             break;
         if (len + 2 > p->raw_cap) {
@@ -1430,10 +1440,15 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     p.path = path;
     p.err = err;
 
-    p.fp = fopen(path, "r");
+    /* a FIFO's open waits for its writer: a stop request ends the wait */
+    while ((p.fp = fopen(path, "r")) == NULL && errno == EINTR &&
+           !sw_cancel_requested())
+        ;
     if (p.fp == NULL)
-        return sw_error_set(err, SW_ESITE, path, 0, 0,
-                            "cannot open the site file: %s", strerror(errno));
+        return errno == EINTR ? sw_cancel_check(err)
+                              : sw_error_set(err, SW_ESITE, path, 0, 0,
+                                             "cannot open the site file: %s",
+                                             strerror(errno));
     struct stat sb;
     if (fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
         fclose(p.fp);
