@@ -18,6 +18,8 @@
 #define BUCKET_MS0 60000    /* first column width: one minute */
 #define MONTHS_DRAWN 36     /* more months than this are drawn by year */
 #define CRIT_CACHE 4096     /* critical levels kept per gate (power of 2) */
+#define CRIT_CACHE_MANY 64  /* the same, when the site has more gates than
+                               are drawn (SW_HTML_GATES_DRAWN) */
 
 /* ---- collecting --------------------------------------------------------- */
 
@@ -49,6 +51,10 @@ typedef struct cloud {
 struct sw_html_report {
     const sw_site *site;
     size_t n_gates;
+    size_t n_drawn;       /* gates with charts: the first
+                             SW_HTML_GATES_DRAWN; the rest are in the
+                             tables only */
+    size_t cache_n;       /* critical levels cached per gate */
     size_t n_lv;          /* level series drawn: distinct series in use */
     size_t *lv_series;    /* 2 x n_gates: index into site->series */
     size_t n_tw;          /* of those, the tailwater series */
@@ -58,7 +64,7 @@ struct sw_html_report {
     trace *tr;            /* levels [0, n_lv), fs per gate, then tw_alarm
                              and tw_open per tailwater series */
     size_t n_tr;
-    unsigned char *flags; /* n_gates x NB */
+    unsigned char *flags; /* n_drawn x NB */
     int started;
     sw_time_ms t0, w, t_prev;
     sw_time_ms *noeval;   /* per gate, the tally at the last point */
@@ -75,17 +81,18 @@ struct sw_html_report {
     size_t n_worst;
     size_t n_months, cap_months;
     int *yyyymm;
-    sw_time_ms *m_low, *m_open; /* n_months x n_gates */
+    sw_time_ms *m_low, *m_open; /* n_months x n_drawn */
 };
 
+/* fs traces only for the drawn gates (g < n_drawn) */
 static size_t tr_fs(const sw_html_report *r, size_t g) { return r->n_lv + g; }
 static size_t tr_alarm(const sw_html_report *r, size_t k)
 {
-    return r->n_lv + r->n_gates + k;
+    return r->n_lv + r->n_drawn + k;
 }
 static size_t tr_open(const sw_html_report *r, size_t k)
 {
-    return r->n_lv + r->n_gates + r->n_tw + k;
+    return r->n_lv + r->n_drawn + r->n_tw + k;
 }
 
 static int nomem(sw_error *err)
@@ -139,16 +146,18 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
         return nomem(err);
     r->site = site;
     r->n_gates = ng;
+    r->n_drawn = ng < SW_HTML_GATES_DRAWN ? ng : SW_HTML_GATES_DRAWN;
+    r->cache_n = ng <= SW_HTML_GATES_DRAWN ? CRIT_CACHE : CRIT_CACHE_MANY;
     r->gate_hw = calloc(ng, sizeof *r->gate_hw);
     r->gate_tw = calloc(ng, sizeof *r->gate_tw);
     r->gate_twk = calloc(ng, sizeof *r->gate_twk);
     r->noeval = calloc(ng, sizeof *r->noeval);
     r->gap_prev = calloc(ng, sizeof *r->gap_prev);
-    r->memo_mm = malloc(ng * CRIT_CACHE * sizeof *r->memo_mm);
-    r->memo_alarm = calloc(ng * CRIT_CACHE, sizeof *r->memo_alarm);
-    r->memo_open = calloc(ng * CRIT_CACHE, sizeof *r->memo_open);
-    r->clouds = malloc(ng * sizeof *r->clouds);
-    r->flags = calloc(ng * NB, 1);
+    r->memo_mm = malloc(ng * r->cache_n * sizeof *r->memo_mm);
+    r->memo_alarm = calloc(ng * r->cache_n, sizeof *r->memo_alarm);
+    r->memo_open = calloc(ng * r->cache_n, sizeof *r->memo_open);
+    r->clouds = malloc((r->n_drawn + 1) * sizeof *r->clouds);
+    r->flags = calloc(r->n_drawn * NB + 1, 1);
     r->lv_series = calloc(2 * ng + 1, sizeof *r->lv_series);
     r->tw_lv = calloc(2 * ng + 1, sizeof *r->tw_lv);
     r->spare_h = malloc((CLOUD_MAX + 1) * sizeof *r->spare_h);
@@ -162,9 +171,10 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
     for (size_t g = 0; g < ng; g++) {
         r->gate_hw[g] = lv_index(r, site->gates[g].headwater);
         r->gate_tw[g] = lv_index(r, site->gates[g].tailwater);
-        for (size_t k = 0; k < CRIT_CACHE; k++)
-            r->memo_mm[g * CRIT_CACHE + k] = INT64_MIN; /* empty */
-        clear_cloud(&r->clouds[g]);
+        for (size_t k = 0; k < r->cache_n; k++)
+            r->memo_mm[g * r->cache_n + k] = INT64_MIN; /* empty */
+        if (g < r->n_drawn)
+            clear_cloud(&r->clouds[g]);
     }
     for (size_t g = 0; g < ng; g++) {
         size_t k = 0;
@@ -174,7 +184,7 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
             r->tw_lv[r->n_tw++] = r->gate_tw[g];
         r->gate_twk[g] = k;
     }
-    r->n_tr = r->n_lv + ng + 2 * r->n_tw;
+    r->n_tr = r->n_lv + r->n_drawn + 2 * r->n_tw;
     r->tr = malloc(r->n_tr * sizeof *r->tr);
     r->val = calloc(r->n_tr, sizeof *r->val);
     r->brk = calloc(r->n_tr, sizeof *r->brk);
@@ -248,7 +258,7 @@ static void widen(sw_html_report *r)
             b[k].brk = 0;
         }
     }
-    for (size_t g = 0; g < r->n_gates; g++) {
+    for (size_t g = 0; g < r->n_drawn; g++) {
         unsigned char *f = r->flags + g * NB;
         for (size_t k = 0; k < NB / 2; k++)
             f[k] = (unsigned char)(f[2 * k] | f[2 * k + 1]);
@@ -284,6 +294,8 @@ static void mark(sw_html_report *r, size_t g, sw_time_ms a, sw_time_ms b,
 {
     unsigned char *f = r->flags + g * NB;
     size_t k1;
+    if (g >= r->n_drawn)
+        return;
     /* an event closed at the end of the data may end past the last point */
     while (b - r->t0 >= (sw_time_ms)NB * r->w)
         widen(r);
@@ -364,7 +376,7 @@ static int crit_at(sw_html_report *r, size_t g, double hw, sw_error *err)
     const sw_gate *gate = &r->site->gates[g].gate;
     double mm = floor(hw * 1000.0 + 0.5);
     int64_t key = (int64_t)fmax(-1e15, fmin(1e15, mm));
-    size_t slot = g * CRIT_CACHE + ((size_t)key & (CRIT_CACHE - 1));
+    size_t slot = g * r->cache_n + ((size_t)key & (r->cache_n - 1));
     int rc;
     if (r->memo_mm[slot] != key) {
         if ((rc = sw_gate_critical_tailwater(gate, (double)key / 1000.0,
@@ -411,7 +423,8 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         else {
             /* a line may go on from the last point */
             r->brk[r->gate_hw[g]] = r->brk[r->gate_tw[g]] = 0;
-            r->brk[tr_fs(r, g)] = 0;
+            if (g < r->n_drawn)
+                r->brk[tr_fs(r, g)] = 0;
             r->brk[tr_alarm(r, r->gate_twk[g])] = 0;
             r->brk[tr_open(r, r->gate_twk[g])] = 0;
         }
@@ -429,7 +442,9 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         const sw_gate_result *res = &sg->result;
         r->val[r->gate_hw[g]] = res->headwater_m;
         r->val[r->gate_tw[g]] = res->tailwater_m;
-        r->val[tr_fs(r, g)] = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, res->fs));
+        if (g < r->n_drawn)
+            r->val[tr_fs(r, g)] =
+                fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, res->fs));
         if ((rc = crit_at(r, g, res->headwater_m, err)) != SW_OK)
             return rc;
         if (r->alarm_now.kind == SW_CRIT_LEVEL &&
@@ -438,7 +453,8 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         if (r->open_now.kind == SW_CRIT_LEVEL &&
             !(r->val[io] >= r->open_now.level_m))
             r->val[io] = r->open_now.level_m;
-        cloud_add(r, &r->clouds[g], res->headwater_m, res->tailwater_m);
+        if (g < r->n_drawn)
+            cloud_add(r, &r->clouds[g], res->headwater_m, res->tailwater_m);
     }
     for (size_t i = 0; i < r->n_tr; i++) {
         trace *tr = &r->tr[i];
@@ -472,7 +488,7 @@ void sw_html_report_event(sw_html_report *r, const sw_event *ev)
         mark(r, ev->gate, ev->start, ev->end,
              ev->worst == SW_STATE_OPEN ? F_OPEN : F_LOW);
         /* the least factor of safety may fall between timeline points */
-        if (!isnan(ev->min_fs)) {
+        if (!isnan(ev->min_fs) && ev->gate < r->n_drawn) {
             trace *tr = &r->tr[tr_fs(r, ev->gate)];
             bucket *b = &tr->b[column_of(r, ev->min_fs_t)];
             double v = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, ev->min_fs));
@@ -504,6 +520,8 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
     /* yyyymm[] is kept sorted: a binary search finds the month (the
      * gates' rows interleave, so a scan from the end could go far back) */
     size_t at = 0, hi = r->n_months, i;
+    if (m->gate >= r->n_drawn)
+        return SW_OK; /* drawn gates only (all gates share the months) */
     while (at < hi) {
         size_t mid = at + (hi - at) / 2;
         if (r->yyyymm[mid] < m->yyyymm)
@@ -515,7 +533,7 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
     if (i == 0) {
         if (r->n_months == r->cap_months) {
             size_t cap = r->cap_months ? 2 * r->cap_months : 16;
-            size_t ng = r->n_gates;
+            size_t ng = r->n_drawn;
             int *y = realloc(r->yyyymm, cap * sizeof *y);
             if (y == NULL)
                 return nomem(err);
@@ -531,7 +549,7 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
             r->cap_months = cap;
         }
         /* insert at `at` (the end, as months come in order) */
-        size_t ng = r->n_gates, tail = r->n_months - at;
+        size_t ng = r->n_drawn, tail = r->n_months - at;
         memmove(&r->yyyymm[at + 1], &r->yyyymm[at], tail * sizeof *r->yyyymm);
         memmove(&r->m_low[(at + 1) * ng], &r->m_low[at * ng],
                 tail * ng * sizeof *r->m_low);
@@ -545,8 +563,8 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
         i++;
     }
     i--;
-    r->m_low[i * r->n_gates + m->gate] += m->tally.low;
-    r->m_open[i * r->n_gates + m->gate] += m->tally.open;
+    r->m_low[i * r->n_drawn + m->gate] += m->tally.low;
+    r->m_open[i * r->n_drawn + m->gate] += m->tally.open;
     return SW_OK;
 }
 
@@ -1276,7 +1294,7 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
 
 static void chart_months(FILE *fp, const sw_html_report *r)
 {
-    size_t ng = r->n_gates, n = r->n_months, ngroups;
+    size_t ng = r->n_drawn, n = r->n_months, ngroups;
     int by_year = n > MONTHS_DRAWN;
     frame f = {64, 944, 40, 250, 0, 1, 0, 1};
     char label[48];
@@ -1762,7 +1780,13 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
           "greatest value.</figcaption>\n</figure>\n", fp);
 
     fputs("<h2 id=\"fs\">Factor of safety per gate</h2>\n", fp);
-    for (size_t g = 0; g < r->n_gates; g++) {
+    if (r->n_drawn < r->n_gates)
+        fprintf(fp, "<p class=\"meta\">The site has %zu gates: the charts "
+                    "show the first %zu (factor of safety, envelope, hours "
+                    "by month); every gate is in the tables, and in the CSV "
+                    "files.</p>\n",
+                r->n_gates, r->n_drawn);
+    for (size_t g = 0; g < r->n_drawn; g++) {
         if ((rc = sw_cancel_check(err)) != SW_OK)
             return rc;
         fputs("<figure>\n", fp);
@@ -1778,7 +1802,7 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
 
     fputs("<h2 id=\"envelope\">Operating envelopes</h2>\n"
           "<div class=\"envelopes\">\n", fp);
-    for (size_t g = 0; g < r->n_gates; g++) {
+    for (size_t g = 0; g < r->n_drawn; g++) {
         fputs("<figure>\n", fp);
         if ((rc = sw_cancel_check(err)) != SW_OK ||
             (rc = chart_envelope(fp, r, g, err)) != SW_OK)
