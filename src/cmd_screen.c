@@ -373,7 +373,7 @@ int sw_cmd_screen(int argc, char **argv)
     }
     if (o.issued != NULL) {
         sw_stamp stamp;
-        sw_time_ms utc[2];
+        sw_time_ms utc[SW_ZONE_MAX_SHOWN];
         if (sw_stamp_parse(o.issued, strlen(o.issued), &stamp, &err) !=
             SW_OK) {
             sw_site_fini(&site);

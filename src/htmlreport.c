@@ -755,7 +755,7 @@ typedef struct tstep {
 
 static sw_time_ms to_utc(const sw_zone *z, sw_time_ms wall)
 {
-    sw_time_ms u[2];
+    sw_time_ms u[SW_ZONE_MAX_SHOWN];
     if (z == NULL)
         return wall;
     if (sw_zone_local_to_utc(z, wall, u) >= 1)

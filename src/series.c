@@ -731,7 +731,7 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
                        r->time_err.message);
 
     if (r->time_state == TIME_LOCAL) {
-        sw_time_ms utc[2];
+        sw_time_ms utc[SW_ZONE_MAX_SHOWN];
         int n = sw_zone_local_to_utc(r->zone, r->rec_wall, utc);
 
         if (n == 0) {
@@ -742,14 +742,15 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
             return SW_OK;
         }
         t = utc[0];
-        if (n == 2) {
+        if (n >= 2) {
             /* A repeated hour (daylight saving ends): the logger went on
              * in time order, so the earliest reading later than the
              * previous record is the one meant. */
-            if (r->has_prev && utc[0] > r->prev_t) {
-                st->ambiguous++;
-            } else if (r->has_prev && utc[1] > r->prev_t) {
-                t = utc[1];
+            int k = 0;
+            while (r->has_prev && k < n && utc[k] <= r->prev_t)
+                k++;
+            if (r->has_prev && k < n) {
+                t = utc[k];
                 st->ambiguous++;
             } else if (st->unresolved++ == 0) {
                 st->first_unresolved_line = r->rec_line;

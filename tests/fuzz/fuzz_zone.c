@@ -10,7 +10,7 @@
  * sw_zone_local_to_utc() returns for a wall-clock time each show that time
  * (u + offset(u) = local) and come in order; and the instant t is among
  * those returned for its own wall-clock time, unless that time is shown
- * three times or more (the reader keeps two: see README, "Level files").
+ * more than SW_ZONE_MAX_SHOWN times (only the earliest are returned).
  * Build and run with `make fuzz` (see DEVELOPERS.md).
  */
 #include <stddef.h>
@@ -59,7 +59,7 @@ static int shown(const sw_zone *z, sw_time_ms local)
 
 static void check_instant(const sw_zone *z, sw_time_ms t)
 {
-    sw_time_ms start, next, utc[2];
+    sw_time_ms start, next, utc[SW_ZONE_MAX_SHOWN];
     int yyyymm, n, found = 0;
     sw_time_ms local = t + (sw_time_ms)sw_zone_offset_at(z, t) * 1000;
 
@@ -67,14 +67,17 @@ static void check_instant(const sw_zone *z, sw_time_ms t)
     if (!(start <= t && t < next))
         abort();
     n = sw_zone_local_to_utc(z, local, utc);
-    if (n < 1 || n > 2 || (n == 2 && !(utc[0] < utc[1])))
+    if (n < 1 || n > SW_ZONE_MAX_SHOWN)
         abort();
+    for (int i = 1; i < n; i++)
+        if (!(utc[i - 1] < utc[i]))
+            abort();
     for (int i = 0; i < n; i++) {
         if (utc[i] + (sw_time_ms)sw_zone_offset_at(z, utc[i]) * 1000 != local)
             abort();
         found |= utc[i] == t;
     }
-    if (!found && shown(z, local) < 3)
+    if (!found && shown(z, local) <= SW_ZONE_MAX_SHOWN)
         abort();
 }
 
@@ -110,13 +113,27 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     }
     for (size_t i = 0; i < sizeof fixed_s / sizeof fixed_s[0]; i++)
         check_instant(z, fixed_s[i] * 1000);
-    /* instants from the input's own bytes, within 1900-2200 */
-    for (size_t i = 0; i + 8 <= size && i < 64 * 8; i += 8) {
-        uint64_t v = 0;
-        for (int k = 0; k < 8; k++)
-            v = v << 8 | data[i + (size_t)k];
-        check_instant(z, (-2208988800LL + (int64_t)(v % 9498643200ULL)) *
-                             1000);
+    /* instants from the input's own bytes: every 32- and 64-bit
+     * big-endian number in it that falls in 1900-2200 (the transition
+     * times of the TZif data are among them), and the instants a second
+     * and a millisecond either side, where months and offsets change */
+    int checked = 0;
+    for (size_t i = 0; i + 4 <= size && checked < 256; i++) {
+        for (int width = 4; width <= 8; width += 4) {
+            int64_t v = 0;
+            if (i + (size_t)width > size)
+                continue;
+            for (int k = 0; k < width; k++)
+                v = (int64_t)((uint64_t)v << 8 | data[i + (size_t)k]);
+            if (width == 4)
+                v = (int32_t)(uint32_t)v;
+            if (v < -2208988799LL || v > 7289654398LL)
+                continue;
+            static const int64_t nudge_ms[] = {-1000, -1, 0, 1, 1000};
+            for (size_t d = 0; d < 5; d++)
+                check_instant(z, v * 1000 + nudge_ms[d]);
+            checked++;
+        }
     }
     sw_zone_free(z);
     return 0;
