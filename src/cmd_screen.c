@@ -152,10 +152,22 @@ static int cmp_verdict(const void *a, const void *b)
     return (x->gate > y->gate) - (x->gate < y->gate);
 }
 
+/* Warn of a last line left out because its file grew while it was read
+ * (see README, "Level files"). */
+static void warn_partial(const char *path, const sw_reader_stats *rs,
+                         int quiet)
+{
+    if (rs->partial_line > 0 && !quiet)
+        fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has no "
+                        "line end and the file changed while it was read (a "
+                        "writer was still at it); it is left out\n",
+                path, rs->partial_line);
+}
+
 /* Replay the expanded site: forecast.csv per step; verdicts at the end. */
 static int screen_members(const sw_site *site, const sw_ensemble *ens,
                           sw_outfile *out, verdict *vd, sw_time_ms *t0,
-                          sw_error *err)
+                          int quiet, sw_error *err)
 {
     sw_stepper *st = NULL;
     sw_stepper_options opt = {0, 1};
@@ -253,6 +265,10 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
         v->open_median = median_ms(sr, k);
     }
 cleanup:
+    for (size_t i = 0; st != NULL && rc == SW_OK && i < sw_stepper_n_series(st);
+         i++)
+        warn_partial(sw_stepper_series(st, i)->path,
+                     sw_stepper_reader_stats(st, i), quiet);
     sw_stepper_free(st);
     free(fs);
     free(sr);
@@ -318,6 +334,8 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
                 fputc(i == 0 ? ',' : '\n', fp);
             }
         }
+        if (rc == SW_OK)
+            warn_partial(sr->path, sw_reader_get_stats(rd), quiet);
         sw_reader_free(rd);
         if (rc != SW_OK)
             break;
@@ -415,7 +433,8 @@ int sw_cmd_screen(int argc, char **argv)
     if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
         goto fail;
     if (ens.site.n_gates > 0 &&
-        (rc = screen_members(&site, &ens, out, vd, &t0, &err)) != SW_OK)
+        (rc = screen_members(&site, &ens, out, vd, &t0, o.quiet, &err)) !=
+            SW_OK)
         goto fail;
     if (!have_issued)
         issued = t0;
