@@ -335,6 +335,69 @@ static int roll_back(const journal *j)
     return sync_dir(j->dir);
 }
 
+/* Copy a file, synced: the journal's fallback on a file system without
+ * hard links (FAT).  Returns 0 or -1. */
+static int copy_file(const char *from, const char *to)
+{
+    char buf[65536];
+    int in = open(from, O_RDONLY | O_CLOEXEC), out, bad = 0;
+    ssize_t got;
+
+    if (in < 0)
+        return -1;
+    out = open(to, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0600);
+    if (out < 0) {
+        close(in);
+        return -1;
+    }
+    while (!bad && (got = read(in, buf, sizeof buf)) != 0) {
+        if (got < 0) {
+            bad = errno != EINTR;
+            continue;
+        }
+        for (ssize_t done = 0; !bad && done < got;) {
+            ssize_t put = write(out, buf + done, (size_t)(got - done));
+            if (put < 0)
+                bad = errno != EINTR;
+            else
+                done += put;
+        }
+    }
+    if (fsync(out) != 0 && errno != EINVAL)
+        bad = 1;
+    close(in);
+    if (close(out) != 0)
+        bad = 1;
+    if (bad)
+        unlink(to);
+    return bad ? -1 : 0;
+}
+
+/* Whether two files have the same bytes (1), differ (0), or one cannot be
+ * read (-1). */
+static int same_bytes(const char *a, const char *b)
+{
+    char x[4096], y[4096];
+    FILE *fa = fopen(a, "rb"), *fb = fopen(b, "rb");
+    int same = -1;
+
+    if (fa != NULL && fb != NULL) {
+        size_t na, nb;
+        do {
+            na = fread(x, 1, sizeof x, fa);
+            nb = fread(y, 1, sizeof y, fb);
+        } while (na == nb && na > 0 && memcmp(x, y, na) == 0);
+        same = ferror(fa) || ferror(fb) ? -1
+               : na == nb && na == 0    ? 1
+                                        : 0;
+    }
+    if (fa != NULL)
+        fclose(fa);
+    if (fb != NULL)
+        fclose(fb);
+    return same;
+}
+
 /* Make the journal: link the previous files, write the list, sync. */
 static int make_journal(journal *j, sw_error *err)
 {
@@ -354,8 +417,11 @@ static int make_journal(journal *j, sw_error *err)
             j->held[k] = HELD_NONE;
         else if (!S_ISREG(sb.st_mode))
             j->held[k] = HELD_KEEP;
-        else if (link(from, to) == 0)
-            j->held[k] = HELD_OLD;
+        else if (link(from, to) == 0 ||
+                 ((errno == EPERM || errno == EXDEV || errno == EMLINK ||
+                   errno == ENOSYS || errno == EOPNOTSUPP) &&
+                  copy_file(from, to) == 0))
+            j->held[k] = HELD_OLD; /* a copy where there are no links */
         else
             goto fail;
     }
@@ -561,12 +627,19 @@ static int recover_journal(journal *j)
     if (join(mine, sizeof mine, j->dir, SW_OUTSET_MANIFEST) != 0 ||
         join(kept, sizeof kept, j->path, SW_OUTSET_MANIFEST) != 0)
         return -1;
+    /* the manifest in place is the new one when it is not the kept one
+     * (compared by bytes, which also serves a journal of copies: a new
+     * manifest with the same bytes describes the same files) */
     if (lstat(mine, &a) != 0)
         placed = 0;
     else if (j->held[j->n - 1] != HELD_OLD || lstat(kept, &b) != 0)
         placed = 1; /* a new manifest, or the old one already put back */
+    else if (a.st_ino == b.st_ino && a.st_dev == b.st_dev)
+        placed = 0;
+    else if ((placed = same_bytes(mine, kept)) >= 0)
+        placed = !placed;
     else
-        placed = a.st_ino != b.st_ino || a.st_dev != b.st_dev;
+        return -1;
     if (placed) {
         remove_journal(j->path);
         return sync_dir(j->dir) == 0 ? 1 : -1;
