@@ -130,7 +130,7 @@ check-valgrind-all: $(PROG) $(UNIT_BIN)
 FUZZ_CC      ?= clang-14
 FUZZ_SECONDS ?= 60
 FUZZ_DIR     := $(BUILD)/fuzz
-FUZZ_NAMES   := site levels range
+FUZZ_NAMES   := site levels range zone
 FUZZ_BIN     := $(FUZZ_NAMES:%=$(FUZZ_DIR)/fuzz_%)
 FUZZ_SAN     := -fsanitize=address,undefined -fno-sanitize-recover=all \
                 -fno-omit-frame-pointer
@@ -139,6 +139,12 @@ FUZZ_SAN     := -fsanitize=address,undefined -fno-sanitize-recover=all \
 FUZZ_MAXLEN_site   := 4096
 FUZZ_MAXLEN_levels := 4096
 FUZZ_MAXLEN_range  := 96
+FUZZ_MAXLEN_zone   := 8192
+# Memory limits per target (libFuzzer: the process's RSS, and any single
+# allocation; RSS counts AddressSanitizer's quarantine, some 250 MB): the
+# site file is fuzzed under a tight limit on each allocation, so that input
+# that makes the reader grow (an endless line) is a finding.
+FUZZ_MEM_site      := -rss_limit_mb=1024 -malloc_limit_mb=64
 
 # The library, instrumented for the fuzzer, built by this Makefile itself.
 # clang and its fuzzer runtime are needed by this target only, so they are
@@ -165,7 +171,7 @@ fuzz-run-%: $(FUZZ_DIR)/fuzz_%
 	  $(FUZZ_DIR)/corpus-$*/
 	$(FUZZ_DIR)/fuzz_$* -max_total_time=$(FUZZ_SECONDS) \
 	  -max_len=$(FUZZ_MAXLEN_$*) -artifact_prefix=$(FUZZ_DIR)/artifacts-$*/ \
-	  -print_final_stats=1 -timeout=10 \
+	  -print_final_stats=1 -timeout=10 $(FUZZ_MEM_$*) \
 	  $(if $(wildcard tests/fuzz/$*.dict),-dict=tests/fuzz/$*.dict) \
 	  $(FUZZ_DIR)/corpus-$*
 

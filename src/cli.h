@@ -21,6 +21,23 @@ enum sw_exit {
     SW_EXIT_INTERNAL = 8   /* a bug (please report) */
 };
 
+/* Install the handlers of SIGINT and SIGTERM: they ask the library to
+ * stop (sillwatch/cancel.h); calls are not restarted. */
+void sw_cli_handle_signals(void);
+
+/* The exit code of an interrupted command: 128 + the signal (130 for
+ * SIGINT, 143 for SIGTERM), as shells report a process killed by it. */
+int sw_cli_interrupt_code(void);
+
+/* Print "sillwatch: COMMAND: interrupted; WHAT" and return
+ * sw_cli_interrupt_code(). */
+int sw_cli_interrupted(const char *command, const char *what);
+
+/* Before writing into `dir`: roll back an interrupted publish and remove
+ * temporary files of processes that are gone (sw_outset_recover), saying
+ * what was done on stderr unless `quiet`.  Returns SW_OK or SW_EOUTPUT. */
+int sw_cli_recover(const char *dir, int quiet, sw_error *err);
+
 /* The exit code for a library status. */
 int sw_cli_exit_code(int status);
 

@@ -3,7 +3,6 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -12,6 +11,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
 #include "sillwatch/htmlreport.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
@@ -31,8 +31,10 @@ static const char run_help[] =
     "  months.csv    with --by month: the summary per calendar month\n"
     "  report.html   with --report: the season report, one page with\n"
     "                charts and tables, to open, print or attach\n"
-    "Each file is written whole or not at all; a failed run leaves the\n"
-    "previous outputs as they were.\n"
+    "  manifest.csv  written last: each file's size and SHA-256; a folder\n"
+    "                without it holds no complete set\n"
+    "The files are put in place as one set: a failed or interrupted run\n"
+    "leaves the previous set as it was.\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE instead of the\n"
@@ -44,16 +46,9 @@ static const char run_help[] =
     "  -h, --help             show this help and exit\n"
     "\n"
     "Exit status: 0 every gate held its margin, 1 some gate was low or open,\n"
-    "2 usage, 3 site file, 4 level data, 5 output, 130 interrupted; see\n"
-    "'sillwatch --help'.\n"
+    "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
+    "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
-
-static volatile sig_atomic_t interrupted;
-
-static void on_signal(int sig)
-{
-    interrupted = sig;
-}
 
 enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, N_OUT };
 static const char *const out_names[N_OUT] = {
@@ -194,6 +189,10 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
                    "%ld\n",
                    rs->time_rejected, rs->time_rejected == 1 ? "" : "s",
                    rs->first_time_rejected_line);
+        if (rs->partial_line > 0)
+            printf("    line %ld: the last line, without a line end, was left "
+                   "out: the file changed while it was read\n",
+                   rs->partial_line);
         if (rs->unresolved > 0)
             printf("    %ld row(s) in a repeated daylight-saving hour could not "
                    "be placed by order and were taken as the first "
@@ -285,38 +284,41 @@ static void command_line(char *buf, size_t n, int argc, char **argv)
     }
 }
 
-/* Write the season report: the site's and every level file's SHA-256, the
- * generation time and the command line go into its provenance. */
+/* Write the season report: every level file's SHA-256 joins the site's,
+ * the generation time and the command line already in meta. */
 static int write_report(const sw_html_report *rep, FILE *fp,
-                        const sw_stepper *st, const sw_site *site,
-                        const char *cmd, sw_error *err)
+                        const sw_stepper *st, const sw_html_meta *base,
+                        sw_error *err)
 {
     size_t n = sw_stepper_n_series(st);
-    char sha[SW_CLI_SHA256_HEX], when[32];
     char (*hex)[SW_CLI_SHA256_HEX] = calloc(n + 1, sizeof *hex);
     const char **hexp = calloc(n + 1, sizeof *hexp);
-    sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution, cmd, hexp};
-    int rc;
+    sw_html_meta meta = *base;
+    int rc = SW_OK;
 
     if (hex == NULL || hexp == NULL) {
         rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
         goto done;
     }
-    if ((rc = sw_cli_sha256_file(site->path, sha, err)) != SW_OK)
-        goto done;
-    for (size_t i = 0; i < n; i++) {
-        if ((rc = sw_cli_sha256_file(sw_stepper_series(st, i)->path, hex[i],
-                                     err)) != SW_OK)
-            goto done;
+    for (size_t i = 0; i < n && rc == SW_OK; i++) {
+        rc = sw_cli_sha256_file(sw_stepper_series(st, i)->path, hex[i], err);
         hexp[i] = hex[i];
     }
-    if (sw_cli_generation_time(when, sizeof when) != 0)
-        snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
-    rc = sw_html_report_write(rep, fp, st, &meta, err);
+    meta.series_sha256 = hexp;
+    if (rc == SW_OK)
+        rc = sw_html_report_write(rep, fp, st, &meta, err);
 done:
     free(hex);
     free(hexp);
     return rc;
+}
+
+static int run_interrupted(const char *outdir)
+{
+    char what[SW_ERROR_PATH_MAX + 64];
+    snprintf(what, sizeof what, "earlier outputs in %s are left as they were",
+             outdir);
+    return sw_cli_interrupted("run", what);
 }
 
 int sw_cmd_run(int argc, char **argv)
@@ -344,15 +346,14 @@ int sw_cmd_run(int argc, char **argv)
         return rc;
     }
 
-    signal(SIGINT, on_signal);
-    signal(SIGTERM, on_signal);
     /* the report draws every point and sums the months */
     sw_stepper_options sopt = {o.by_month || o.report, o.steps || o.report};
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
         goto fail;
     if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
         goto fail;
-    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
+        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
         if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
@@ -374,7 +375,7 @@ int sw_cmd_run(int argc, char **argv)
     while (!done) {
         if ((rc = sw_stepper_advance(st, &done, &err)) != SW_OK)
             goto fail;
-        if (interrupted)
+        if (sw_cancel_requested())
             goto stop;
         if (!done) {
             if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
@@ -409,17 +410,28 @@ int sw_cmd_run(int argc, char **argv)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
     }
-    if (o.report && (rc = write_report(rep, out[OUT_REPORT].fp, st, &site,
-                                       cmd, &err)) != SW_OK)
+    char sha[SW_CLI_SHA256_HEX], when[32];
+    if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
         goto fail;
+    if (sw_cli_generation_time(when, sizeof when) != 0)
+        snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
+    if (o.report) {
+        sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution, cmd, NULL};
+        if ((rc = write_report(rep, out[OUT_REPORT].fp, st, &meta, &err)) !=
+            SW_OK)
+            goto fail;
+    }
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
-    if (interrupted)
+    if (sw_cancel_requested())
         goto stop;
-    for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+    {
+        sw_outset_meta mm = {SW_VERSION, sha, when};
+        if ((rc = sw_outset_publish(o.outdir, out, out_names, N_OUT, &mm,
+                                    &err)) != SW_OK)
             goto fail;
+    }
 
     exit_code = SW_EXIT_OK;
     for (size_t i = 0; i < site.n_gates; i++) {
@@ -436,10 +448,20 @@ int sw_cmd_run(int argc, char **argv)
                     "safe\n", site.gates[i].gate.name, h);
         }
     }
+    for (size_t i = 0; i < sw_stepper_n_series(st) && !o.quiet; i++) {
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        if (rs->partial_line > 0)
+            fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has "
+                            "no line end and the file changed while it was "
+                            "read (a writer was still at it); it is left "
+                            "out\n",
+                    sw_stepper_series(st, i)->path, rs->partial_line);
+    }
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv%s%s%s\n", o.outdir,
+        printf("\noutputs in %s: summary.csv, events.csv%s%s%s, "
+               "manifest.csv\n", o.outdir,
                o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
                o.report ? ", report.html" : "");
         fputs(sw_cli_caution, stdout);
@@ -452,14 +474,12 @@ int sw_cmd_run(int argc, char **argv)
 stop:
     if (show_progress)
         fputs("\n", stderr);
-    fprintf(stderr, "sillwatch: run: interrupted; earlier outputs in %s are "
-                    "left as they were\n", o.outdir);
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
-    return 130;
+    return run_interrupted(o.outdir);
 
 fail:
     for (int k = 0; k < N_OUT; k++)
@@ -467,5 +487,7 @@ fail:
     sw_html_report_free(rep);
     sw_stepper_free(st);
     sw_site_fini(&site);
+    if (rc == SW_EINTERRUPTED)
+        return run_interrupted(o.outdir);
     return sw_cli_report(&err);
 }

@@ -10,6 +10,7 @@
 #include <sys/stat.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
 #include "sillwatch/ensemble.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
@@ -43,8 +44,12 @@ static const char screen_help[] =
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "\n"
+    "  manifest.csv   written last: each file's size and SHA-256; the\n"
+    "                 files are put in place as one set, or not at all\n"
+    "\n"
     "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
-    "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
+    "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
+    "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
 enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
@@ -147,10 +152,22 @@ static int cmp_verdict(const void *a, const void *b)
     return (x->gate > y->gate) - (x->gate < y->gate);
 }
 
+/* Warn of a last line left out because its file grew while it was read
+ * (see README, "Level files"). */
+static void warn_partial(const char *path, const sw_reader_stats *rs,
+                         int quiet)
+{
+    if (rs->partial_line > 0 && !quiet)
+        fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has no "
+                        "line end and the file changed while it was read (a "
+                        "writer was still at it); it is left out\n",
+                path, rs->partial_line);
+}
+
 /* Replay the expanded site: forecast.csv per step; verdicts at the end. */
 static int screen_members(const sw_site *site, const sw_ensemble *ens,
                           sw_outfile *out, verdict *vd, sw_time_ms *t0,
-                          sw_error *err)
+                          int quiet, sw_error *err)
 {
     sw_stepper *st = NULL;
     sw_stepper_options opt = {0, 1};
@@ -170,7 +187,8 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
           "fs_p90,sill_reaction_p10,sill_reaction_p50,sill_reaction_p90\n",
           fp);
     for (int last = 0; !last;) {
-        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK)
+        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
+            (rc = sw_cancel_check(err)) != SW_OK)
             goto cleanup;
         if (done) {
             if ((rc = sw_stepper_finish(st, err)) != SW_OK)
@@ -247,6 +265,10 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
         v->open_median = median_ms(sr, k);
     }
 cleanup:
+    for (size_t i = 0; st != NULL && rc == SW_OK && i < sw_stepper_n_series(st);
+         i++)
+        warn_partial(sw_stepper_series(st, i)->path,
+                     sw_stepper_reader_stats(st, i), quiet);
     sw_stepper_free(st);
     free(fs);
     free(sr);
@@ -287,7 +309,8 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
             sw_time_ms t;
             double hw;
             sw_crit c[2];
-            if ((rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
+            if ((rc = sw_cancel_check(err)) != SW_OK ||
+                (rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
                 !has_row)
                 break;
             if (isnan(hw))
@@ -311,6 +334,8 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
                 fputc(i == 0 ? ',' : '\n', fp);
             }
         }
+        if (rc == SW_OK)
+            warn_partial(sr->path, sw_reader_get_stats(rd), quiet);
         sw_reader_free(rd);
         if (rc != SW_OK)
             break;
@@ -366,7 +391,7 @@ int sw_cmd_screen(int argc, char **argv)
     }
     if (o.issued != NULL) {
         sw_stamp stamp;
-        sw_time_ms utc[2];
+        sw_time_ms utc[SW_ZONE_MAX_SHOWN];
         if (sw_stamp_parse(o.issued, strlen(o.issued), &stamp, &err) !=
             SW_OK) {
             sw_site_fini(&site);
@@ -390,7 +415,8 @@ int sw_cmd_screen(int argc, char **argv)
 
     if ((rc = sw_ensemble_expand(&ens, &site, &err)) != SW_OK)
         goto fail;
-    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
+    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
+        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
@@ -407,7 +433,8 @@ int sw_cmd_screen(int argc, char **argv)
     if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
         goto fail;
     if (ens.site.n_gates > 0 &&
-        (rc = screen_members(&site, &ens, out, vd, &t0, &err)) != SW_OK)
+        (rc = screen_members(&site, &ens, out, vd, &t0, o.quiet, &err)) !=
+            SW_OK)
         goto fail;
     if (!have_issued)
         issued = t0;
@@ -451,9 +478,18 @@ int sw_cmd_screen(int argc, char **argv)
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
-    for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_publish(&out[k], &err)) != SW_OK)
+    {
+        char sha[SW_CLI_SHA256_HEX], when[32];
+        sw_outset_meta mm = {SW_VERSION, sha, when};
+        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK ||
+            (rc = sw_cancel_check(&err)) != SW_OK)
             goto fail;
+        if (sw_cli_generation_time(when, sizeof when) != 0)
+            snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
+        if ((rc = sw_outset_publish(o.outdir, out, out_names, N_OUT, &mm,
+                                    &err)) != SW_OK)
+            goto fail;
+    }
 
     if (!o.quiet && n_v > 0) {
         char when[64];
@@ -488,7 +524,7 @@ int sw_cmd_screen(int argc, char **argv)
     if (!o.quiet) {
         sw_cli_print_fs_basis(&site);
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv\n", o.outdir);
+               "required_max.csv, manifest.csv\n", o.outdir);
         fputs(sw_cli_caution, stdout);
     }
     free(vd);
@@ -502,5 +538,11 @@ fail:
     free(vd);
     sw_ensemble_fini(&ens);
     sw_site_fini(&site);
+    if (rc == SW_EINTERRUPTED) {
+        char what[SW_ERROR_PATH_MAX + 64];
+        snprintf(what, sizeof what, "earlier outputs in %s are left as they "
+                                    "were", o.outdir);
+        return sw_cli_interrupted("screen", what);
+    }
     return sw_cli_report(&err);
 }

@@ -3,7 +3,6 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
-#include <signal.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -12,6 +11,7 @@
 #include <time.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
 #include "sillwatch/thresholds.h"
@@ -50,17 +50,9 @@ static const char thresholds_help[] =
     "gravity, generation time (SOURCE_DATE_EPOCH if set), mode, caution.\n"
     "\n"
     "Exit status: 0 table written, 2 usage, 3 site file, 5 output,\n"
-    "6 numerical failure, 130 interrupted; see 'sillwatch --help'.\n"
+    "6 numerical failure, 130 (SIGINT) or 143 (SIGTERM) interrupted; see\n"
+    "'sillwatch --help'.\n"
     "\n";
-
-/* Set by SIGINT and SIGTERM; the one way a signal handler may talk to the
- * program (as in cmd_run.c). */
-static volatile sig_atomic_t interrupted;
-
-static void on_signal(int sig)
-{
-    interrupted = sig;
-}
 
 typedef struct thr_opts {
     const char *site_path, *output;
@@ -425,8 +417,6 @@ int sw_cmd_thresholds(int argc, char **argv)
             gates[n_gates++] = &site.gates[i].gate;
     }
 
-    signal(SIGINT, on_signal);
-    signal(SIGTERM, on_signal);
     if ((rc = sw_thresholds_alloc(&t, gates, n_gates, o.axis, &o.range,
                                   &err)) != SW_OK)
         goto fail;
@@ -440,12 +430,14 @@ int sw_cmd_thresholds(int argc, char **argv)
             goto fail;
         }
     }
-    if ((rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
+    if ((rc = sw_outfile_check_target(o.output, &err)) != SW_OK ||
+        (rc = sw_cli_recover(dir, 0, &err)) != SW_OK ||
+        (rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
         goto fail;
     if (o.tol_m > 0.0 &&
         (rc = sw_thresholds_simplify(t, o.tol_m, &fit, &err)) != SW_OK)
         goto fail;
-    if (interrupted)
+    if (sw_cancel_requested())
         goto stop;
     write_header(out.fp, &o, &site, sha, when, gates, n_gates, t,
                  o.tol_m > 0.0 ? &fit : NULL);
@@ -454,12 +446,12 @@ int sw_cmd_thresholds(int argc, char **argv)
         if ((rc = sw_thresholds_get_row(t, i, &row, &err)) != SW_OK)
             goto fail;
         write_row(out.fp, row, gates, n_gates);
-        if (interrupted)
+        if (sw_cancel_requested())
             goto stop;
     }
     if ((rc = sw_outfile_close(&out, &err)) != SW_OK)
         goto fail;
-    if (interrupted)
+    if (sw_cancel_requested())
         goto stop;
     if ((rc = sw_outfile_publish(&out, &err)) != SW_OK)
         goto fail;
@@ -489,17 +481,20 @@ int sw_cmd_thresholds(int argc, char **argv)
     }
     return SW_EXIT_OK;
 
-stop:
-    fprintf(stderr, "sillwatch: thresholds: interrupted; %s is left as it "
-                    "was\n", o.output);
-    sw_outfile_abort(&out);
-    sw_thresholds_free(t);
-    sw_site_fini(&site);
-    return 130;
-
 fail:
+    if (rc != SW_EINTERRUPTED) {
+        sw_outfile_abort(&out);
+        sw_thresholds_free(t);
+        sw_site_fini(&site);
+        return sw_cli_report(&err);
+    }
+stop:
     sw_outfile_abort(&out);
     sw_thresholds_free(t);
     sw_site_fini(&site);
-    return sw_cli_report(&err);
+    {
+        char what[SW_ERROR_PATH_MAX + 32];
+        snprintf(what, sizeof what, "%s is left as it was", o.output);
+        return sw_cli_interrupted("thresholds", what);
+    }
 }

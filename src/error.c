@@ -42,6 +42,7 @@ const char *sw_status_name(int code)
     case SW_ENOMEM: return "out of memory";
     case SW_ENUMERIC: return "numerical failure";
     case SW_EINTERNAL: return "internal error";
+    case SW_EINTERRUPTED: return "interrupted";
     default: return "unknown error";
     }
 }

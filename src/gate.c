@@ -26,6 +26,15 @@
 #define MAX_SIZE_M 500.0
 #define MAX_LEVEL_M 1.0e4
 #define MAX_MASS_KG 1.0e9
+/* Plausibility, so that no accepted gate makes a critical-level search
+ * fail (common practice, no source): sizes of the opening and leaf of at
+ * least 1 mm, and moments of weight, buoyancy and extra_moment each at
+ * most that of a MAX_HEAD_M head of the densest accepted water (1100
+ * kg/m^3 at 9.9 m/s^2) on the sealed area at the sill's arm: critical
+ * levels then stay within about that head of the hinge. */
+#define MIN_SIZE_M 1.0e-3
+#define MAX_HEAD_M 1.0e5
+#define MAX_REQUIRED_FS 100.0
 
 const char *sw_state_name(sw_state state)
 {
@@ -75,9 +84,56 @@ static int check_size(const sw_gate *g, const char *key, double v,
 {
     if (!isfinite(v) || v <= 0.0)
         return bad(err, bad_key, g, key, v, "must be a positive length in m");
+    if (v < MIN_SIZE_M)
+        return bad(err, bad_key, g, key, v,
+                   "m is implausibly small (under 1 mm): is the unit m?");
     if (v > MAX_SIZE_M)
         return bad(err, bad_key, g, key, v,
                    "m is implausibly large (over 500 m): is the unit m?");
+    return SW_OK;
+}
+
+/* The moment of a MAX_HEAD_M head of the densest water on the sealed
+ * opening at the sill's arm. */
+static double moment_bound(const sw_gate *g, double s_sill)
+{
+    double area = g->shape == SW_SHAPE_RECTANGLE
+                      ? g->seal_height_m * g->seal_width_m
+                      : M_PI * g->diameter_m * g->diameter_m / 4.0;
+    return 1100.0 * 9.9 * MAX_HEAD_M * area * s_sill;
+}
+
+/* The moments' bound (see MAX_HEAD_M): each of weight, buoyancy and
+ * extra_moment at most that of a 100 km head on the sealed opening. */
+static int check_moments(const sw_gate *g, double s_sill,
+                         const char **bad_key, sw_error *err)
+{
+    const double rho = 1100.0, grav = 9.9;
+    double a = g->inclination_deg * M_PI / 180.0;
+    double weight, buoy, bound = moment_bound(g, s_sill);
+
+    weight = fabs(g->mass_kg * grav *
+                  (g->cg_along_m * cos(a) + g->cg_offset_m * sin(a)));
+    buoy = rho * grav * g->volume_m3 * g->leaf_length_m / 2.0;
+    char why[160];
+    const char *key = fabs(g->extra_moment_Nm) > bound ? "extra_moment"
+                      : weight > bound                 ? "mass"
+                      : buoy > bound                   ? "volume"
+                                                       : NULL;
+    if (key == NULL)
+        return SW_OK;
+    snprintf(why, sizeof why,
+             "%s: the %s moment is implausibly large for this opening "
+             "(over %.3g N*m, a 100 km head of water on the sealed area at "
+             "the sill)",
+             key[0] == 'e' ? "N*m" : key[0] == 'm' ? "kg" : "m^3",
+             key[0] == 'e' ? "extra" : key[0] == 'm' ? "weight" : "buoyancy",
+             bound);
+    return bad(err, bad_key, g, key,
+               key[0] == 'e' ? g->extra_moment_Nm
+               : key[0] == 'm' ? g->mass_kg
+                               : g->volume_m3,
+               why);
     return SW_OK;
 }
 
@@ -160,6 +216,8 @@ int sw_gate_validate(const sw_gate *g, const char **bad_key, sw_error *err)
     if (!isfinite(g->extra_moment_Nm))
         return bad(err, bad_key, g, "extra_moment", g->extra_moment_Nm,
                    "must be a finite moment in N*m");
+    if ((rc = check_moments(g, s_sill, bad_key, err)) != SW_OK)
+        return rc;
     if (isnan(g->required_fs)) {
         if (bad_key != NULL)
             *bad_key = "required_fs";
@@ -174,6 +232,15 @@ int sw_gate_validate(const sw_gate *g, const char **bad_key, sw_error *err)
     if (!isfinite(g->min_sill_reaction_N) || g->min_sill_reaction_N < 0.0)
         return bad(err, bad_key, g, "min_sill_reaction", g->min_sill_reaction_N,
                    "must be >= 0 N");
+    if (g->required_fs > MAX_REQUIRED_FS)
+        return bad(err, bad_key, g, "required_fs", g->required_fs,
+                   "is implausibly large (over 100)");
+    if (g->min_sill_reaction_N * s_sill > moment_bound(g, s_sill))
+        return bad(err, bad_key, g, "min_sill_reaction",
+                   g->min_sill_reaction_N,
+                   "N is implausibly large for this opening: times the "
+                   "sill's arm it exceeds the moment of a 100 km head of "
+                   "water on the sealed area");
     for (int side = 0; side < 2; side++)
         if (!isfinite(g->rho_kgm3[side]) || g->rho_kgm3[side] <= 0.0)
             return bad(err, bad_key, g, "density", g->rho_kgm3[side],
@@ -590,9 +657,12 @@ static int refine(margin_ctx *c, double lo, double hi, double f_lo,
     gsl_root_fsolver_free(s);
     if (status != GSL_SUCCESS || iter > 200)
         return sw_error_set(err, SW_ENUMERIC, NULL, 0, 0,
-                            "critical level of gate '%s': Brent solver failed "
-                            "(%s)",
+                            "critical %s of gate '%s' at %s %.4f m: Brent "
+                            "solver failed between %.10g and %.10g m (%s)",
+                            c->vary_tailwater ? "tailwater" : "headwater",
                             c->gate->name,
+                            c->vary_tailwater ? "headwater" : "tailwater",
+                            c->fixed, lo, hi,
                             status != GSL_SUCCESS ? gsl_strerror(status)
                                                   : "no convergence");
     /* keep the bracket end where the limit holds */
@@ -687,8 +757,12 @@ static int ray(margin_ctx *c, double from, double *root, sw_error *err)
         f0 = f1;
     }
     return sw_error_set(err, SW_ENUMERIC, NULL, 0, 0,
-                        "critical level of gate '%s': no crossing within "
-                        "1e19 m of the hinge", c->gate->name);
+                        "critical %s of gate '%s' at %s %.4f m: no "
+                        "crossing within 1e19 m of the hinge",
+                        c->vary_tailwater ? "tailwater" : "headwater",
+                        c->gate->name,
+                        c->vary_tailwater ? "headwater" : "tailwater",
+                        c->fixed);
 }
 
 /* Below this level a water touches neither the opening nor the leaf, so it

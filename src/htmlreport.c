@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "sillwatch/cancel.h"
 #include "sillwatch/critcache.h"
 #include "sillwatch/report.h"
 
@@ -18,6 +19,8 @@
 #define BUCKET_MS0 60000    /* first column width: one minute */
 #define MONTHS_DRAWN 36     /* more months than this are drawn by year */
 #define CRIT_CACHE 4096     /* critical levels kept per gate (power of 2) */
+#define CRIT_CACHE_MANY 64  /* the same, when the site has more gates than
+                               are drawn (SW_HTML_GATES_DRAWN) */
 
 /* ---- collecting --------------------------------------------------------- */
 
@@ -49,6 +52,10 @@ typedef struct cloud {
 struct sw_html_report {
     const sw_site *site;
     size_t n_gates;
+    size_t n_drawn;       /* gates with charts: the first
+                             SW_HTML_GATES_DRAWN; the rest are in the
+                             tables only */
+    size_t cache_n;       /* critical levels cached per gate */
     size_t n_lv;          /* level series drawn: distinct series in use */
     size_t *lv_series;    /* 2 x n_gates: index into site->series */
     size_t n_tw;          /* of those, the tailwater series */
@@ -58,7 +65,7 @@ struct sw_html_report {
     trace *tr;            /* levels [0, n_lv), fs per gate, then tw_alarm
                              and tw_open per tailwater series */
     size_t n_tr;
-    unsigned char *flags; /* n_gates x NB */
+    unsigned char *flags; /* n_drawn x NB */
     int started;
     sw_time_ms t0, w, t_prev;
     sw_time_ms *noeval;   /* per gate, the tally at the last point */
@@ -74,17 +81,18 @@ struct sw_html_report {
     size_t n_worst;
     size_t n_months, cap_months;
     int *yyyymm;
-    sw_time_ms *m_low, *m_open; /* n_months x n_gates */
+    sw_time_ms *m_low, *m_open; /* n_months x n_drawn */
 };
 
+/* fs traces only for the drawn gates (g < n_drawn) */
 static size_t tr_fs(const sw_html_report *r, size_t g) { return r->n_lv + g; }
 static size_t tr_alarm(const sw_html_report *r, size_t k)
 {
-    return r->n_lv + r->n_gates + k;
+    return r->n_lv + r->n_drawn + k;
 }
 static size_t tr_open(const sw_html_report *r, size_t k)
 {
-    return r->n_lv + r->n_gates + r->n_tw + k;
+    return r->n_lv + r->n_drawn + r->n_tw + k;
 }
 
 static int nomem(sw_error *err)
@@ -138,14 +146,16 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
         return nomem(err);
     r->site = site;
     r->n_gates = ng;
+    r->n_drawn = ng < SW_HTML_GATES_DRAWN ? ng : SW_HTML_GATES_DRAWN;
+    r->cache_n = ng <= SW_HTML_GATES_DRAWN ? CRIT_CACHE : CRIT_CACHE_MANY;
     r->gate_hw = calloc(ng, sizeof *r->gate_hw);
     r->gate_tw = calloc(ng, sizeof *r->gate_tw);
     r->gate_twk = calloc(ng, sizeof *r->gate_twk);
     r->noeval = calloc(ng, sizeof *r->noeval);
     r->gap_prev = calloc(ng, sizeof *r->gap_prev);
     r->crit = calloc(ng + 1, sizeof *r->crit);
-    r->clouds = malloc(ng * sizeof *r->clouds);
-    r->flags = calloc(ng * NB, 1);
+    r->clouds = malloc((r->n_drawn + 1) * sizeof *r->clouds);
+    r->flags = calloc(r->n_drawn * NB + 1, 1);
     r->lv_series = calloc(2 * ng + 1, sizeof *r->lv_series);
     r->tw_lv = calloc(2 * ng + 1, sizeof *r->tw_lv);
     r->spare_h = malloc((CLOUD_MAX + 1) * sizeof *r->spare_h);
@@ -160,9 +170,10 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
         r->gate_hw[g] = lv_index(r, site->gates[g].headwater);
         r->gate_tw[g] = lv_index(r, site->gates[g].tailwater);
         if (sw_crit_cache_alloc(&r->crit[g], &site->gates[g].gate,
-                                CRIT_CACHE, err) != SW_OK)
+                                r->cache_n, err) != SW_OK)
             goto fail;
-        clear_cloud(&r->clouds[g]);
+        if (g < r->n_drawn)
+            clear_cloud(&r->clouds[g]);
     }
     for (size_t g = 0; g < ng; g++) {
         size_t k = 0;
@@ -172,7 +183,7 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
             r->tw_lv[r->n_tw++] = r->gate_tw[g];
         r->gate_twk[g] = k;
     }
-    r->n_tr = r->n_lv + ng + 2 * r->n_tw;
+    r->n_tr = r->n_lv + r->n_drawn + 2 * r->n_tw;
     r->tr = malloc(r->n_tr * sizeof *r->tr);
     r->val = calloc(r->n_tr, sizeof *r->val);
     r->brk = calloc(r->n_tr, sizeof *r->brk);
@@ -246,7 +257,7 @@ static void widen(sw_html_report *r)
             b[k].brk = 0;
         }
     }
-    for (size_t g = 0; g < r->n_gates; g++) {
+    for (size_t g = 0; g < r->n_drawn; g++) {
         unsigned char *f = r->flags + g * NB;
         for (size_t k = 0; k < NB / 2; k++)
             f[k] = (unsigned char)(f[2 * k] | f[2 * k + 1]);
@@ -282,6 +293,8 @@ static void mark(sw_html_report *r, size_t g, sw_time_ms a, sw_time_ms b,
 {
     unsigned char *f = r->flags + g * NB;
     size_t k1;
+    if (g >= r->n_drawn)
+        return;
     /* an event closed at the end of the data may end past the last point */
     while (b - r->t0 >= (sw_time_ms)NB * r->w)
         widen(r);
@@ -390,7 +403,8 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         else {
             /* a line may go on from the last point */
             r->brk[r->gate_hw[g]] = r->brk[r->gate_tw[g]] = 0;
-            r->brk[tr_fs(r, g)] = 0;
+            if (g < r->n_drawn)
+                r->brk[tr_fs(r, g)] = 0;
             r->brk[tr_alarm(r, r->gate_twk[g])] = 0;
             r->brk[tr_open(r, r->gate_twk[g])] = 0;
         }
@@ -408,7 +422,9 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         const sw_gate_result *res = &sg->result;
         r->val[r->gate_hw[g]] = res->headwater_m;
         r->val[r->gate_tw[g]] = res->tailwater_m;
-        r->val[tr_fs(r, g)] = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, res->fs));
+        if (g < r->n_drawn)
+            r->val[tr_fs(r, g)] =
+                fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, res->fs));
         if ((rc = crit_at(r, g, res->headwater_m, err)) != SW_OK)
             return rc;
         if (r->alarm_now.kind == SW_CRIT_LEVEL &&
@@ -417,7 +433,8 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
         if (r->open_now.kind == SW_CRIT_LEVEL &&
             !(r->val[io] >= r->open_now.level_m))
             r->val[io] = r->open_now.level_m;
-        cloud_add(r, &r->clouds[g], res->headwater_m, res->tailwater_m);
+        if (g < r->n_drawn)
+            cloud_add(r, &r->clouds[g], res->headwater_m, res->tailwater_m);
     }
     for (size_t i = 0; i < r->n_tr; i++) {
         trace *tr = &r->tr[i];
@@ -451,7 +468,7 @@ void sw_html_report_event(sw_html_report *r, const sw_event *ev)
         mark(r, ev->gate, ev->start, ev->end,
              ev->worst == SW_STATE_OPEN ? F_OPEN : F_LOW);
         /* the least factor of safety may fall between timeline points */
-        if (!isnan(ev->min_fs)) {
+        if (!isnan(ev->min_fs) && ev->gate < r->n_drawn) {
             trace *tr = &r->tr[tr_fs(r, ev->gate)];
             bucket *b = &tr->b[column_of(r, ev->min_fs_t)];
             double v = fmax(-FS_DRAW_CAP, fmin(FS_DRAW_CAP, ev->min_fs));
@@ -480,13 +497,23 @@ void sw_html_report_event(sw_html_report *r, const sw_event *ev)
 int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
                          sw_error *err)
 {
-    size_t i = r->n_months;
-    while (i > 0 && r->yyyymm[i - 1] != m->yyyymm)
-        i--;
+    /* yyyymm[] is kept sorted: a binary search finds the month (the
+     * gates' rows interleave, so a scan from the end could go far back) */
+    size_t at = 0, hi = r->n_months, i;
+    if (m->gate >= r->n_drawn)
+        return SW_OK; /* drawn gates only (all gates share the months) */
+    while (at < hi) {
+        size_t mid = at + (hi - at) / 2;
+        if (r->yyyymm[mid] < m->yyyymm)
+            at = mid + 1;
+        else
+            hi = mid;
+    }
+    i = at < r->n_months && r->yyyymm[at] == m->yyyymm ? at + 1 : 0;
     if (i == 0) {
         if (r->n_months == r->cap_months) {
             size_t cap = r->cap_months ? 2 * r->cap_months : 16;
-            size_t ng = r->n_gates;
+            size_t ng = r->n_drawn;
             int *y = realloc(r->yyyymm, cap * sizeof *y);
             if (y == NULL)
                 return nomem(err);
@@ -501,15 +528,23 @@ int sw_html_report_month(sw_html_report *r, const sw_month_row *m,
             r->m_open = op;
             r->cap_months = cap;
         }
-        i = r->n_months++;
+        /* insert at `at` (the end, as months come in order) */
+        size_t ng = r->n_drawn, tail = r->n_months - at;
+        memmove(&r->yyyymm[at + 1], &r->yyyymm[at], tail * sizeof *r->yyyymm);
+        memmove(&r->m_low[(at + 1) * ng], &r->m_low[at * ng],
+                tail * ng * sizeof *r->m_low);
+        memmove(&r->m_open[(at + 1) * ng], &r->m_open[at * ng],
+                tail * ng * sizeof *r->m_open);
+        r->n_months++;
+        i = at;
         r->yyyymm[i] = m->yyyymm;
-        for (size_t g = 0; g < r->n_gates; g++)
-            r->m_low[i * r->n_gates + g] = r->m_open[i * r->n_gates + g] = 0;
+        for (size_t g = 0; g < ng; g++)
+            r->m_low[i * ng + g] = r->m_open[i * ng + g] = 0;
         i++;
     }
     i--;
-    r->m_low[i * r->n_gates + m->gate] += m->tally.low;
-    r->m_open[i * r->n_gates + m->gate] += m->tally.open;
+    r->m_low[i * r->n_drawn + m->gate] += m->tally.low;
+    r->m_open[i * r->n_drawn + m->gate] += m->tally.open;
     return SW_OK;
 }
 
@@ -751,7 +786,7 @@ typedef struct tstep {
 
 static sw_time_ms to_utc(const sw_zone *z, sw_time_ms wall)
 {
-    sw_time_ms u[2];
+    sw_time_ms u[SW_ZONE_MAX_SHOWN];
     if (z == NULL)
         return wall;
     if (sw_zone_local_to_utc(z, wall, u) >= 1)
@@ -1417,7 +1452,7 @@ static int chart_envelope(FILE *fp, const sw_html_report *r, size_t g,
 
 static void chart_months(FILE *fp, const sw_html_report *r)
 {
-    size_t ng = r->n_gates, n = r->n_months, ngroups;
+    size_t ng = r->n_drawn, n = r->n_months, ngroups;
     int by_year = n > MONTHS_DRAWN;
     frame f = {64, 944, 40, 250, 0, 1, 0, 1};
     char label[48];
@@ -2065,11 +2100,22 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
           "needed at that headwater. Each drawn column keeps its least and "
           "greatest value.</figcaption>\n</figure>\n</div>\n", fp);
 
-    for (size_t g = 0; g < r->n_gates; g++) {
-        /* the heading stays with the first chart */
-        fputs(g == 0 ? "<div class=\"keep\"><h2 id=\"fs\">Factor of safety "
-                       "per gate</h2>\n<figure>\n"
-                     : "<figure>\n", fp);
+    for (size_t g = 0; g < r->n_drawn; g++) {
+        if ((rc = sw_cancel_check(err)) != SW_OK)
+            return rc;
+        /* the heading (and the note on undrawn gates) stays with the
+         * first chart */
+        if (g == 0) {
+            fputs("<div class=\"keep\"><h2 id=\"fs\">Factor of safety "
+                  "per gate</h2>\n", fp);
+            if (r->n_drawn < r->n_gates)
+                fprintf(fp, "<p class=\"meta\">The site has %zu gates: the "
+                            "charts show the first %zu (factor of safety, "
+                            "envelope, hours by month); every gate is in the "
+                            "tables, and in the CSV files.</p>\n",
+                        r->n_gates, r->n_drawn);
+        }
+        fputs("<figure>\n", fp);
         chart_fs(fp, r, g, t1);
         fputs("<figcaption>", fp);
         const sw_gate *q = &site->gates[g].gate;
@@ -2090,20 +2136,21 @@ int sw_html_report_write(const sw_html_report *r, FILE *fp,
 
     /* two envelopes a row, each row kept whole, the heading with the
      * first */
-    for (size_t g = 0; g < r->n_gates; g++) {
+    for (size_t g = 0; g < r->n_drawn; g++) {
         if (g == 0)
             fputs("<div class=\"keep\"><h2 id=\"envelope\">Operating "
                   "envelopes</h2>\n", fp);
         if (g % 2 == 0)
             fputs("<div class=\"envelopes\">\n", fp);
         fputs("<figure>\n", fp);
-        if ((rc = chart_envelope(fp, r, g, err)) != SW_OK)
+        if ((rc = sw_cancel_check(err)) != SW_OK ||
+            (rc = chart_envelope(fp, r, g, err)) != SW_OK)
             return rc;
         fputs("<figcaption>", fp);
         escf(fp, "Gate %s: its state over headwater and tailwater, with the "
              "level pairs observed in the run.", site->gates[g].gate.name);
         fputs("</figcaption>\n</figure>\n", fp);
-        if (g % 2 == 1 || g + 1 == r->n_gates)
+        if (g % 2 == 1 || g + 1 == r->n_drawn)
             fputs(g < 2 ? "</div>\n</div>\n" : "</div>\n", fp);
     }
 

@@ -4,6 +4,7 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
+#include <signal.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -16,6 +17,8 @@
 #include <nettle/sha2.h>
 
 #include "cli.h"
+#include "sillwatch/cancel.h"
+#include "sillwatch/outfile.h"
 
 const char sw_cli_caution[] =
     "Caution: hydrostatic screening only (no waves, surges, debris, ice or\n"
@@ -126,8 +129,66 @@ static const char usage_text[] =
     "  6  a numerical method failed (please report it)\n"
     "  7  out of memory\n"
     "  8  internal error (please report it)\n"
-    "  130  interrupted (SIGINT or SIGTERM); earlier outputs left as they were\n"
+    "  130  interrupted by SIGINT, 143 by SIGTERM (128 + the signal);\n"
+    "       earlier outputs are left as they were\n"
     "\n";
+
+/* SIGINT and SIGTERM ask the library to stop (cancel.h). */
+static void on_signal(int sig)
+{
+    sw_cancel_request(sig);
+}
+
+void sw_cli_handle_signals(void)
+{
+    struct sigaction sa;
+
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigemptyset(&sa.sa_mask);
+    sa.sa_flags = 0; /* no SA_RESTART: a blocking call returns EINTR */
+    sigaction(SIGINT, &sa, NULL);
+    sigaction(SIGTERM, &sa, NULL);
+}
+
+int sw_cli_interrupt_code(void)
+{
+    int sig = sw_cancel_requested();
+    return 128 + (sig > 0 ? sig : SIGINT);
+}
+
+int sw_cli_interrupted(const char *command, const char *what)
+{
+    fprintf(stderr, "sillwatch: %s: interrupted; %s\n", command, what);
+    return sw_cli_interrupt_code();
+}
+
+int sw_cli_recover(const char *dir, int quiet, sw_error *err)
+{
+    sw_outset_recovery rec;
+    int rc = sw_outset_recover(dir, &rec, err);
+
+    if (rc != SW_OK || quiet)
+        return rc;
+    if (rec.publish == 2)
+        fprintf(stderr, "sillwatch: warning: %s: process %ld was stopped "
+                        "while it put its outputs in place; its previous "
+                        "outputs are restored\n", dir, rec.publish_pid);
+    else if (rec.publish == 1)
+        fprintf(stderr, "sillwatch: warning: %s: process %ld was stopped "
+                        "after it put its outputs in place; its journal is "
+                        "removed\n", dir, rec.publish_pid);
+    if (rec.stale_removed == 1)
+        fprintf(stderr, "sillwatch: warning: %s: removed a temporary file "
+                        "left by process %ld, which is gone\n",
+                dir, rec.stale_pid);
+    else if (rec.stale_removed > 1)
+        fprintf(stderr, "sillwatch: warning: %s: removed %ld temporary "
+                        "files left by processes that are gone (process %ld "
+                        "among them)\n",
+                dir, rec.stale_removed, rec.stale_pid);
+    return SW_OK;
+}
 
 int sw_cli_exit_code(int status)
 {
@@ -139,12 +200,16 @@ int sw_cli_exit_code(int status)
     case SW_EOUTPUT: return SW_EXIT_OUTPUT;
     case SW_ENUMERIC: return SW_EXIT_NUMERIC;
     case SW_ENOMEM: return SW_EXIT_NOMEM;
+    case SW_EINTERRUPTED: return sw_cli_interrupt_code();
     default: return SW_EXIT_INTERNAL;
     }
 }
 
 int sw_cli_report(const sw_error *err)
 {
+    /* an interruption is said once, by the command or by main() */
+    if (err->code == SW_EINTERRUPTED)
+        return sw_cli_exit_code(err->code);
     fputs("sillwatch: ", stderr);
     if (err->file[0] != '\0') {
         fputs(err->file, stderr);
@@ -255,16 +320,18 @@ int main(int argc, char **argv)
     static const struct {
         const char *name;
         int (*run)(int, char **);
+        int writes; /* handles an interruption itself */
     } commands[] = {
-        {"check", sw_cmd_check},
-        {"point", sw_cmd_point},
-        {"run", sw_cmd_run},
-        {"screen", sw_cmd_screen},
-        {"thresholds", sw_cmd_thresholds},
+        {"check", sw_cmd_check, 0},
+        {"point", sw_cmd_point, 0},
+        {"run", sw_cmd_run, 1},
+        {"screen", sw_cmd_screen, 1},
+        {"thresholds", sw_cmd_thresholds, 1},
     };
 
     /* Failures are reported through status codes, never by abort(). */
     gsl_set_error_handler_off();
+    sw_cli_handle_signals();
 
     if (argc < 2) {
         fputs(usage_text, stderr);
@@ -281,7 +348,13 @@ int main(int argc, char **argv)
         return SW_EXIT_OK;
     }
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
-        if (strcmp(argv[1], commands[i].name) == 0)
-            return commands[i].run(argc - 1, argv + 1);
+        if (strcmp(argv[1], commands[i].name) == 0) {
+            int code = commands[i].run(argc - 1, argv + 1);
+            /* the writing commands say so themselves; these write nothing */
+            if (sw_cancel_requested() && !commands[i].writes)
+                return sw_cli_interrupted(commands[i].name,
+                                          "nothing was written");
+            return code;
+        }
     return sw_cli_usage_error(NULL, "unknown command '%s'", argv[1]);
 }

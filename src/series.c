@@ -51,9 +51,14 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <poll.h>
 #include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
 
 #include <csv.h>
+
+#include "sillwatch/cancel.h"
 
 #include "sillwatch/decimal.h"
 
@@ -127,6 +132,9 @@ struct sw_reader {
     char *buf;
     size_t cap, pos, end;
     int eof;
+    int regular;       /* a regular file: read up to size_at_open */
+    unsigned long long size_at_open, taken;
+    struct timespec mtime_at_open;
     int started;       /* the first bytes were read (BOM checked) */
     long line;         /* physical lines taken so far */
 
@@ -242,6 +250,61 @@ static int fail_at(const sw_reader *r, sw_error *err, int code, long line,
 
 /* ---- lines -------------------------------------------------------------- */
 
+/* Read what the file holds, at most n bytes, into dst (*got = 0 at its
+ * end).  A regular file is read up to its size when it was opened, so a
+ * run sees the file as it was then.  Anything else (a FIFO, a pipe, a
+ * terminal) is polled SW_CANCEL_POLL_MS at a time, and a read returns what
+ * has come, so that a signal is noticed while the writer is silent. */
+static int read_chunk(sw_reader *r, char *dst, size_t n, size_t *got,
+                      sw_error *err)
+{
+    int fd = fileno(r->fp);
+
+    *got = 0;
+    if (r->regular) {
+        if (r->taken >= r->size_at_open)
+            return SW_OK;
+        if ((unsigned long long)n > r->size_at_open - r->taken)
+            n = (size_t)(r->size_at_open - r->taken);
+    }
+    for (;;) {
+        ssize_t k;
+        if (sw_cancel_requested())
+            return sw_cancel_check(err);
+        if (!r->regular) {
+            struct pollfd p = {fd, POLLIN, 0};
+            int ready = poll(&p, 1, SW_CANCEL_POLL_MS);
+            if (ready == 0 || (ready < 0 && errno == EINTR))
+                continue;
+        }
+        k = read(fd, dst, n);
+        if (k >= 0) {
+            *got = (size_t)k;
+            r->taken += (unsigned long long)k;
+            return SW_OK;
+        }
+        if (errno != EINTR)
+            return fail_at(r, err, SW_EDATA, r->line + 1, 0,
+                           "read error: %s", strerror(errno));
+    }
+}
+
+/* Whether a regular file changed while it was read (its size or its
+ * modification time is not what it was at open): then a last line
+ * without a line end was cut by a writer still at it. */
+static int partial_changed(const sw_reader *r)
+{
+    struct stat sb;
+
+    if (!r->regular)
+        return 0;
+    if (fstat(fileno(r->fp), &sb) != 0)
+        return 1;
+    return (unsigned long long)sb.st_size != r->size_at_open ||
+           sb.st_mtim.tv_sec != r->mtime_at_open.tv_sec ||
+           sb.st_mtim.tv_nsec != r->mtime_at_open.tv_nsec;
+}
+
 /* Take the next physical line: *line and *len (with its '\n' if it has
  * one; *has_nl says which).  *len is 0 at the end of the file.  Reads more
  * of the file when the buffer holds no complete line. */
@@ -266,6 +329,12 @@ static int next_line(sw_reader *r, char **line, size_t *len, int *has_nl,
                            "line longer than 1 MiB (is this a level "
                            "file?)");
         if (r->eof) {
+            if (avail > 0 && partial_changed(r)) {
+                /* a line cut by a writer that was still at it */
+                r->stats.partial_line = r->line + 1;
+                r->pos = r->end;
+                avail = 0;
+            }
             *line = start;
             *len = avail;
             *has_nl = 0;
@@ -291,13 +360,11 @@ static int next_line(sw_reader *r, char **line, size_t *len, int *has_nl,
             r->buf = grown;
             r->cap = cap;
         }
-        got = fread(r->buf + r->end, 1, r->cap - r->end, r->fp);
-        if (got < r->cap - r->end) {
-            if (ferror(r->fp))
-                return fail_at(r, err, SW_EDATA, r->line + 1, 0,
-                               "read error: %s", strerror(errno));
+        int rc = read_chunk(r, r->buf + r->end, r->cap - r->end, &got, err);
+        if (rc != SW_OK)
+            return rc;
+        if (got == 0)
             r->eof = 1;
-        }
         r->end += got;
         r->odd_ok = 0;
         /* A UTF-8 byte-order mark is no part of the first line. */
@@ -319,6 +386,18 @@ static int is_skipped_line(const char *s, size_t len)
         if (s[i] != ' ' && s[i] != '\t' && s[i] != '\r' && s[i] != '\n')
             return 0;
     return 1;
+}
+
+/* Whether a CR stands inside the line, before other text (not just at
+ * its end, as in CRLF): a file whose lines end in CR alone reads as one
+ * line. */
+static int cr_inside(const char *s, size_t len)
+{
+    const char *cr = memchr(s, '\r', len);
+    for (; cr != NULL && cr < s + len; cr++)
+        if (*cr != '\r' && *cr != '\n')
+            return 1;
+    return 0;
 }
 
 /* The delimiter of a header line: the most frequent of ',' ';' and tab
@@ -536,8 +615,15 @@ static int read_record(sw_reader *r, void (*field_cb)(void *, size_t, void *),
         }
         r->line++;
         if (!r->in_record) {
-            if (is_skipped_line(s, len))
+            if (is_skipped_line(s, len)) {
+                if (s[0] == '#' && cr_inside(s, len))
+                    return fail_at(r, err, SW_EDATA, r->line, 0,
+                                   "a carriage return (CR) inside this "
+                                   "comment line: are the file's lines "
+                                   "ended by CR alone? give the file LF or "
+                                   "CRLF line ends");
                 continue;
+            }
             if (r->delim == 0) {
                 r->delim = detect_delimiter(s, len);
                 csv_set_delim(&r->csv, (unsigned char)r->delim);
@@ -645,7 +731,7 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
                        r->time_err.message);
 
     if (r->time_state == TIME_LOCAL) {
-        sw_time_ms utc[2];
+        sw_time_ms utc[SW_ZONE_MAX_SHOWN];
         int n = sw_zone_local_to_utc(r->zone, r->rec_wall, utc);
 
         if (n == 0) {
@@ -656,14 +742,15 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
             return SW_OK;
         }
         t = utc[0];
-        if (n == 2) {
+        if (n >= 2) {
             /* A repeated hour (daylight saving ends): the logger went on
              * in time order, so the earliest reading later than the
              * previous record is the one meant. */
-            if (r->has_prev && utc[0] > r->prev_t) {
-                st->ambiguous++;
-            } else if (r->has_prev && utc[1] > r->prev_t) {
-                t = utc[1];
+            int k = 0;
+            while (r->has_prev && k < n && utc[k] <= r->prev_t)
+                k++;
+            if (r->has_prev && k < n) {
+                t = utc[k];
                 st->ambiguous++;
             } else if (st->unresolved++ == 0) {
                 st->first_unresolved_line = r->rec_line;
@@ -671,6 +758,15 @@ static int finish_record(sw_reader *r, int *keep, sw_time_ms *t_out,
         }
     } else {
         t = r->rec_t;
+    }
+    if (t < SW_SERIES_TIME_MIN_MS || t >= SW_SERIES_TIME_END_MS) {
+        sw_time_format(a, sizeof a, t, NULL);
+        return fail_at(r, err, SW_EDATA, r->rec_line, time_col,
+                       "time %s is outside the years 1900 to 2200 (UTC) "
+                       "that level times may have%s", a,
+                       t >= SW_SERIES_TIME_END_MS
+                           ? "; a time in milliseconds read as seconds?"
+                           : "");
     }
 
     if (r->has_prev && t <= r->prev_t) {
@@ -949,12 +1045,24 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
 static int read_header(sw_reader *r, int *got, sw_error *err)
 {
     struct stat sb;
-    if ((r->fp = fopen(r->path, "rb")) == NULL)
+    /* opening a FIFO waits for its writer; a signal ends the wait (the
+     * program's handlers do not restart calls) */
+    while ((r->fp = fopen(r->path, "rb")) == NULL) {
+        if (errno == EINTR && !sw_cancel_requested())
+            continue;
+        if (errno == EINTR)
+            return sw_cancel_check(err);
         return fail_at(r, err, SW_EDATA, 0, 0,
                        "cannot open the level file: %s", strerror(errno));
+    }
     if (fstat(fileno(r->fp), &sb) == 0 && S_ISDIR(sb.st_mode))
         return fail_at(r, err, SW_EDATA, 0, 0,
                        "this is a folder, not a level file");
+    if (S_ISREG(sb.st_mode)) {
+        r->regular = 1;
+        r->size_at_open = (unsigned long long)sb.st_size;
+        r->mtime_at_open = sb.st_mtim;
+    }
     if ((r->buf = malloc(CHUNK_BYTES)) == NULL)
         return sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
     r->cap = CHUNK_BYTES;

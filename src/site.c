@@ -32,6 +32,13 @@
 
 #include <ini.h>
 
+/* The longest physical line read from a site file: far beyond the 200
+ * characters libinih takes, so that a line that is merely long gets the
+ * message naming that limit, while a file that is no site file at all
+ * (/dev/zero, a binary) stops here instead of filling memory. */
+#define SITE_LINE_MAX ((size_t)64 * 1024)
+
+#include "sillwatch/cancel.h"
 #include "sillwatch/gravity.h"
 #include "sillwatch/water.h"
 
@@ -598,6 +605,63 @@ static void read_header(parser *p, const char *text)
     p->have_cur = 1;
 }
 
+/* Read one physical line (with its '\n', if any) into p->raw, NUL
+ * terminated.  Returns its length, 0 at the end of the file, or -1 after
+ * setting the error: a read error, a line longer than SITE_LINE_MAX
+ * (anything but a site file: /dev/zero, a binary file), or no memory
+ * (said so, never taken for the end of the file). */
+static ssize_t read_line(parser *p)
+{
+    size_t len = 0;
+    int c;
+
+    errno = 0;
+    for (;;) {
+        c = getc(p->fp);
+        if (c == EOF && ferror(p->fp) && errno == EINTR) {
+            /* a signal during a read of a FIFO or terminal */
+            if (sw_cancel_requested()) {
+                p->status = sw_cancel_check(p->err);
+                return -1;
+            }
+            clearerr(p->fp);
+            continue;
+        }
+        if (c == EOF)
+            break;
+        if (len + 2 > p->raw_cap) {
+            size_t cap = p->raw_cap ? 2 * p->raw_cap : 256;
+            char *grown = realloc(p->raw, cap);
+            if (grown == NULL) {
+                p->status = sw_error_set(p->err, SW_ENOMEM, p->path,
+                                         p->lineno + 1, 0,
+                                         "out of memory reading the site "
+                                         "file");
+                return -1;
+            }
+            p->raw = grown;
+            p->raw_cap = cap;
+        }
+        p->raw[len++] = (char)c;
+        if (c == '\n')
+            break;
+        if (len > SITE_LINE_MAX) {
+            fail(p, p->lineno + 1, 0,
+                 "line longer than 64 KiB: is this a site file?");
+            return -1;
+        }
+    }
+    if (c == EOF && ferror(p->fp)) {
+        fail(p, p->lineno + 1, 0, "cannot read the site file: %s",
+             strerror(errno != 0 ? errno : EIO));
+        return -1;
+    }
+    if (len == 0)
+        return 0;
+    p->raw[len] = '\0';
+    return (ssize_t)len;
+}
+
 /* libinih's reader: hand it the next physical line, without its
  * indentation (an indented line would otherwise continue the previous
  * value) and with a single '\n'.  Sections are opened here, since libinih
@@ -621,14 +685,8 @@ static char *site_reader(char *str, int num, void *stream)
     p->key_line = 0;
     p->handler_called = 0;
 
-    errno = 0;
-    got = getline(&p->raw, &p->raw_cap, p->fp);
-    if (got < 0) {
-        if (ferror(p->fp))
-            fail(p, p->lineno + 1, 0, "cannot read the site file: %s",
-                 strerror(errno != 0 ? errno : EIO));
+    if ((got = read_line(p)) <= 0)
         return NULL;
-    }
     p->lineno++;
     len = (size_t)got;
     if (memchr(p->raw, '\0', len) != NULL) {
@@ -1424,10 +1482,15 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     p.path = path;
     p.err = err;
 
-    p.fp = fopen(path, "r");
+    /* a FIFO's open waits for its writer: a stop request ends the wait */
+    while ((p.fp = fopen(path, "r")) == NULL && errno == EINTR &&
+           !sw_cancel_requested())
+        ;
     if (p.fp == NULL)
-        return sw_error_set(err, SW_ESITE, path, 0, 0,
-                            "cannot open the site file: %s", strerror(errno));
+        return errno == EINTR ? sw_cancel_check(err)
+                              : sw_error_set(err, SW_ESITE, path, 0, 0,
+                                             "cannot open the site file: %s",
+                                             strerror(errno));
     struct stat sb;
     if (fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
         fclose(p.fp);

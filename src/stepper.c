@@ -24,8 +24,12 @@
 
 #include <math.h>
 #include <pthread.h>
+#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
+
+#include "sillwatch/cancel.h"
 
 #define RESOLUTION_MS 1000 /* state changes are located to this */
 #define MAX_DEPTH 64       /* bisection stack; 2^64 ms is never reached */
@@ -314,9 +318,23 @@ static int read_record(reader_state *rs, sw_error *err)
             rs->head = (rs->head + 1) % N_BATCHES;
             rs->taken = 0;
         }
+        /* wait for the next batch, looking at the stop request every
+         * SW_CANCEL_POLL_MS (the reader may wait on a silent FIFO) */
         pthread_mutex_lock(&rs->mu);
-        while (rs->count == 0)
-            pthread_cond_wait(&rs->cv, &rs->mu);
+        while (rs->count == 0) {
+            struct timespec until;
+            if (sw_cancel_requested()) {
+                pthread_mutex_unlock(&rs->mu);
+                return sw_cancel_check(err);
+            }
+            clock_gettime(CLOCK_REALTIME, &until);
+            until.tv_nsec += SW_CANCEL_POLL_MS * 1000000L;
+            if (until.tv_nsec >= 1000000000L) {
+                until.tv_sec++;
+                until.tv_nsec -= 1000000000L;
+            }
+            pthread_cond_timedwait(&rs->cv, &rs->mu, &until);
+        }
         pthread_mutex_unlock(&rs->mu);
         rs->taken = 1;
         rs->pos = 0;
@@ -341,7 +359,16 @@ static int start_read_ahead(reader_state *rs, sw_error *err)
         pthread_mutex_destroy(&rs->mu);
         return nomem(err);
     }
-    if (pthread_create(&rs->thread, NULL, read_ahead, rs) != 0) {
+    /* the reading thread never takes SIGINT or SIGTERM: they go to the
+     * calling thread, whose blocking calls (opening a FIFO) they end */
+    sigset_t block, old;
+    sigemptyset(&block);
+    sigaddset(&block, SIGINT);
+    sigaddset(&block, SIGTERM);
+    pthread_sigmask(SIG_BLOCK, &block, &old);
+    int created = pthread_create(&rs->thread, NULL, read_ahead, rs);
+    pthread_sigmask(SIG_SETMASK, &old, NULL);
+    if (created != 0) {
         pthread_cond_destroy(&rs->cv);
         pthread_mutex_destroy(&rs->mu);
         return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
@@ -660,7 +687,8 @@ static int roll_month(sw_stepper *st, gate_state *g, size_t gi, sw_time_ms t,
         return SW_OK;
     }
     while (t >= g->month_next) {
-        if ((rc = emit_month(st, g, gi, g->month_next, err)) != SW_OK)
+        if ((rc = sw_cancel_check(err)) != SW_OK ||
+            (rc = emit_month(st, g, gi, g->month_next, err)) != SW_OK)
             return rc;
         sw_month_bounds(g->month_next, st->site->zone, &g->month_start,
                         &g->month_next, &g->month_yyyymm);

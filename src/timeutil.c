@@ -404,8 +404,8 @@ int32_t sw_zone_offset_at(const sw_zone *zone, sw_time_ms t)
  * u = local - offset(u), and the offset lies in [min_off, max_off], so
  * only the transitions in [local - max_off, local - min_off] matter; they
  * are walked in order. */
-static int local_to_utc(const sw_zone *z, sw_time_ms local, sw_time_ms utc[2],
-                        sw_time_ms *gap_end)
+static int local_to_utc(const sw_zone *z, sw_time_ms local,
+                        sw_time_ms utc[SW_ZONE_MAX_SHOWN], sw_time_ms *gap_end)
 {
     int64_t local_s = floor_div(local, SW_MS_PER_S);
     int64_t t = local_s - z->max_off_s, last = local_s - z->min_off_s;
@@ -421,7 +421,7 @@ static int local_to_utc(const sw_zone *z, sw_time_ms local, sw_time_ms utc[2],
         int32_t off = zone_info(z, t, &until);
         int64_t u = local_s - off;
         if (u >= t && u < until) {
-            if (count < 2)
+            if (count < SW_ZONE_MAX_SHOWN)
                 utc[count] = local - (sw_time_ms)off * SW_MS_PER_S;
             count++;
         } else if (u < t && !found_gap) {
@@ -433,11 +433,11 @@ static int local_to_utc(const sw_zone *z, sw_time_ms local, sw_time_ms utc[2],
             break;
         t = until;
     }
-    return count > 2 ? 2 : count;
+    return count > SW_ZONE_MAX_SHOWN ? SW_ZONE_MAX_SHOWN : count;
 }
 
 int sw_zone_local_to_utc(const sw_zone *zone, sw_time_ms local,
-                         sw_time_ms utc[2])
+                         sw_time_ms utc[SW_ZONE_MAX_SHOWN])
 {
     sw_time_ms gap_end;
 
@@ -1156,7 +1156,7 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
         st.has_offset = 1;
         i++;
     } else if (i < n && (p[i] == '+' || p[i] == '-')) {
-        int sign = p[i] == '-' ? -1 : 1, oh, om = 0;
+        int sign = p[i] == '-' ? -1 : 1, oh, om = 0, os = 0;
         if (n - i < 3 || (oh = two_digits(p + i + 1)) < 0)
             return stamp_shape_error(err, p, n,
                                      "has a UTC offset that is not +hh:mm, "
@@ -1168,6 +1168,17 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
                                          "has a UTC offset that is not "
                                          "+hh:mm, +hhmm or +hh");
             i += 3;
+            /* +hh:mm:ss: the local mean times of the tz database (before
+             * 1937 in Amsterdam: +00:19:32), as sw_time_format writes
+             * them, so that every time the tool writes reads back */
+            if (i < n && p[i] == ':') {
+                if (n - i < 3 || (os = two_digits(p + i + 1)) < 0 || os > 59)
+                    return stamp_shape_error(err, p, n,
+                                             "has a UTC offset that is not "
+                                             "+hh:mm, +hh:mm:ss, +hhmm or "
+                                             "+hh");
+                i += 3;
+            }
         } else if (n - i >= 2 && (om = two_digits(p + i)) >= 0) {
             i += 2;
         } else {
@@ -1178,7 +1189,7 @@ static int stamp_parse(const char *text, size_t len, sw_stamp_memo *memo,
         if (om > 59)
             return stamp_range_error(err, p, n, "UTC offset minutes", om);
         st.has_offset = 1;
-        st.offset_s = (int32_t)(sign * (oh * 3600 + om * 60));
+        st.offset_s = (int32_t)(sign * (oh * 3600 + om * 60 + os));
     }
     if (i != n) {
         quote q = quote_of(n);
@@ -1361,7 +1372,7 @@ int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
  * showing it, or the first instant after the gap that skips it. */
 static sw_time_ms midnight(const sw_zone *zone, int64_t day, int which)
 {
-    sw_time_ms utc[2], gap_end, local = day * MS_PER_DAY;
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN], gap_end, local = day * MS_PER_DAY;
     int count;
 
     if (zone == NULL)
@@ -1370,6 +1381,31 @@ static sw_time_ms midnight(const sw_zone *zone, int64_t day, int which)
     if (count == 0)
         return gap_end;
     return utc[which < count ? which : count - 1];
+}
+
+/* The first instant after t at which the wall clock shows local midnight
+ * starting day `day`, or passes it: the earliest showing after t; else
+ * the end of the skipped interval that holds it, if after t; else (the
+ * clock was set back across that midnight before t, and leaps over it
+ * later: crafted zones) the next change of offset after t. */
+static sw_time_ms next_midnight(const sw_zone *zone, int64_t day, sw_time_ms t)
+{
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN], gap_end, local = day * MS_PER_DAY;
+    int64_t until;
+    int count;
+
+    if (zone == NULL || zone->is_fixed)
+        return midnight(zone, day, 0);
+    count = local_to_utc(zone, local, utc, &gap_end);
+    for (int i = 0; i < count; i++)
+        if (utc[i] > t)
+            return utc[i];
+    if (count == 0 && gap_end > t)
+        return gap_end;
+    zone_info(zone, floor_div(t, SW_MS_PER_S), &until);
+    if (until == INT64_MAX || until > INT64_MAX / SW_MS_PER_S)
+        return t + 1;
+    return until * SW_MS_PER_S > t ? until * SW_MS_PER_S : t + 1;
 }
 
 void sw_month_bounds(sw_time_ms t, const sw_zone *zone, sw_time_ms *start,
@@ -1384,11 +1420,13 @@ void sw_month_bounds(sw_time_ms t, const sw_zone *zone, sw_time_ms *start,
     nm = m == 12 ? 1 : m + 1;
     /* A midnight shown twice begins the month at its first showing; but
      * if t lies in the second showing of the previous month's last hour,
-     * the next month must begin after t, at the second showing. */
+     * the next month must begin after t, at the next showing. */
     *start = midnight(zone, sw_days_from_civil(y, m, 1), 0);
-    *next = midnight(zone, sw_days_from_civil(ny, nm, 1), 0);
-    if (*next <= t)
-        *next = midnight(zone, sw_days_from_civil(ny, nm, 1), 1);
+    *next = next_midnight(zone, sw_days_from_civil(ny, nm, 1), t);
+    /* a crafted zone can show t's wall time after the month's midnight
+     * went by (the clock set back across it) */
+    if (*start > t)
+        *start = t;
     *yyyymm = (int)(y * 100 + m);
 }
 

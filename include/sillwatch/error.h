@@ -22,7 +22,8 @@ typedef enum sw_status {
     SW_EOUTPUT,   /* an output cannot be written */
     SW_ENOMEM,    /* out of memory */
     SW_ENUMERIC,  /* a numerical method failed (GSL status in the message) */
-    SW_EINTERNAL  /* a bug: an invariant did not hold */
+    SW_EINTERNAL, /* a bug: an invariant did not hold */
+    SW_EINTERRUPTED /* stopped by a signal (see cancel.h) */
 } sw_status;
 
 #define SW_ERROR_PATH_MAX 512

@@ -39,6 +39,11 @@
 /* Time columns kept for drawing (the charts are about 880 units wide). */
 #define SW_HTML_BUCKETS 1024
 
+/* Gates drawn: a site with more has charts (factor of safety, envelope,
+ * hours by month) for its first SW_HTML_GATES_DRAWN gates only, and the
+ * rest in the tables, so that the page and the memory stay bounded. */
+#define SW_HTML_GATES_DRAWN 24
+
 /* What the page says about its making. */
 typedef struct sw_html_meta {
     const char *site_sha256;   /* hex digest of the site file */

@@ -69,6 +69,13 @@ typedef struct sw_column_stats {
     sw_reject kept[SW_SERIES_REJECTS_KEPT];
 } sw_column_stats;
 
+/* Level times must lie in the years 1900 to 2200 (UTC): from
+ * 1900-01-01T00:00:00Z, before 2201-01-01T00:00:00Z.  A time outside is
+ * a mistake (milliseconds read as seconds gives the year 57062), and the
+ * bound keeps the months of a run, and its hours, bounded. */
+#define SW_SERIES_TIME_MIN_MS ((sw_time_ms)-2208988800LL * 1000)
+#define SW_SERIES_TIME_END_MS ((sw_time_ms)7289654400LL * 1000)
+
 typedef struct sw_reader_stats {
     long records;             /* data records read (not header/comments) */
     long duplicates;          /* exact duplicate records skipped */
@@ -79,6 +86,9 @@ typedef struct sw_reader_stats {
     long unresolved;          /* repeated-hour times taken as the first */
     long first_unresolved_line;
     sw_time_ms first_t, last_t;
+    long partial_line;        /* a last line without a line end, left out
+                                 because the file changed while it was
+                                 read (a writer was still at it); 0 none */
     sw_column_stats column[SW_SERIES_MAX_COLUMNS];
 } sw_reader_stats;
 

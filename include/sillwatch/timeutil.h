@@ -42,12 +42,19 @@ const char *sw_zone_name(const sw_zone *zone);
 /* UTC offset in seconds (east positive) in force at instant `t`. */
 int32_t sw_zone_offset_at(const sw_zone *zone, sw_time_ms t);
 
+/* The most instants sw_zone_local_to_utc() returns for one wall-clock
+ * time (real zones show a time at most twice; a crafted zone file may
+ * repeat an hour more often). */
+#define SW_ZONE_MAX_SHOWN 4
+
 /* Convert a local wall-clock time (ms since 1970-01-01T00:00 local, i.e.
  * the fields read as if they were UTC) to instants.  Returns the number of
- * instants that show that wall-clock time: 1 normally, 2 in a repeated hour
- * (both stored in utc[0] < utc[1]), 0 in a skipped hour (none stored). */
+ * instants that show that wall-clock time, in increasing order in utc[]: 1
+ * normally, 2 in a repeated hour (more in a crafted zone, at most
+ * SW_ZONE_MAX_SHOWN: the earliest ones), 0 in a skipped hour (none
+ * stored). */
 int sw_zone_local_to_utc(const sw_zone *zone, sw_time_ms local,
-                         sw_time_ms utc[2]);
+                         sw_time_ms utc[SW_ZONE_MAX_SHOWN]);
 
 /* ---- ISO 8601 timestamps ---- */
 

@@ -155,7 +155,7 @@ int main(void)
             INT64_C(1735689600000), INT64_C(2208988800000),
             INT64_C(5364662400000)
         };
-        sw_time_ms utc[2], sink = 0;
+        sw_time_ms utc[SW_ZONE_MAX_SHOWN], sink = 0;
         volatile sw_time_ms keep;
         t0 = now_s();
         for (long i = 0; i < N_FIELDS; i++) {

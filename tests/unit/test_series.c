@@ -1278,10 +1278,66 @@ static void test_error_is_sticky(void **state)
     unlink(f.path);
 }
 
+/* A last line without a line end: used when the file did not change
+ * while it was read; left out, and its line number kept in the stats,
+ * when a writer appended to the file after it was opened (the line was
+ * cut by that writer: "11.606,1" would have been read as a 1 m
+ * tailwater).  Rows appended after the open are not read: the file is
+ * read as it was when opened. */
+static void test_partial_last_line(void **state)
+{
+    static const char text[] = "time,headwater,tailwater\n"
+                               "2025-01-01T00:00:00Z,11.605,1.47\n"
+                               "2025-01-01T00:15:00Z,11.606,1";
+    outcome o;
+    fixture f;
+    sw_reader_config cfg;
+    sw_column_config cols[2];
+    sw_reader *rd = NULL;
+    sw_error err;
+    sw_time_ms t;
+    double v[2];
+    int has_row = 1;
+    size_t n = 0;
+    FILE *fp;
+    (void)state;
+
+    /* unchanged: the last line is the file's last record */
+    read_hw_tw(text, &o);
+    expect_ok(&o, 2);
+    assert_close(o.v[1][1], 1.0, 0);
+    assert_int_equal(o.stats.partial_line, 0);
+
+    /* a writer finishes the line and adds one after the open */
+    default_config(&cfg);
+    set_column(&cols[0], "headwater");
+    set_column(&cols[1], "tailwater");
+    fixture_write(&f, text, strlen(text));
+    cfg.path = f.path;
+    assert_int_equal(sw_reader_open(&rd, &cfg, cols, 2, &err), SW_OK);
+    fp = fopen(f.path, "a");
+    assert_non_null(fp);
+    fputs(".48\n2025-01-01T00:30:00Z,11.607,1.49\n", fp);
+    assert_int_equal(fclose(fp), 0);
+    while (has_row) {
+        assert_int_equal(sw_reader_next(rd, &has_row, &t, v, &err), SW_OK);
+        if (has_row) {
+            assert_true(n < 1);
+            assert_close(v[1], 1.47, 1e-15);
+            n++;
+        }
+    }
+    assert_int_equal(n, 1);
+    assert_int_equal(sw_reader_get_stats(rd)->partial_line, 3);
+    sw_reader_free(rd);
+    unlink(f.path);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_comma),
+        cmocka_unit_test(test_partial_last_line),
         cmocka_unit_test(test_semicolon_decimal_comma),
         cmocka_unit_test(test_tab),
         cmocka_unit_test(test_delimiter_detection),

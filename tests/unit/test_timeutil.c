@@ -444,7 +444,7 @@ static void test_fixed_zones(void **state)
         { "+10:00", 36000 }, { "-0330", -12600 }, { "+05", 18000 },
         { "-03:30", -12600 }, { "+23:59", 86340 }, { "Z", 0 }, { "UTC", 0 },
     };
-    sw_time_ms t = instant("2025-06-17T08:41:27.380Z"), utc[2];
+    sw_time_ms t = instant("2025-06-17T08:41:27.380Z"), utc[SW_ZONE_MAX_SHOWN];
 
     (void)state;
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
@@ -519,7 +519,7 @@ static void test_berlin_2025(void **state)
     sw_zone *z = zone_ok("Europe/Berlin");
     sw_time_ms spring = instant("2025-03-30T01:00:00Z");
     sw_time_ms autumn = instant("2025-10-26T01:00:00Z");
-    sw_time_ms utc[2] = { -1, -1 };
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN] = { -1, -1 };
 
     (void)state;
     /* Sakamoto's weekday formula: both are Sundays, the last of the month */
@@ -563,7 +563,7 @@ static void test_berlin_beyond_table(void **state)
     sw_zone *z = zone_ok("Europe/Berlin");
     sw_time_ms spring = instant("2070-03-30T01:00:00Z");
     sw_time_ms autumn = instant("2070-10-26T01:00:00Z");
-    sw_time_ms utc[2];
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN];
 
     (void)state;
     /* Sakamoto's weekday formula: the last Sundays of March and October */
@@ -675,7 +675,7 @@ static void test_against_localtime(void **state)
             int64_t t_s, local_s;
             time_t tt;
             struct tm tm;
-            sw_time_ms utc[2];
+            sw_time_ms utc[SW_ZONE_MAX_SHOWN];
             int32_t off;
             int n;
 
@@ -1095,11 +1095,17 @@ static void test_time_format(void **state)
     sw_zone_free(adelaide);
 }
 
-/* Format then parse gives the instant back, in several zones. */
+/* Format then parse gives the instant back, in several zones; over the
+ * whole range of level times, 1900 to 2200, so including local mean times
+ * whose offsets have seconds (Amsterdam +00:19:32 until 1937, Monrovia
+ * -00:44:30 until 1972: tz database, from memory), which are written as
+ * +hh:mm:ss and must read back. */
 static void test_format_round_trip(void **state)
 {
     static const char *const specs[] = { "Europe/Berlin", "Australia/Sydney",
-                                         "-0330", "+10:00", "UTC" };
+                                         "-0330", "+10:00", "UTC",
+                                         "Europe/Amsterdam",
+                                         "Africa/Monrovia" };
     uint64_t s = 424242;
 
     (void)state;
@@ -1113,9 +1119,9 @@ static void test_format_round_trip(void **state)
             int n;
 
             s = s * UINT64_C(6364136223846793005) + UINT64_C(1442695040888963407);
-            /* 1900 to 2150, with milliseconds half of the time */
+            /* 1900 to 2200, with milliseconds half of the time */
             t = INT64_C(-2208988800000)
-                + (int64_t)((s >> 8) % UINT64_C(7889184000000));
+                + (int64_t)((s >> 8) % UINT64_C(9498643200000));
             if (k % 2)
                 t -= t % 1000;
             n = sw_time_format(buf, sizeof buf, t, z);
@@ -1187,7 +1193,7 @@ static void test_month_bounds_at_midnight_changes(void **state)
                       "AAA-1BBB,J60/0,J305/0:30", 0 };
     scratch *sc = *state;
     sw_zone *z;
-    sw_time_ms utc[2];
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN];
 
     write_tzif(sc->dir, "midnight", &mid, 0, 0);
     z = zone_ok("Test/midnight");
@@ -1320,6 +1326,80 @@ static void test_stamp_memo_same_as_plain(void **state)
     }
 }
 
+/* A crafted zone that turns its clock back twice within half an hour
+ * (+02:00, then +01:00 at X, then +00:00 at X + 30 min): the wall-clock
+ * time X+01:15 (in UTC terms) is shown three times.  All three instants
+ * are returned, in order, each showing it; the calendar month still holds
+ * every instant around the changes.  (The reader kept only two before.) */
+static void test_tzif_time_shown_three_times(void **state)
+{
+    static const int64_t x = 1743465600; /* 2025-04-01T00:00:00Z */
+    static const int64_t times[] = { x, x + 1800 };
+    static const unsigned char idx[] = { 1, 2 };
+    static const int32_t offs[] = { 7200, 3600, 0 };
+    static const unsigned char dsts[] = { 0, 0, 0 };
+    tzif_spec triple = { 0, 2, times, idx, 3, offs, dsts, NULL, 0 };
+    scratch *sc = *state;
+    sw_time_ms utc[SW_ZONE_MAX_SHOWN], local = (x + 4500) * 1000;
+    sw_zone *z;
+
+    write_tzif(sc->dir, "triple", &triple, 0, 0);
+    z = zone_ok("Test/triple");
+    assert_int_equal(sw_zone_local_to_utc(z, local, utc), 3);
+    assert_true(utc[0] == (x - 2700) * 1000);  /* at +02:00 */
+    assert_true(utc[1] == (x + 900) * 1000);   /* at +01:00 */
+    assert_true(utc[2] == (x + 4500) * 1000);  /* at +00:00 */
+    for (int i = 0; i < 3; i++)
+        assert_true(utc[i] + (sw_time_ms)sw_zone_offset_at(z, utc[i]) * 1000 ==
+                    local);
+    for (sw_time_ms t = (x - 7200) * 1000; t <= (x + 7200) * 1000;
+         t += 60000) {
+        sw_time_ms start, next;
+        int ym;
+        sw_month_bounds(t, z, &start, &next, &ym);
+        assert_true(start <= t && t < next);
+    }
+    sw_zone_free(z);
+}
+
+/* Found by fuzz_zone (tests/fuzz/regressions/zone/): a zone at +05:29:09
+ * that drops to +00:00 for a moment before 1970 and leaps back at
+ * 1970-01-01T00:00:00Z, so that 1969-12-31T23:59:59Z shows a December
+ * wall time after the first showing of January's midnight, which is never
+ * shown again.  The month of that instant used to end before it. */
+static void test_tzif_month_after_its_midnight(void **state)
+{
+    static const unsigned char bytes[] = {
+        84, 90, 105, 102, 0, 50, 0, 0, 0, 0, 0, 0, 0, 46, 0, 0, 0, 0, 8, 0,
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 6, 0, 0, 0, 4, 0, 0, 0,
+        18, 128, 0, 0, 0, 135, 157, 188, 186, 158, 167, 37, 12, 159, 255,
+        255, 255, 255, 255, 255, 1, 0, 0, 0, 0, 0, 0, 1, 2, 3, 2, 0, 0, 82,
+        216, 0, 0, 0, 0, 75, 70, 0, 4, 0, 0, 77, 37, 0, 8, 0, 0, 0, 0, 0, 0,
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 32, 0, 0,
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0,
+        0, 0, 0, 0, 0, 0, 64, 0, 0, 20, 0, 0, 158, 166, 30, 112, 159, 222,
+        26
+    };
+    scratch *sc = *state;
+    char path[1024];
+    FILE *f;
+    sw_zone *z;
+
+    snprintf(path, sizeof path, "%s/Test/fuzzed", sc->dir);
+    f = fopen(path, "wb");
+    assert_non_null(f);
+    assert_int_equal(fwrite(bytes, 1, sizeof bytes, f), sizeof bytes);
+    assert_int_equal(fclose(f), 0);
+    z = zone_ok("Test/fuzzed");
+    for (sw_time_ms t = -40000000; t <= 40000000; t += 500) {
+        sw_time_ms start, next;
+        int ym;
+        sw_month_bounds(t, z, &start, &next, &ym);
+        assert_true(start <= t && t < next);
+    }
+    sw_zone_free(z);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -1336,6 +1416,10 @@ int main(void)
         cmocka_unit_test(test_sydney),
         cmocka_unit_test(test_against_localtime),
         cmocka_unit_test_setup_teardown(test_tzif_versions_and_rules,
+                                        scratch_setup, scratch_teardown),
+        cmocka_unit_test_setup_teardown(test_tzif_time_shown_three_times,
+                                        scratch_setup, scratch_teardown),
+        cmocka_unit_test_setup_teardown(test_tzif_month_after_its_midnight,
                                         scratch_setup, scratch_teardown),
         cmocka_unit_test_setup_teardown(test_tzif_errors, scratch_setup,
                                         scratch_teardown),
