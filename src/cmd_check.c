@@ -93,6 +93,52 @@ static void print_gate(const sw_site_gate *sg)
         g->weight_moment_Nm >= 0.0 ? "N*m, holds shut" : "N*m, opens");
 }
 
+/* Read each series file: a missing file or column makes the site invalid
+ * (it could not be replayed); a file that cannot be read to the end is
+ * warned of; levels outside the plausible band of their gates are warned
+ * of (without valid_range). */
+static int check_series(const sw_site *site, sw_error *err)
+{
+    for (size_t i = 0; i < site->n_series; i++) {
+        const sw_site_series *s = &site->series[i];
+        double lo, hi, band_lo, band_hi;
+        long n;
+        sw_error read_err;
+        int rc = sw_qc_series_extent(site, s, &lo, &hi, &n, &read_err, err);
+        if (rc != SW_OK) {
+            char why[SW_ERROR_MSG_MAX];
+            snprintf(why, sizeof why, "%s", err->message);
+            return sw_error_set(err, rc, err->file, err->line, err->column,
+                                "series %s: %s", s->name, why);
+        }
+        if (read_err.code != SW_OK)
+            fprintf(stderr, "sillwatch: warning: series %s: %s:%ld:%ld: %s "
+                    "(read up to there)\n", s->name, read_err.file,
+                    read_err.line, read_err.column, read_err.message);
+        if (n > 0 && !s->qc.range_set &&
+            sw_qc_plausible_band(site, s->name, &band_lo, &band_hi) &&
+            (hi > band_hi || lo < band_lo))
+            sw_cli_warn_implausible(s, lo, hi, band_lo, band_hi);
+    }
+    return SW_OK;
+}
+
+/* A gate's mass per sealed area far outside what leaves weigh. */
+static void warn_masses(const sw_site *site)
+{
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_gate *g = &site->gates[i].gate;
+        double kg_m2;
+        if (sw_qc_mass_implausible(g, &kg_m2))
+            fprintf(stderr, "sillwatch: warning: %s:%ld: gate %s: mass %g kg "
+                    "over a sealed area of %.4g m^2 is %.4g kg/m^2, outside "
+                    "%g to %g kg/m^2: is the unit kg?\n",
+                    site->path, site->gates[i].line, g->name, g->mass_kg,
+                    g->area_m2, kg_m2, SW_QC_MASS_AREA_MIN,
+                    SW_QC_MASS_AREA_MAX);
+    }
+}
+
 int sw_cmd_check(int argc, char **argv)
 {
     static const struct option opts[] = {
@@ -120,6 +166,11 @@ int sw_cmd_check(int argc, char **argv)
                                   argc - optind);
     if (sw_site_load(&site, argv[optind], &err) != SW_OK)
         return sw_cli_report(&err);
+    if (check_series(&site, &err) != SW_OK) {
+        sw_site_fini(&site);
+        return sw_cli_report(&err);
+    }
+    warn_masses(&site);
 
     printf("site '%s' (%s): valid, %zu gate%s\n", site.name, site.path,
            site.n_gates, site.n_gates == 1 ? "" : "s");

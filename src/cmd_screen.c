@@ -47,9 +47,11 @@ static const char screen_help[] =
     "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
+enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_FLAGS,
+       N_OUT };
 static const char *const out_names[N_OUT] = {
-    "forecast.csv", "screen.csv", "required.csv", "required_max.csv"};
+    "forecast.csv", "screen.csv", "required.csv", "required_max.csv",
+    "flags.csv"};
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
@@ -177,6 +179,15 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
                 goto cleanup;
             last = 1;
         }
+        const sw_stepper_flag *fl;
+        size_t n_fl = sw_stepper_flags(st, &fl);
+        for (size_t i = 0; i < n_fl; i++) {
+            const sw_site_series *ss = sw_stepper_series(st, fl[i].series);
+            sw_report_flag_row(out[OUT_FLAGS].fp, ss->name, ss->path,
+                               &fl[i].reading, site->zone);
+        }
+        if (!sw_stepper_passed(st))
+            continue; /* flags only */
         for (size_t g = 0; g < ens->n_orig; g++) {
             size_t k = 0, low = 0, open = 0;
             if (ens->n_members[g] == 0)
@@ -402,6 +413,7 @@ int sw_cmd_screen(int argc, char **argv)
         goto fail;
     }
 
+    sw_report_flags_header(out[OUT_FLAGS].fp);
     if (!o.quiet && ens.n_hw_only > 0)
         printf("tailwater needed by the headwater-only forecasts:\n");
     if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
@@ -487,7 +499,7 @@ int sw_cmd_screen(int argc, char **argv)
     }
     if (!o.quiet) {
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv\n", o.outdir);
+               "required_max.csv, flags.csv\n", o.outdir);
         fputs(sw_cli_caution, stdout);
     }
     free(vd);

@@ -9,6 +9,10 @@
 
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
+
+#include "sillwatch/series.h"
+#include "sillwatch/site.h"
 
 /* A block of the flat test's window. */
 typedef struct block {
@@ -236,4 +240,72 @@ void sw_qc_count(sw_qc_stats *s, const sw_qc_reading *r)
     s->flagged[r->test]++;
     if (s->n_kept < SW_QC_KEPT)
         s->kept[s->n_kept++] = *r;
+}
+
+int sw_qc_plausible_band(const sw_site *site, const char *name, double *lo_m,
+                         double *hi_m)
+{
+    int used = 0;
+    double sill = INFINITY, hinge = -INFINITY;
+
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_site_gate *g = &site->gates[i];
+        if (strcmp(g->headwater, name) != 0 && strcmp(g->tailwater, name) != 0)
+            continue;
+        used = 1;
+        if (g->gate.sill_level_m < sill)
+            sill = g->gate.sill_level_m;
+        if (g->gate.hinge_level_m > hinge)
+            hinge = g->gate.hinge_level_m;
+    }
+    *lo_m = sill - SW_QC_PLAUSIBLE_M;
+    *hi_m = hinge + SW_QC_PLAUSIBLE_M;
+    return used;
+}
+
+int sw_qc_mass_implausible(const sw_gate *gate, double *kg_m2)
+{
+    *kg_m2 = gate->area_m2 > 0.0 ? gate->mass_kg / gate->area_m2 : INFINITY;
+    return !(*kg_m2 >= SW_QC_MASS_AREA_MIN && *kg_m2 <= SW_QC_MASS_AREA_MAX);
+}
+
+int sw_qc_series_extent(const sw_site *site, const sw_site_series *s,
+                        double *lo_m, double *hi_m, long *n_valid,
+                        sw_error *read_err, sw_error *err)
+{
+    sw_reader_config cfg = {s->path, s->time_column, s->time_format,
+                            s->delimiter, site->zone};
+    sw_column_config col;
+    sw_reader *rd;
+    int rc, has_row;
+
+    memset(&col, 0, sizeof col);
+    col.name = s->value_column;
+    col.scale = s->scale;
+    col.offset_m = s->offset_m;
+    col.n_missing = s->n_missing;
+    for (size_t k = 0; k < s->n_missing; k++)
+        col.missing[k] = s->missing[k];
+    *lo_m = INFINITY;
+    *hi_m = -INFINITY;
+    *n_valid = 0;
+    sw_error_clear(read_err);
+    if ((rc = sw_reader_open(&rd, &cfg, &col, 1, err)) != SW_OK)
+        return rc;
+    for (;;) {
+        sw_time_ms t;
+        double v;
+        if (sw_reader_next(rd, &has_row, &t, &v, read_err) != SW_OK ||
+            !has_row)
+            break;
+        if (isnan(v))
+            continue;
+        (*n_valid)++;
+        if (v < *lo_m)
+            *lo_m = v;
+        if (v > *hi_m)
+            *hi_m = v;
+    }
+    sw_reader_free(rd);
+    return SW_OK;
 }

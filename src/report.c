@@ -312,3 +312,43 @@ void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
     *w++ = '\n';
     write_row(fp, gate, line, w);
 }
+
+void sw_report_flags_header(FILE *fp)
+{
+    fputs("series,time,value,test,file,line\n", fp);
+}
+
+/* A field quoted as RFC 4180 asks where it holds a comma, a quote or a
+ * line end (a file path may). */
+static void put_field(FILE *fp, const char *s)
+{
+    if (strpbrk(s, ",\"\r\n") == NULL) {
+        fputs(s, fp);
+        return;
+    }
+    fputc('"', fp);
+    for (; *s != '\0'; s++) {
+        if (*s == '"')
+            fputc('"', fp);
+        fputc(*s, fp);
+    }
+    fputc('"', fp);
+}
+
+void sw_report_flag_row(FILE *fp, const char *series, const char *file,
+                        const sw_qc_reading *r, const sw_zone *zone)
+{
+    char line[INSTANT_MAX + FIXED_MAX + 64], *w = line;
+
+    fputs(series, fp);
+    *w++ = ',';
+    w = put_instant(w, r->t, zone);
+    *w++ = ',';
+    w = put_fixed(w, r->v_m, 4);
+    *w++ = ',';
+    w = put_text(w, sw_qc_test_name(r->test));
+    *w++ = ',';
+    fwrite(line, 1, (size_t)(w - line), fp);
+    put_field(fp, file);
+    fprintf(fp, ",%ld\n", r->line);
+}

@@ -38,6 +38,7 @@
 #include <stddef.h>
 
 #include "sillwatch/error.h"
+#include "sillwatch/gate.h"
 #include "sillwatch/timeutil.h"
 
 #define SW_QC_FLAT_BLOCKS 1024
@@ -109,5 +110,41 @@ int sw_qc_held(const sw_qc *qc, sw_time_ms *t);
 
 /* Add a verdict to the counts (and keep it when among the first). */
 void sw_qc_count(sw_qc_stats *stats, const sw_qc_reading *r);
+
+/* ---- plausibility (warnings, not rejections) -------------------------- */
+
+/* How far, in m, levels may reach above the highest hinge or below the
+ * lowest sill of the gates a series drives before sillwatch asks whether
+ * its unit or offset is right: a rule of thumb of ours, not a published
+ * value. */
+#define SW_QC_PLAUSIBLE_M 10.0
+
+/* Mass per sealed area (kg/m^2) outside which a gate's mass looks like a
+ * unit slip (tonnes typed for kg, or grams): a rule of thumb of ours. */
+#define SW_QC_MASS_AREA_MIN 5.0
+#define SW_QC_MASS_AREA_MAX 2000.0
+
+struct sw_site;
+struct sw_site_series;
+
+/* The plausible band of the levels of series `name`: from
+ * SW_QC_PLAUSIBLE_M below the lowest sill to SW_QC_PLAUSIBLE_M above the
+ * highest hinge of the gates it drives.  Returns 0 when no gate uses it. */
+int sw_qc_plausible_band(const struct sw_site *site, const char *name,
+                         double *lo_m, double *hi_m);
+
+/* Whether a gate's mass per sealed area is outside the plausible range;
+ * *kg_m2 is set either way. */
+int sw_qc_mass_implausible(const sw_gate *gate, double *kg_m2);
+
+/* Read the whole level file of series `s` and give the least and greatest
+ * valid level (m, after unit and offset) and the number of valid readings.
+ * Errors: those of sw_reader_open() (missing file or column: SW_EDATA);
+ * an error while reading stops the reading: *read_err holds it (code
+ * SW_OK when none) and the extent is that of the readings before it. */
+int sw_qc_series_extent(const struct sw_site *site,
+                        const struct sw_site_series *s, double *lo_m,
+                        double *hi_m, long *n_valid, sw_error *read_err,
+                        sw_error *err);
 
 #endif

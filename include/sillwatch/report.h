@@ -1,4 +1,5 @@
-/* sillwatch: the CSV outputs of a replay (summary, events, steps, months).
+/* sillwatch: the CSV outputs of a replay (summary, events, steps, months,
+ * flags).
  *
  * Times are ISO 8601 with the site's UTC offset; hours carry 4 decimals.
  * Hours are printed in whole units of 0.0001 h, with the identities kept
@@ -41,6 +42,12 @@ void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
 void sw_report_months_header(FILE *fp);
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
                          const sw_zone *zone);
+
+/* flags.csv: one row per flagged reading: series, time, value (m above
+ * the site datum, 4 decimals), test, file, line. */
+void sw_report_flags_header(FILE *fp);
+void sw_report_flag_row(FILE *fp, const char *series, const char *file,
+                        const sw_qc_reading *r, const sw_zone *zone);
 
 /* "ok" "low" "open"; "recovered" "gap" "series_end". */
 const char *sw_report_end_name(sw_event_end why);
