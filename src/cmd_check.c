@@ -106,10 +106,10 @@ static int check_series(const sw_site *site, sw_error *err)
         sw_error read_err;
         int rc = sw_qc_series_extent(site, s, &lo, &hi, &n, &read_err, err);
         if (rc != SW_OK) {
-            char why[SW_ERROR_MSG_MAX];
-            snprintf(why, sizeof why, "%s", err->message);
-            return sw_error_set(err, rc, err->file, err->line, err->column,
-                                "series %s: %s", s->name, why);
+            sw_error was = *err;
+            return sw_error_set(err, rc, was.file[0] ? was.file : NULL,
+                                was.line, was.column, "series %s: %s",
+                                s->name, was.message);
         }
         if (read_err.code != SW_OK)
             fprintf(stderr, "sillwatch: warning: series %s: %s:%ld:%ld: %s "

@@ -398,9 +398,7 @@ int sw_cmd_run(int argc, char **argv)
     if ((rc = sw_stepper_finish(st, &err)) != SW_OK)
         goto fail;
     if (!sw_stepper_has_data(st)) {
-        rc = sw_error_set(&err, SW_EDATA, site.path, 0, 0,
-                          "the level series hold no valid reading: nothing "
-                          "to replay");
+        rc = sw_stepper_no_data_error(st, &err);
         goto fail;
     }
     if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)

@@ -222,9 +222,7 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
 
     sw_time_ms end;
     if (!sw_stepper_has_data(st)) {
-        rc = sw_error_set(err, SW_EDATA, site->path, 0, 0,
-                          "the forecast series hold no valid reading: "
-                          "nothing to screen");
+        rc = sw_stepper_no_data_error(st, err);
         goto cleanup;
     }
     sw_stepper_span(st, t0, &end);

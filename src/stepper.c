@@ -24,6 +24,7 @@
 
 #include <math.h>
 #include <pthread.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -1267,6 +1268,55 @@ const sw_gap_stats *sw_stepper_gap_stats(const sw_stepper *st, size_t i)
 }
 
 int sw_stepper_passed(const sw_stepper *st) { return st->passed; }
+
+int sw_stepper_no_data_error(const sw_stepper *st, sw_error *err)
+{
+    char msg[SW_ERROR_MSG_MAX] = "", *w = msg;
+    size_t room = sizeof msg;
+    const char *file = st->site->path;
+    long line = 0, column = 0;
+
+    for (size_t i = 0; i < st->n_series; i++) {
+        const series_state *s = &st->series[i];
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        char first[SW_ERROR_PATH_MAX + 2 * SW_SERIES_TOKEN_MAX + 64] = "";
+        int k;
+        if (s->have_last)
+            continue; /* it has valid readings */
+        if (cs->n_kept > 0) {
+            snprintf(first, sizeof first, "; first rejected %s:%ld:%ld '%s' "
+                     "(%s)", s->def->path, cs->kept[0].line,
+                     cs->kept[0].column, cs->kept[0].text,
+                     cs->kept[0].reason);
+        } else if (s->qstats.n_kept > 0) {
+            const sw_qc_reading *r = &s->qstats.kept[0];
+            snprintf(first, sizeof first, "; first flagged %s:%ld: %.4f m "
+                     "(%s)", s->def->path, r->line, r->v_m,
+                     sw_qc_test_name(r->test));
+        }
+        if (line == 0 && cs->n_kept > 0) {
+            file = s->def->path;
+            line = cs->kept[0].line;
+            column = cs->kept[0].column;
+        } else if (line == 0 && s->qstats.n_kept > 0) {
+            file = s->def->path;
+            line = s->qstats.kept[0].line;
+        }
+        long rows = sw_stepper_reader_stats(st, i)->records;
+        k = snprintf(w, room, "%sseries %s (%s): %ld row%s, %ld missing, "
+                     "%ld rejected, %ld flagged%s", w == msg ? "" : "; ",
+                     s->def->name, s->def->path, rows, rows == 1 ? "" : "s",
+                     cs->missing,
+                     cs->rejected, cs->valid /* all of them flagged */,
+                     first);
+        if (k < 0 || (size_t)k >= room)
+            break;
+        w += k;
+        room -= (size_t)k;
+    }
+    return sw_error_set(err, SW_EDATA, file, line, column,
+                        "no valid reading to replay: %s", msg);
+}
 
 int sw_stepper_level_extent(const sw_stepper *st, size_t i, double *lo_m,
                             double *hi_m)

@@ -157,6 +157,13 @@ int sw_stepper_level_extent(const sw_stepper *stepper, size_t i,
 /* The counts of flagged readings of series i, and the first ones. */
 const sw_qc_stats *sw_stepper_qc_stats(const sw_stepper *stepper, size_t i);
 
+/* Fill *err for a run without any valid reading (sw_stepper_has_data()
+ * is 0): SW_EDATA at the first rejected field or flagged reading, naming
+ * each series without a valid reading, its file, its counts and its first
+ * rejected field (file:line:column) or flagged reading (file:line).
+ * Returns SW_EDATA. */
+int sw_stepper_no_data_error(const sw_stepper *stepper, sw_error *err);
+
 /* Whether any valid sample was read (the timeline has a point). */
 int sw_stepper_has_data(const sw_stepper *stepper);
 
