@@ -265,7 +265,7 @@ static void progress(const sw_stepper *st, const sw_site *site, long steps)
  * report when there is one.  Returns SW_OK or the report's error. */
 static int write_step(const sw_stepper *st, const sw_site *site,
                       sw_outfile *out, const run_opts *o,
-                      sw_html_report *rep, sw_error *err)
+                      sw_html_report *rep, sw_event_log *log, sw_error *err)
 {
     const sw_event *ev;
     const sw_month_row *mo;
@@ -285,9 +285,8 @@ static int write_step(const sw_stepper *st, const sw_site *site,
     n = sw_stepper_events(st, &ev);
 
     for (size_t i = 0; i < n; i++) {
-        sw_report_event_row(out[OUT_EVENTS].fp,
-                            site->gates[ev[i].gate].gate.name, &ev[i],
-                            site->zone);
+        if ((rc = sw_event_log_add(log, &ev[i], err)) != SW_OK)
+            return rc;
         if (rep != NULL)
             sw_html_report_event(rep, &ev[i]);
     }
@@ -332,6 +331,7 @@ int sw_cmd_run(int argc, char **argv)
     sw_site site;
     sw_stepper *st = NULL;
     sw_html_report *rep = NULL;
+    sw_event_log *log = NULL;
     sw_outfile out[N_OUT];
     sw_error err;
     int rc, done = 0, exit_code;
@@ -356,6 +356,8 @@ int sw_cmd_run(int argc, char **argv)
     if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
         goto fail;
     if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
+        goto fail;
+    if ((rc = sw_event_log_alloc(&log, site.n_gates, &err)) != SW_OK)
         goto fail;
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
         goto fail;
@@ -383,7 +385,8 @@ int sw_cmd_run(int argc, char **argv)
         if (interrupted)
             goto stop;
         if (!done) {
-            if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+            if ((rc = write_step(st, &site, out, &o, rep, log, &err)) !=
+                SW_OK)
                 goto fail;
             steps++;
         }
@@ -401,7 +404,9 @@ int sw_cmd_run(int argc, char **argv)
         rc = sw_stepper_no_data_error(st, &err);
         goto fail;
     }
-    if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+    if ((rc = write_step(st, &site, out, &o, rep, log, &err)) != SW_OK ||
+        (rc = sw_event_log_write(log, out[OUT_EVENTS].fp, &site, &err)) !=
+            SW_OK)
         goto fail;
     if (show_progress)
         fputs("\r\033[K", stderr);
@@ -477,6 +482,7 @@ int sw_cmd_run(int argc, char **argv)
         fputs(sw_cli_caution, stdout);
     }
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return exit_code;
@@ -489,6 +495,7 @@ stop:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return 130;
@@ -497,6 +504,7 @@ fail:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return sw_cli_report(&err);
