@@ -449,16 +449,16 @@ int sw_cmd_run(int argc, char **argv)
             char h[24], hg[24], he[24];
             sw_time_ms edge = sw_stepper_unknown_edge(st, i);
             sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
-            /* the two parts add up in print */
-            long long g4 = sw_report_hours4((t1 - t0) - t->evaluated) -
-                           sw_report_hours4(edge);
-            snprintf(hg, sizeof hg, "%lld.%04lld", g4 / 10000, g4 % 10000);
+            /* each part rounded once, as the gaps of the data-quality
+             * account are */
+            sw_time_ms in_gaps = (t1 - t0) - t->evaluated - edge;
+            sw_report_hours_text(hg, sizeof hg, in_gaps);
             sw_report_hours_text(he, sizeof he, edge);
             /* say where the hours come from: gaps, series ends */
             char why[160];
             if (edge == 0)
                 snprintf(why, sizeof why, "in gaps longer than max_gap");
-            else if (g4 == 0)
+            else if (in_gaps == 0)
                 snprintf(why, sizeof why, "before a series began or after "
                          "it ended");
             else
