@@ -303,7 +303,7 @@ static void *read_ahead(void *arg)
 }
 
 /* Hold the reader's next record (or none at the end). */
-static int read_record(reader_state *rs, sw_error *err)
+static inline int read_record(reader_state *rs, sw_error *err)
 {
     for (;;) {
         if (rs->taken) {
@@ -533,7 +533,29 @@ static void count_gap(const sw_stepper *st, series_state *s, sw_time_ms t)
  * their quality tests held back (one reading, for at most max_gap), which
  * may come after later readings of other series: those are put in order
  * (never before the timeline's first point, see sw_stepper_advance). */
-static int timeline_add(sw_stepper *st, sw_time_ms t, sw_error *err)
+static int timeline_insert(sw_stepper *st, sw_time_ms t, sw_error *err)
+#if defined(__GNUC__)
+    __attribute__((noinline))
+#endif
+    ;
+
+static inline int timeline_add(sw_stepper *st, sw_time_ms t, sw_error *err)
+{
+    ring *tl = &st->timeline;
+
+    /* the usual case: a later time (so the latest of the run) */
+    if (tl->count > 0 && ring_at(tl, tl->count - 1)->t < t) {
+        if (ring_push(tl, (sample){t, 0.0}) != 0)
+            return nomem(err);
+        st->span_end = t;
+        return SW_OK;
+    }
+    return timeline_insert(st, t, err);
+}
+
+/* The rest of timeline_add(): the first point, an equal time, or a time
+ * to put in order. */
+static int timeline_insert(sw_stepper *st, sw_time_ms t, sw_error *err)
 {
     ring *tl = &st->timeline;
 
