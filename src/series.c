@@ -1117,6 +1117,11 @@ int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
 
 long sw_reader_line(const sw_reader *reader) { return reader->out_line; }
 
+long sw_reader_field(const sw_reader *reader, size_t column)
+{
+    return column < reader->n_columns ? reader->col[column].field : 0;
+}
+
 int sw_reader_next_rows_at(sw_reader *reader, size_t max, sw_time_ms *t,
                            long *lines, double *values, size_t *n,
                            sw_error *err)

@@ -1312,9 +1312,10 @@ int sw_stepper_no_data_error(const sw_stepper *st, sw_error *err)
                      cs->kept[0].reason);
         } else if (s->qstats.n_kept > 0) {
             const sw_qc_reading *r = &s->qstats.kept[0];
-            snprintf(first, sizeof first, "; first flagged %s:%ld: %.4f m "
-                     "(%s)", s->def->path, r->line, r->v_m,
-                     sw_qc_test_name(r->test));
+            snprintf(first, sizeof first, "; first flagged %s:%ld:%ld: "
+                     "%.4f m (%s)", s->def->path, r->line,
+                     sw_reader_field(st->readers[s->reader].rd, s->column),
+                     r->v_m, sw_qc_test_name(r->test));
         }
         if (line == 0 && cs->n_kept > 0) {
             file = s->def->path;
@@ -1323,6 +1324,7 @@ int sw_stepper_no_data_error(const sw_stepper *st, sw_error *err)
         } else if (line == 0 && s->qstats.n_kept > 0) {
             file = s->def->path;
             line = s->qstats.kept[0].line;
+            column = sw_reader_field(st->readers[s->reader].rd, s->column);
         }
         long rows = sw_stepper_reader_stats(st, i)->records;
         k = snprintf(w, room, "%sseries %s (%s): %ld row%s, %ld missing, "

@@ -125,6 +125,10 @@ int sw_reader_next_rows_at(sw_reader *reader, size_t max, sw_time_ms *t,
 /* The line the last record handed out began on (0 before the first). */
 long sw_reader_line(const sw_reader *reader);
 
+/* The field number (1-based) of value column `column` in the header, 0
+ * when there is no such column. */
+long sw_reader_field(const sw_reader *reader, size_t column);
+
 /* The counts so far. */
 const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader);
 

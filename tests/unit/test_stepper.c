@@ -615,6 +615,7 @@ static void test_qc_flags_in_batches(void **state)
     assert_false(sw_stepper_has_data(st));
     assert_int_equal(sw_stepper_no_data_error(st, &err), SW_EDATA);
     assert_int_equal(err.line, 2);
+    assert_int_equal(err.column, 2); /* hw is the second field */
     assert_non_null(strstr(err.message, "series hw"));
     assert_non_null(strstr(err.message, "series tw"));
     assert_non_null(strstr(err.message, "first flagged"));
