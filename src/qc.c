@@ -17,6 +17,7 @@
 /* A block of the flat test's window. */
 typedef struct block {
     sw_time_ms t_first, t_last;
+    sw_time_ms index;       /* t_first / block_ms */
     double lo, hi;
     long n;
 } block;
@@ -34,9 +35,13 @@ struct sw_qc {
     sw_qc_reading base;
     sw_time_ms run_start;   /* first of them since a gap over max_gap */
     sw_time_ms block_ms;
-    block *blocks;          /* ring of SW_QC_FLAT_BLOCKS + 2 */
+    block *blocks;          /* ring of FLAT_RING (a power of two, at least
+                               SW_QC_FLAT_BLOCKS + 2) */
     size_t head, count, cap;
 };
+
+#define FLAT_RING 2048
+_Static_assert(FLAT_RING >= SW_QC_FLAT_BLOCKS + 2, "FLAT_RING too small");
 
 static const char *const test_names[SW_QC_N_TESTS] = {"range", "spike",
                                                       "rate", "flat"};
@@ -61,7 +66,7 @@ int sw_qc_alloc(sw_qc **out, const sw_qc_config *cfg, sw_error *err)
         goto nomem;
     q->cfg = *cfg;
     if (cfg->flat_ms > 0) {
-        q->cap = SW_QC_FLAT_BLOCKS + 2;
+        q->cap = FLAT_RING;
         q->block_ms = cfg->flat_ms / SW_QC_FLAT_BLOCKS;
         if (q->block_ms < 1)
             q->block_ms = 1;
@@ -94,7 +99,7 @@ int sw_qc_held(const sw_qc *q, sw_time_ms *t)
 
 static block *block_at(sw_qc *q, size_t i)
 {
-    return &q->blocks[(q->head + i) % q->cap];
+    return &q->blocks[(q->head + i) & (FLAT_RING - 1)];
 }
 
 /* Flat line: every reading of [t - DURATION, t) within TOL of v, at least
@@ -125,13 +130,15 @@ static void flat_add(sw_qc *q, sw_time_ms t, double v)
 {
     block *last = q->count > 0 ? block_at(q, q->count - 1) : NULL;
 
+    sw_time_ms index = t / q->block_ms;
+
     while (q->count > 0 && block_at(q, 0)->t_last < t - q->cfg.flat_ms) {
-        q->head = (q->head + 1) % q->cap;
+        q->head = (q->head + 1) & (FLAT_RING - 1);
         q->count--;
     }
     if (q->count == 0)
         last = NULL;
-    if (last != NULL && last->t_first / q->block_ms == t / q->block_ms) {
+    if (last != NULL && last->index == index) {
         last->t_last = t;
         if (v < last->lo)
             last->lo = v;
@@ -141,10 +148,10 @@ static void flat_add(sw_qc *q, sw_time_ms t, double v)
         return;
     }
     if (q->count == q->cap) { /* cannot happen: blocks are DURATION/1024 */
-        q->head = (q->head + 1) % q->cap;
+        q->head = (q->head + 1) & (FLAT_RING - 1);
         q->count--;
     }
-    *block_at(q, q->count) = (block){t, t, v, v, 1};
+    *block_at(q, q->count) = (block){t, t, index, v, v, 1};
     q->count++;
 }
 

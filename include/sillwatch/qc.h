@@ -23,8 +23,9 @@
  * the range test arrives, or until it is known that none comes within
  * max_gap (sw_qc_expire), or the file ends (sw_qc_flush).
  *
- * Memory: fixed at sw_qc_alloc().  The flat test keeps the readings of the
- * last DURATION in at most SW_QC_FLAT_BLOCKS blocks of DURATION /
+ * Memory: fixed at sw_qc_alloc() (about 100 KiB with the flat test on).
+ * The flat test keeps the readings of the
+ * last DURATION in at most SW_QC_FLAT_BLOCKS (+ 2) blocks of DURATION /
  * SW_QC_FLAT_BLOCKS each (least and greatest value, first and last time,
  * count).  While readings are at least that far apart every block holds
  * one reading and the test is exact; more frequent readings share a block,
