@@ -9,6 +9,7 @@
 #include <string.h>
 
 #include "sillwatch/qc.h"
+#include "sillwatch/site.h"
 
 #define MIN_MS ((sw_time_ms)60000)
 #define MAXN 64
@@ -369,6 +370,46 @@ static void test_count(void **state)
     assert_string_equal(sw_qc_test_name(SW_QC_FLAT), "flat");
 }
 
+/* Plausibility rules of thumb (ours, not published; README): mass per
+ * sealed area within 5 to 2000 kg/m^2, levels within 10 m of the gates. */
+static void test_plausibility(void **state)
+{
+    (void)state;
+    sw_gate g;
+    sw_site site;
+    sw_site_gate gates[2];
+    double kg, lo, hi;
+    memset(&g, 0, sizeof g);
+    g.area_m2 = 2.7;
+    g.mass_kg = 1.45; /* tonnes typed for kg: 0.54 kg/m^2 */
+    assert_true(sw_qc_mass_implausible(&g, &kg));
+    assert_close(kg, 1.45 / 2.7, 1e-12);
+    g.mass_kg = 1720.0; /* 637 kg/m^2 */
+    assert_false(sw_qc_mass_implausible(&g, &kg));
+    g.mass_kg = 5.0 * 2.7; /* the bounds themselves pass */
+    assert_false(sw_qc_mass_implausible(&g, &kg));
+    g.mass_kg = 2000.0 * 2.7 * 1.001;
+    assert_true(sw_qc_mass_implausible(&g, &kg));
+
+    memset(&site, 0, sizeof site);
+    memset(gates, 0, sizeof gates);
+    site.n_gates = 2;
+    site.gates = gates;
+    snprintf(gates[0].headwater, sizeof gates[0].headwater, "res");
+    snprintf(gates[0].tailwater, sizeof gates[0].tailwater, "out");
+    gates[0].gate.hinge_level_m = 12.6;
+    gates[0].gate.sill_level_m = 10.957;
+    snprintf(gates[1].headwater, sizeof gates[1].headwater, "res");
+    gates[1].gate.hinge_level_m = 12.1;
+    gates[1].gate.sill_level_m = 11.231;
+    /* the highest hinge (12.6) + 10, the lowest sill (10.957) - 10 */
+    assert_true(sw_qc_plausible_band(&site, "res", &lo, &hi));
+    assert_close(hi, 22.6, 1e-12);
+    assert_close(lo, 0.957, 1e-9);
+    assert_true(sw_qc_plausible_band(&site, "out", &lo, &hi));
+    assert_false(sw_qc_plausible_band(&site, "other", &lo, &hi));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -386,6 +427,7 @@ int main(void)
         cmocka_unit_test(test_flat_frequent),
         cmocka_unit_test(test_expire),
         cmocka_unit_test(test_count),
+        cmocka_unit_test(test_plausibility),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
