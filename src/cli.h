@@ -99,6 +99,10 @@ extern const char sw_cli_caution[];
  * or gate by gate where they differ). */
 struct sw_site;
 void sw_cli_print_fs_basis(const struct sw_site *site);
+/* Warn on stderr that series `s` reaches lo..hi m, outside the plausible
+ * band band_lo..band_hi of its gates (README: Quality control). */
+void sw_cli_warn_implausible(const sw_site_series *s, double lo, double hi,
+                             double band_lo, double band_hi);
 
 int sw_cmd_check(int argc, char **argv);
 int sw_cmd_point(int argc, char **argv);

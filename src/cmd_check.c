@@ -95,6 +95,104 @@ static void print_gate(const sw_site_gate *sg)
         g->weight_moment_Nm >= 0.0 ? "N*m, holds shut" : "N*m, opens");
 }
 
+/* Read one column of a series file (s, or a member of it): see
+ * check_series(). */
+static int check_column(const sw_site *site, const sw_site_series *s,
+                        const char *name, sw_error *err)
+{
+    double lo, hi, band_lo, band_hi;
+    long n;
+    sw_error read_err;
+    int rc = sw_qc_series_extent(site, s, &lo, &hi, &n, &read_err, err);
+    if (rc != SW_OK) {
+        sw_error was = *err;
+        return sw_error_set(err, rc, was.file[0] ? was.file : NULL, was.line,
+                            was.column, "series %s: %s", name, was.message);
+    }
+    if (read_err.code != SW_OK)
+        fprintf(stderr, "sillwatch: warning: series %s: %s:%ld:%ld: %s (read "
+                "up to there)\n", name, read_err.file, read_err.line,
+                read_err.column, read_err.message);
+    if (n > 0 && !s->qc.range_set &&
+        sw_qc_plausible_band(site, s->name, &band_lo, &band_hi) &&
+        (hi > band_hi || lo < band_lo))
+        sw_cli_warn_implausible(s, lo, hi, band_lo, band_hi);
+    return SW_OK;
+}
+
+/* The members of an ensemble series (value_column with one '*'): each
+ * header column the pattern matches, read as its own column. */
+static int check_members(const sw_site *site, const sw_site_series *s,
+                         sw_error *err)
+{
+    const char *star = strchr(s->value_column, '*');
+    size_t pre = (size_t)(star - s->value_column), post = strlen(star + 1);
+    char **names = NULL;
+    size_t n = 0, found = 0;
+    int rc = sw_csv_header(s->path, s->delimiter, &names, &n, err);
+
+    if (rc != SW_OK) {
+        sw_error was = *err;
+        return sw_error_set(err, rc, was.file[0] ? was.file : NULL, was.line,
+                            was.column, "series %s: %s", s->name,
+                            was.message);
+    }
+    for (size_t k = 0; k < n && rc == SW_OK; k++) {
+        size_t len = strlen(names[k]);
+        if (len < pre + post || strncmp(names[k], s->value_column, pre) != 0 ||
+            strcmp(names[k] + len - post, star + 1) != 0 ||
+            strcmp(names[k], s->time_column) == 0)
+            continue;
+        sw_site_series member = *s;
+        char label[2 * SW_SITE_NAME_MAX + 8];
+        snprintf(member.value_column, sizeof member.value_column, "%s",
+                 names[k]);
+        snprintf(label, sizeof label, "%s#%.*s", s->name,
+                 (int)(len - pre - post), names[k] + pre);
+        rc = check_column(site, &member, label, err);
+        found++;
+    }
+    sw_csv_header_free(names, n);
+    if (rc == SW_OK && found == 0)
+        rc = sw_error_set(err, SW_EDATA, s->path, 1, 0,
+                          "series %s: no column of the header matches "
+                          "value_column '%s'", s->name, s->value_column);
+    return rc;
+}
+
+/* Read each series file: a missing file or column makes the site invalid
+ * (it could not be replayed); a file that cannot be read to the end is
+ * warned of; levels outside the plausible band of their gates are warned
+ * of (without valid_range). */
+static int check_series(const sw_site *site, sw_error *err)
+{
+    for (size_t i = 0; i < site->n_series; i++) {
+        const sw_site_series *s = &site->series[i];
+        int rc = strchr(s->value_column, '*') != NULL
+                     ? check_members(site, s, err)
+                     : check_column(site, s, s->name, err);
+        if (rc != SW_OK)
+            return rc;
+    }
+    return SW_OK;
+}
+
+/* A gate's mass per sealed area far outside what leaves weigh. */
+static void warn_masses(const sw_site *site)
+{
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_gate *g = &site->gates[i].gate;
+        double kg_m2;
+        if (sw_qc_mass_implausible(g, &kg_m2))
+            fprintf(stderr, "sillwatch: warning: %s:%ld: gate %s: mass %g kg "
+                    "over a sealed area of %.4g m^2 is %.4g kg/m^2, outside "
+                    "%g to %g kg/m^2: is the unit kg?\n",
+                    site->path, site->gates[i].line, g->name, g->mass_kg,
+                    g->area_m2, kg_m2, SW_QC_MASS_AREA_MIN,
+                    SW_QC_MASS_AREA_MAX);
+    }
+}
+
 int sw_cmd_check(int argc, char **argv)
 {
     static const struct option opts[] = {
@@ -122,6 +220,11 @@ int sw_cmd_check(int argc, char **argv)
                                   argc - optind);
     if (sw_site_load(&site, argv[optind], &err) != SW_OK)
         return sw_cli_report(&err);
+    if (check_series(&site, &err) != SW_OK) {
+        sw_site_fini(&site);
+        return sw_cli_report(&err);
+    }
+    warn_masses(&site);
 
     printf("site '%s' (%s): valid, %zu gate%s\n", site.name, site.path,
            site.n_gates, site.n_gates == 1 ? "" : "s");

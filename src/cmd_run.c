@@ -26,6 +26,8 @@ static const char run_help[] =
     "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
     "                below margin; events; least factor of safety\n"
     "  events.csv    the exceedance log: each period below the margin\n"
+    "  flags.csv     readings that failed a quality test of their series\n"
+    "                (valid_range, spike, max_rate, flat): removed\n"
     "  steps.csv     with --steps: every gate at every time step, with\n"
     "                its critical tailwaters\n"
     "  months.csv    with --by month: the summary per calendar month\n"
@@ -50,9 +52,11 @@ static const char run_help[] =
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, N_OUT };
+enum { OUT_SUMMARY, OUT_EVENTS, OUT_FLAGS, OUT_STEPS, OUT_MONTHS, OUT_REPORT,
+       N_OUT };
 static const char *const out_names[N_OUT] = {
-    "summary.csv", "events.csv", "steps.csv", "months.csv", "report.html"};
+    "summary.csv", "events.csv", "flags.csv", "steps.csv", "months.csv",
+    "report.html"};
 
 typedef struct run_opts {
     const char *site_path, *outdir;
@@ -149,6 +153,33 @@ static void print_summary(const sw_site *site, const sw_stepper *st)
     sw_cli_print_fs_basis(site);
 }
 
+/* The flagged readings of a series: counts per test, the first ten. */
+static void print_flags(const sw_site *site, const sw_site_series *sr,
+                        const sw_qc_stats *qs, long flagged)
+{
+    char when[64];
+
+    if (flagged == 0)
+        return;
+    printf("    flagged by the quality tests (removed like missing "
+           "readings):");
+    for (int k = 0, first = 1; k < SW_QC_N_TESTS; k++)
+        if (qs->flagged[k] > 0) {
+            printf("%s %ld %s", first ? "" : ",", qs->flagged[k],
+                   sw_qc_test_name(k));
+            first = 0;
+        }
+    printf("\n");
+    for (size_t k = 0; k < qs->n_kept; k++) {
+        sw_time_format(when, sizeof when, qs->kept[k].t, site->zone);
+        printf("    %s:%ld: %s: %.4f m at %s\n", sr->path, qs->kept[k].line,
+               sw_qc_test_name(qs->kept[k].test), qs->kept[k].v_m, when);
+    }
+    if (flagged > (long)qs->n_kept)
+        printf("    ... and %ld more flagged (all in flags.csv)\n",
+               flagged - (long)qs->n_kept);
+}
+
 static void print_quality(const sw_site *site, const sw_stepper *st)
 {
     char h[24], when[64];
@@ -160,14 +191,22 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
         const sw_column_stats *cs = sw_stepper_column_stats(st, i);
         const sw_gap_stats *gs = sw_stepper_gap_stats(st, i);
-        printf("  series %s (%s, column %s): %ld rows, %ld valid, %ld "
-               "missing, %ld rejected",
-               sr->name, sr->path, sr->value_column, rs->records, cs->valid,
-               cs->missing, cs->rejected);
+        const sw_qc_stats *qs = sw_stepper_qc_stats(st, i);
+        long flagged = 0;
+        for (int k = 0; k < SW_QC_N_TESTS; k++)
+            flagged += qs->flagged[k];
+        /* every row is one of these, so the account adds up */
+        printf("  series %s (%s, column %s): %ld rows = %ld valid + %ld "
+               "missing + %ld rejected + %ld flagged + %ld duplicate + %ld "
+               "in a skipped hour\n",
+               sr->name, sr->path, sr->value_column, rs->records,
+               cs->valid - flagged, cs->missing, cs->rejected, flagged,
+               rs->duplicates, rs->time_rejected);
         if (rs->duplicates > 0)
-            printf(", %ld duplicate rows skipped (first on line %ld)",
-                   rs->duplicates, rs->first_duplicate_line);
-        printf("\n");
+            printf("    %ld duplicate row%s skipped (first on line %ld)\n",
+                   rs->duplicates, rs->duplicates == 1 ? "" : "s",
+                   rs->first_duplicate_line);
+        print_flags(site, sr, qs, flagged);
         if (gs->gaps > 0) {
             sw_report_hours_text(h, sizeof h, gs->total);
             sw_time_format(when, sizeof when, gs->longest_start, site->zone);
@@ -201,6 +240,21 @@ static void print_quality(const sw_site *site, const sw_stepper *st)
     }
 }
 
+/* Series without valid_range whose levels leave the plausible band of
+ * their gates: a unit or offset slip? (a warning, not a rejection) */
+static void warn_implausible(const sw_site *site, const sw_stepper *st)
+{
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *sr = sw_stepper_series(st, i);
+        double lo, hi, band_lo, band_hi;
+        if (sr->qc.range_set || !sw_stepper_level_extent(st, i, &lo, &hi) ||
+            !sw_qc_plausible_band(site, sr->name, &band_lo, &band_hi))
+            continue;
+        if (hi > band_hi || lo < band_lo)
+            sw_cli_warn_implausible(sr, lo, hi, band_lo, band_hi);
+    }
+}
+
 static void progress(const sw_stepper *st, const sw_site *site, long steps)
 {
     char when[64];
@@ -212,17 +266,28 @@ static void progress(const sw_stepper *st, const sw_site *site, long steps)
  * report when there is one.  Returns SW_OK or the report's error. */
 static int write_step(const sw_stepper *st, const sw_site *site,
                       sw_outfile *out, const run_opts *o,
-                      sw_html_report *rep, sw_error *err)
+                      sw_html_report *rep, sw_event_log *log, sw_error *err)
 {
     const sw_event *ev;
     const sw_month_row *mo;
-    size_t n = sw_stepper_events(st, &ev);
+    const sw_stepper_flag *fl;
+    size_t n = sw_stepper_flags(st, &fl);
     int rc;
 
     for (size_t i = 0; i < n; i++) {
-        sw_report_event_row(out[OUT_EVENTS].fp,
-                            site->gates[ev[i].gate].gate.name, &ev[i],
-                            site->zone);
+        const sw_site_series *sr = sw_stepper_series(st, fl[i].series);
+        sw_report_flag_row(out[OUT_FLAGS].fp, sr->name, sr->path,
+                           &fl[i].reading, site->zone);
+        if (rep != NULL)
+            sw_html_report_flag(rep, sr, &fl[i].reading);
+    }
+    if (!sw_stepper_passed(st))
+        return SW_OK; /* flags only: no point passed */
+    n = sw_stepper_events(st, &ev);
+
+    for (size_t i = 0; i < n; i++) {
+        if ((rc = sw_event_log_add(log, &ev[i], err)) != SW_OK)
+            return rc;
         if (rep != NULL)
             sw_html_report_event(rep, &ev[i]);
     }
@@ -327,6 +392,7 @@ int sw_cmd_run(int argc, char **argv)
     sw_site site;
     sw_stepper *st = NULL;
     sw_html_report *rep = NULL;
+    sw_event_log *log = NULL;
     sw_outfile out[N_OUT];
     sw_error err;
     int rc, done = 0, exit_code;
@@ -352,6 +418,8 @@ int sw_cmd_run(int argc, char **argv)
         goto fail;
     if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
         goto fail;
+    if ((rc = sw_event_log_alloc(&log, site.n_gates, &err)) != SW_OK)
+        goto fail;
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
         (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
@@ -365,6 +433,7 @@ int sw_cmd_run(int argc, char **argv)
     }
     sw_report_summary_header(out[OUT_SUMMARY].fp);
     sw_report_events_header(out[OUT_EVENTS].fp);
+    sw_report_flags_header(out[OUT_FLAGS].fp);
     if (o.steps)
         sw_report_steps_header(out[OUT_STEPS].fp);
     if (o.by_month)
@@ -378,7 +447,8 @@ int sw_cmd_run(int argc, char **argv)
         if (sw_cancel_requested())
             goto stop;
         if (!done) {
-            if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+            if ((rc = write_step(st, &site, out, &o, rep, log, &err)) !=
+                SW_OK)
                 goto fail;
             steps++;
         }
@@ -393,12 +463,12 @@ int sw_cmd_run(int argc, char **argv)
     if ((rc = sw_stepper_finish(st, &err)) != SW_OK)
         goto fail;
     if (!sw_stepper_has_data(st)) {
-        rc = sw_error_set(&err, SW_EDATA, site.path, 0, 0,
-                          "the level series hold no valid reading: nothing "
-                          "to replay");
+        rc = sw_stepper_no_data_error(st, &err);
         goto fail;
     }
-    if ((rc = write_step(st, &site, out, &o, rep, &err)) != SW_OK)
+    if ((rc = write_step(st, &site, out, &o, rep, log, &err)) != SW_OK ||
+        (rc = sw_event_log_write(log, out[OUT_EVENTS].fp, &site, &err)) !=
+            SW_OK)
         goto fail;
     if (show_progress)
         fputs("\r\033[K", stderr);
@@ -441,11 +511,28 @@ int sw_cmd_run(int argc, char **argv)
         if (t->low > 0 || t->open > 0)
             exit_code = SW_EXIT_BELOW;
         if (t->evaluated < t1 - t0 && !o.quiet) {
-            char h[24];
+            char h[24], hg[24], he[24];
+            sw_time_ms edge = sw_stepper_unknown_edge(st, i);
             sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
+            /* each part rounded once, as the gaps of the data-quality
+             * account are */
+            sw_time_ms in_gaps = (t1 - t0) - t->evaluated - edge;
+            sw_report_hours_text(hg, sizeof hg, in_gaps);
+            sw_report_hours_text(he, sizeof he, edge);
+            /* say where the hours come from: gaps, series ends */
+            char why[160];
+            if (edge == 0)
+                snprintf(why, sizeof why, "in gaps longer than max_gap");
+            else if (in_gaps == 0)
+                snprintf(why, sizeof why, "before a series began or after "
+                         "it ended");
+            else
+                snprintf(why, sizeof why, "%s h in gaps longer than "
+                         "max_gap, %s h before a series began or after it "
+                         "ended", hg, he);
             fprintf(stderr, "sillwatch: warning: gate %s: %s h without level "
-                    "data were not evaluated; they are not counted as "
-                    "safe\n", site.gates[i].gate.name, h);
+                    "data were not evaluated (%s); they are not counted as "
+                    "safe\n", site.gates[i].gate.name, h, why);
         }
     }
     for (size_t i = 0; i < sw_stepper_n_series(st) && !o.quiet; i++) {
@@ -457,16 +544,19 @@ int sw_cmd_run(int argc, char **argv)
                             "out\n",
                     sw_stepper_series(st, i)->path, rs->partial_line);
     }
+    if (!o.quiet)
+        warn_implausible(&site, st);
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv%s%s%s, "
+        printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s, "
                "manifest.csv\n", o.outdir,
                o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
                o.report ? ", report.html" : "");
         fputs(sw_cli_caution, stdout);
     }
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return exit_code;
@@ -477,6 +567,7 @@ stop:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     return run_interrupted(o.outdir);
@@ -485,6 +576,7 @@ fail:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     sw_html_report_free(rep);
+    sw_event_log_free(log);
     sw_stepper_free(st);
     sw_site_fini(&site);
     if (rc == SW_EINTERRUPTED)

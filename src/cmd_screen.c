@@ -36,6 +36,8 @@ static const char screen_help[] =
     "                 series: the tailwater it needs (tw_alarm, tw_open) at\n"
     "                 each time step, per member\n"
     "  required_max.csv  their maxima and when they occur\n"
+    "  flags.csv      readings of the member series that failed a quality\n"
+    "                 test of their series (removed)\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE\n"
@@ -52,9 +54,11 @@ static const char screen_help[] =
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
+enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_FLAGS,
+       N_OUT };
 static const char *const out_names[N_OUT] = {
-    "forecast.csv", "screen.csv", "required.csv", "required_max.csv"};
+    "forecast.csv", "screen.csv", "required.csv", "required_max.csv",
+    "flags.csv"};
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
@@ -195,6 +199,15 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
                 goto cleanup;
             last = 1;
         }
+        const sw_stepper_flag *fl;
+        size_t n_fl = sw_stepper_flags(st, &fl);
+        for (size_t i = 0; i < n_fl; i++) {
+            const sw_site_series *ss = sw_stepper_series(st, fl[i].series);
+            sw_report_flag_row(out[OUT_FLAGS].fp, ss->name, ss->path,
+                               &fl[i].reading, site->zone);
+        }
+        if (!sw_stepper_passed(st))
+            continue; /* flags only */
         for (size_t g = 0; g < ens->n_orig; g++) {
             size_t k = 0, low = 0, open = 0;
             if (ens->n_members[g] == 0)
@@ -229,9 +242,7 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
 
     sw_time_ms end;
     if (!sw_stepper_has_data(st)) {
-        rc = sw_error_set(err, SW_EDATA, site->path, 0, 0,
-                          "the forecast series hold no valid reading: "
-                          "nothing to screen");
+        rc = sw_stepper_no_data_error(st, err);
         goto cleanup;
     }
     sw_stepper_span(st, t0, &end);
@@ -275,7 +286,83 @@ cleanup:
     return rc;
 }
 
-/* The tailwater the headwater-only gates need, step by step. */
+/* The maxima of a headwater-only series' required tailwaters. */
+typedef struct required_max {
+    double max[2];
+    sw_time_ms when[2];
+    int seen[2];
+} required_max;
+
+/* One reading of a headwater-only series: its row of required.csv. */
+static int required_step(FILE *fp, const sw_site *site, const sw_gate *g,
+                         const sw_site_series *sr, sw_time_ms t, double hw,
+                         required_max *m, sw_error *err)
+{
+    sw_crit c[2];
+    int rc;
+    if ((rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_ALARM, &c[0],
+                                         err)) != SW_OK ||
+        (rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_OPEN, &c[1], err)) !=
+            SW_OK)
+        return rc;
+    put_time(fp, t, site->zone);
+    fprintf(fp, ",%s,%s,%.4f,", g->name, sr->name, hw);
+    for (int i = 0; i < 2; i++) {
+        if (c[i].kind == SW_CRIT_LEVEL) {
+            fprintf(fp, "%.4f", c[i].level_m);
+            if (!m->seen[i] || c[i].level_m > m->max[i]) {
+                m->max[i] = c[i].level_m;
+                m->when[i] = t;
+            }
+            m->seen[i] = 1;
+        }
+        fputc(i == 0 ? ',' : '\n', fp);
+    }
+    return SW_OK;
+}
+
+/* The name of headwater-only series s in flags.csv (NAME, or
+ * NAME#MEMBER as the replay names members), or NULL when its flags are
+ * written already: by the replay (a gate with a tailwater uses it too) or
+ * for an earlier headwater-only gate on the same series. */
+static const char *flag_name(const sw_site *site, const sw_ensemble *ens,
+                             size_t s, char *buf, size_t n)
+{
+    const char *h = site->gates[ens->hw_series_gate[s]].headwater;
+    for (size_t g = 0; g < site->n_gates; g++)
+        if (site->gates[g].tailwater[0] != '\0' &&
+            strcmp(site->gates[g].headwater, h) == 0)
+            return NULL;
+    for (size_t k = 0; k < s; k++)
+        if (strcmp(site->gates[ens->hw_series_gate[k]].headwater, h) == 0 &&
+            strcmp(ens->hw_series[k].name, ens->hw_series[s].name) == 0)
+            return NULL;
+    if (ens->hw_series[s].name[0] == '\0')
+        snprintf(buf, n, "%s", h);
+    else
+        snprintf(buf, n, "%s#%s", h, ens->hw_series[s].name);
+    return buf;
+}
+
+/* A judged reading of a headwater-only series: a row of flags.csv when
+ * flagged (`name`, or none when NULL), else its row of required.csv. */
+static int required_verdict(sw_outfile *out, const sw_site *site,
+                            const sw_gate *g, const sw_site_series *sr,
+                            const char *name, const sw_qc_reading *r,
+                            required_max *m, sw_error *err)
+{
+    if (r->test != SW_QC_PASS) {
+        if (name != NULL)
+            sw_report_flag_row(out[OUT_FLAGS].fp, name, sr->path, r,
+                               site->zone);
+        return SW_OK;
+    }
+    return required_step(out[OUT_REQUIRED].fp, site, g, sr, r->t, r->v_m, m,
+                         err);
+}
+
+/* The tailwater the headwater-only gates need, step by step (after the
+ * series' quality tests, as in the replay). */
 static int screen_required(const sw_site *site, const sw_ensemble *ens,
                            sw_outfile *out, int quiet, sw_error *err)
 {
@@ -292,9 +379,15 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
                                 sr->delimiter, site->zone};
         sw_column_config col;
         sw_reader *rd = NULL;
-        double max[2] = {-INFINITY, -INFINITY};
-        sw_time_ms when[2] = {0, 0};
-        int seen[2] = {0, 0}, has_row = 1;
+        sw_qc *qc = NULL;
+        sw_qc_config qcc = sr->qc;
+        sw_qc_reading judged;
+        char fbuf[2 * SW_SITE_NAME_MAX + 2];
+        const char *fname = flag_name(site, ens, s, fbuf, sizeof fbuf);
+        required_max m = {{-INFINITY, -INFINITY}, {0, 0}, {0, 0}};
+        double *max = m.max;
+        sw_time_ms *when = m.when;
+        int *seen = m.seen, has_row = 1;
 
         memset(&col, 0, sizeof col);
         col.name = sr->value_column;
@@ -303,39 +396,36 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         col.n_missing = sr->n_missing;
         for (size_t k = 0; k < sr->n_missing; k++)
             col.missing[k] = sr->missing[k];
-        if ((rc = sw_reader_open(&rd, &cfg, &col, 1, err)) != SW_OK)
+        qcc.max_gap_ms = site->max_gap_ms;
+        if (sw_qc_active(&qcc) && (rc = sw_qc_alloc(&qc, &qcc, err)) != SW_OK)
             break;
+        if ((rc = sw_reader_open(&rd, &cfg, &col, 1, err)) != SW_OK) {
+            sw_qc_free(qc);
+            break;
+        }
         while (rc == SW_OK) {
             sw_time_ms t;
             double hw;
-            sw_crit c[2];
             if ((rc = sw_cancel_check(err)) != SW_OK ||
                 (rc = sw_reader_next(rd, &has_row, &t, &hw, err)) != SW_OK ||
                 !has_row)
                 break;
             if (isnan(hw))
                 continue;
-            if ((rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_ALARM, &c[0],
-                                                 err)) != SW_OK ||
-                (rc = sw_gate_critical_tailwater(g, hw, SW_LIMIT_OPEN, &c[1],
-                                                 err)) != SW_OK)
-                break;
-            put_time(fp, t, site->zone);
-            fprintf(fp, ",%s,%s,%.4f,", g->name, sr->name, hw);
-            for (int i = 0; i < 2; i++) {
-                if (c[i].kind == SW_CRIT_LEVEL) {
-                    fprintf(fp, "%.4f", c[i].level_m);
-                    if (!seen[i] || c[i].level_m > max[i]) {
-                        max[i] = c[i].level_m;
-                        when[i] = t;
-                    }
-                    seen[i] = 1;
-                }
-                fputc(i == 0 ? ',' : '\n', fp);
+            if (qc == NULL) {
+                rc = required_step(fp, site, g, sr, t, hw, &m, err);
+                continue;
             }
+            sw_qc_reading in = {t, hw, sw_reader_line(rd), SW_QC_PASS};
+            if (sw_qc_push(qc, &in, &judged))
+                rc = required_verdict(out, site, g, sr, fname, &judged, &m,
+                                      err);
         }
         if (rc == SW_OK)
             warn_partial(sr->path, sw_reader_get_stats(rd), quiet);
+        if (rc == SW_OK && qc != NULL && sw_qc_flush(qc, &judged))
+            rc = required_verdict(out, site, g, sr, fname, &judged, &m, err);
+        sw_qc_free(qc);
         sw_reader_free(rd);
         if (rc != SW_OK)
             break;
@@ -428,6 +518,7 @@ int sw_cmd_screen(int argc, char **argv)
         goto fail;
     }
 
+    sw_report_flags_header(out[OUT_FLAGS].fp);
     if (!o.quiet && ens.n_hw_only > 0)
         printf("tailwater needed by the headwater-only forecasts:\n");
     if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
@@ -524,7 +615,7 @@ int sw_cmd_screen(int argc, char **argv)
     if (!o.quiet) {
         sw_cli_print_fs_basis(&site);
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv, manifest.csv\n", o.outdir);
+               "required_max.csv, flags.csv, manifest.csv\n", o.outdir);
         fputs(sw_cli_caution, stdout);
     }
     free(vd);

@@ -80,6 +80,10 @@ struct sw_html_report {
     sw_event worst[WORST_KEPT];
     size_t n_worst;
     size_t n_months, cap_months;
+    /* flagged readings per level series and column: the tests (bits) and
+     * the first flagged value; before the first point, column 0 */
+    unsigned char *qmask;  /* n_lv x NB */
+    double *qval;          /* n_lv x NB */
     int *yyyymm;
     sw_time_ms *m_low, *m_open; /* n_months x n_drawn */
 };
@@ -187,7 +191,10 @@ int sw_html_report_alloc(sw_html_report **out, const sw_site *site,
     r->tr = malloc(r->n_tr * sizeof *r->tr);
     r->val = calloc(r->n_tr, sizeof *r->val);
     r->brk = calloc(r->n_tr, sizeof *r->brk);
-    if (r->tr == NULL || r->val == NULL || r->brk == NULL)
+    r->qmask = calloc(r->n_lv * NB + 1, 1);
+    r->qval = calloc(r->n_lv * NB + 1, sizeof *r->qval);
+    if (r->tr == NULL || r->val == NULL || r->brk == NULL ||
+        r->qmask == NULL || r->qval == NULL)
         goto fail;
     for (size_t i = 0; i < r->n_tr; i++)
         clear_buckets(&r->tr[i]);
@@ -219,6 +226,8 @@ void sw_html_report_free(sw_html_report *r)
     free(r->tr);
     free(r->val);
     free(r->brk);
+    free(r->qmask);
+    free(r->qval);
     free(r->yyyymm);
     free(r->m_low);
     free(r->m_open);
@@ -262,6 +271,15 @@ static void widen(sw_html_report *r)
         for (size_t k = 0; k < NB / 2; k++)
             f[k] = (unsigned char)(f[2 * k] | f[2 * k + 1]);
         memset(f + NB / 2, 0, NB / 2);
+    }
+    for (size_t i = 0; i < r->n_lv; i++) {
+        unsigned char *q = r->qmask + i * NB;
+        double *qv = r->qval + i * NB;
+        for (size_t k = 0; k < NB / 2; k++) {
+            qv[k] = q[2 * k] ? qv[2 * k] : qv[2 * k + 1];
+            q[k] = (unsigned char)(q[2 * k] | q[2 * k + 1]);
+        }
+        memset(q + NB / 2, 0, NB / 2);
     }
     r->w *= 2;
 }
@@ -447,6 +465,25 @@ int sw_html_report_point(sw_html_report *r, const sw_stepper *st,
     }
     r->t_prev = t;
     return SW_OK;
+}
+
+void sw_html_report_flag(sw_html_report *r, const sw_site_series *s,
+                         const sw_qc_reading *q)
+{
+    size_t si = (size_t)(s - r->site->series), k = 0, i;
+
+    for (i = 0; i < r->n_lv && r->lv_series[i] != si; i++)
+        ;
+    if (i == r->n_lv || q->test < 0 || q->test >= SW_QC_N_TESTS)
+        return;
+    if (r->started) {
+        while (q->t - r->t0 >= (sw_time_ms)NB * r->w)
+            widen(r);
+        k = column_of(r, q->t);
+    }
+    if (r->qmask[i * NB + k] == 0)
+        r->qval[i * NB + k] = q->v_m;
+    r->qmask[i * NB + k] |= (unsigned char)(1u << q->test);
 }
 
 /* Whether event a ranks worse than b: open before low, then the lower
@@ -1145,6 +1182,27 @@ static void legend_item(FILE *fp, double *x, double y, const char *style,
     *x += 34 + 6.6 * (double)strlen(label);
 }
 
+/* A cross at each column where readings of a level series were flagged,
+ * at the first flagged value (held to the plot's edges).  Returns whether
+ * any was drawn. */
+static int qc_marks(FILE *fp, const sw_html_report *r, const frame *f,
+                    size_t nc)
+{
+    int any = 0;
+    for (size_t i = 0; i < r->n_lv; i++)
+        for (size_t k = 0; k < nc && k < NB; k++) {
+            if (r->qmask[i * NB + k] == 0)
+                continue;
+            double v = fmax(f->vy0, fmin(f->vy1, r->qval[i * NB + k]));
+            double x = col_x(r, f, k), y = fy(f, v);
+            fprintf(fp, "<path class=\"qc-flag\" stroke=\"%s\" "
+                    "d=\"M%.1f,%.1fl8,8m0,-8l-8,8\"/>\n",
+                    palette[i % N_PALETTE], x - 4, y - 4);
+            any = 1;
+        }
+    return any;
+}
+
 static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
 {
     const sw_site *site = r->site;
@@ -1206,6 +1264,7 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
                    "class=\"crit-open\"");
     }
     fputs("</g>\n", fp);
+    int any_flag = qc_marks(fp, r, &f, nc);
     double x = f.x0;
     for (size_t i = 0; i < r->n_lv; i++) {
         const sw_site_series *s = &site->series[r->lv_series[i]];
@@ -1225,6 +1284,12 @@ static void chart_levels(FILE *fp, const sw_html_report *r, sw_time_ms t1)
                 "tw_open, governing gate", 0);
     legend_item(fp, &x, 20, "fill=\"#E69F00\" fill-opacity=\"0.45\"",
                 "range in a column", 1);
+    if (any_flag) {
+        fprintf(fp, "<path class=\"qc-flag\" stroke=\"#000\" "
+                "d=\"M%.1f,7l8,8m0,-8l-8,8\"/>", x);
+        fprintf(fp, "<text class=\"legend\" x=\"%.1f\" y=\"20\">flagged "
+                "reading (removed)</text>\n", x + 12);
+    }
     fputs("</svg>\n", fp);
 }
 
@@ -1656,6 +1721,60 @@ static void note_item(FILE *fp, int *any, const char *fmt, ...)
     fputs("</li>\n", fp);
 }
 
+static long qc_total(const sw_qc_stats *q)
+{
+    long all = 0;
+    for (int k = 0; k < SW_QC_N_TESTS; k++)
+        all += q->flagged[k];
+    return all;
+}
+
+/* The readings flagged by the quality tests: counts per series and test,
+ * and the first ten of each series. */
+static void table_flags(FILE *fp, const sw_html_report *r,
+                        const sw_stepper *st)
+{
+    char when[64];
+
+    fputs("<p>Readings flagged by the quality tests of their series (U.S. "
+          "IOOS QARTOD water-level tests: gross range, spike, rate of "
+          "change, flat line) are removed like missing ones; each is in "
+          "flags.csv and marked with a cross on the level chart.</p>\n"
+          "<table id=\"table-flags\">\n<thead><tr><th>series</th>", fp);
+    for (int k = 0; k < SW_QC_N_TESTS; k++)
+        fprintf(fp, "<th>%s</th>", sw_qc_test_name(k));
+    fputs("<th>flagged</th></tr></thead>\n<tbody>\n", fp);
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_qc_stats *q = sw_stepper_qc_stats(st, i);
+        long all = 0;
+        fputs("<tr><td>", fp);
+        esc(fp, sw_stepper_series(st, i)->name);
+        fputs("</td>", fp);
+        for (int k = 0; k < SW_QC_N_TESTS; k++) {
+            fprintf(fp, "<td>%ld</td>", q->flagged[k]);
+            all += q->flagged[k];
+        }
+        fprintf(fp, "<td>%ld</td></tr>\n", all);
+    }
+    fputs("</tbody>\n</table>\n", fp);
+    int any = 0;
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *s = sw_stepper_series(st, i);
+        const sw_qc_stats *q = sw_stepper_qc_stats(st, i);
+        for (size_t k = 0; k < q->n_kept; k++) {
+            if (!any++)
+                fputs("<ul class=\"rejects\" id=\"list-flags\">\n", fp);
+            when_text(when, sizeof when, q->kept[k].t, r->site->zone);
+            fputs("<li>", fp);
+            escf(fp, "%s:%ld: %s: %.4f m at %s", s->path, q->kept[k].line,
+                 sw_qc_test_name(q->kept[k].test), q->kept[k].v_m, when);
+            fputs("</li>\n", fp);
+        }
+    }
+    if (any)
+        fputs("</ul>\n", fp);
+}
+
 static void table_quality(FILE *fp, const sw_html_report *r,
                           const sw_stepper *st)
 {
@@ -1683,7 +1802,8 @@ static void table_quality(FILE *fp, const sw_html_report *r,
         fputs("</td><td>", fp);
         esc(fp, s->value_column);
         fprintf(fp, "</td><td>%ld</td><td>%ld</td><td>%ld</td><td>%ld</td>"
-                "<td>%ld</td><td>%ld</td>", rs->records, cs->valid,
+                "<td>%ld</td><td>%ld</td>", rs->records,
+                cs->valid - qc_total(sw_stepper_qc_stats(st, i)),
                 cs->missing, cs->rejected, rs->duplicates, gs->gaps);
         if (gs->gaps > 0) {
             sw_report_hours_text(h, sizeof h, gs->total);
@@ -1697,6 +1817,7 @@ static void table_quality(FILE *fp, const sw_html_report *r,
         }
     }
     fputs("</tbody>\n</table>\n", fp);
+    table_flags(fp, r, st);
     int any = 0;
     for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
         const sw_site_series *s = sw_stepper_series(st, i);
@@ -1936,6 +2057,7 @@ static const char css[] =
     ".halo{fill:none;stroke:#FFFFFF;stroke-width:4.5;stroke-opacity:0.9}\n"
     "line.ref{stroke:#555;stroke-width:0.8;stroke-dasharray:1 2}\n"
     "text.ref{font-size:10px;fill:#333}\n"
+    ".qc-flag{fill:none;stroke-width:1.8}\n"
     ".crit-alarm{fill:none;stroke:#CC79A7;stroke-width:2;"
     "stroke-dasharray:7 4}\n"
     ".crit-open{fill:none;stroke:#000;stroke-width:1.6;"

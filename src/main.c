@@ -315,6 +315,22 @@ int sw_cli_site_operand(const char *command, int argc, char **argv,
     return 0;
 }
 
+void sw_cli_warn_implausible(const sw_site_series *s, double lo, double hi,
+                             double band_lo, double band_hi)
+{
+    fprintf(stderr, "sillwatch: warning: series %s (%s): levels reach %s "
+            "%.4f m, more than %g m %s the gates it drives (%.4f m): is the "
+            "unit or the offset right? (unit = %s, offset = %g m; set "
+            "valid_range to reject such readings)\n",
+            s->name, s->path, hi > band_hi ? "up to" : "down to",
+            hi > band_hi ? hi : lo, SW_QC_PLAUSIBLE_M,
+            hi > band_hi ? "above the highest hinge of"
+                         : "below the lowest sill of",
+            hi > band_hi ? band_hi - SW_QC_PLAUSIBLE_M
+                         : band_lo + SW_QC_PLAUSIBLE_M,
+            s->scale == 1.0 ? "m" : "ft", s->offset_m);
+}
+
 int main(int argc, char **argv)
 {
     static const struct {

@@ -312,3 +312,140 @@ void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
     *w++ = '\n';
     write_row(fp, gate, line, w);
 }
+
+void sw_report_flags_header(FILE *fp)
+{
+    fputs("series,time,value,test,file,line\n", fp);
+}
+
+/* A field quoted as RFC 4180 asks where it holds a comma, a quote or a
+ * line end (a file path may). */
+static void put_field(FILE *fp, const char *s)
+{
+    if (strpbrk(s, ",\"\r\n") == NULL) {
+        fputs(s, fp);
+        return;
+    }
+    fputc('"', fp);
+    for (; *s != '\0'; s++) {
+        if (*s == '"')
+            fputc('"', fp);
+        fputc(*s, fp);
+    }
+    fputc('"', fp);
+}
+
+void sw_report_flag_row(FILE *fp, const char *series, const char *file,
+                        const sw_qc_reading *r, const sw_zone *zone)
+{
+    char line[INSTANT_MAX + FIXED_MAX + 64], *w = line;
+
+    fputs(series, fp);
+    *w++ = ',';
+    w = put_instant(w, r->t, zone);
+    *w++ = ',';
+    w = put_fixed(w, r->v_m, 4);
+    *w++ = ',';
+    w = put_text(w, sw_qc_test_name(r->test));
+    *w++ = ',';
+    fwrite(line, 1, (size_t)(w - line), fp);
+    put_field(fp, file);
+    fprintf(fp, ",%ld\n", r->line);
+}
+
+/* ---- events in order of start ------------------------------------------ */
+
+/* Each gate's events close in order of start, but a gate's event may close
+ * long after another gate's later one.  Each gate's events wait in a
+ * temporary file of their own (binary records); the files are merged by
+ * start time at the end, so memory does not grow with the run. */
+struct sw_event_log {
+    size_t n_gates;
+    FILE **fp;               /* per gate, NULL until its first event */
+};
+
+static int log_error(sw_error *err, const char *what)
+{
+    return sw_error_set(err, SW_EOUTPUT, NULL, 0, 0,
+                        "cannot %s a temporary file for the events (is "
+                        "TMPDIR writable?)", what);
+}
+
+int sw_event_log_alloc(sw_event_log **out, size_t n_gates, sw_error *err)
+{
+    sw_event_log *log = calloc(1, sizeof *log);
+    *out = NULL;
+    if (log == NULL ||
+        (log->fp = calloc(n_gates ? n_gates : 1, sizeof *log->fp)) == NULL) {
+        free(log);
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    }
+    log->n_gates = n_gates;
+    *out = log;
+    return SW_OK;
+}
+
+int sw_event_log_add(sw_event_log *log, const sw_event *ev, sw_error *err)
+{
+    FILE **fp = &log->fp[ev->gate];
+    if (*fp == NULL && (*fp = tmpfile()) == NULL)
+        return log_error(err, "create");
+    if (fwrite(ev, sizeof *ev, 1, *fp) != 1)
+        return log_error(err, "write");
+    return SW_OK;
+}
+
+int sw_event_log_write(sw_event_log *log, FILE *out, const sw_site *site,
+                       sw_error *err)
+{
+    size_t n = log->n_gates;
+    sw_event *head = calloc(n ? n : 1, sizeof *head);
+    int *has = calloc(n ? n : 1, sizeof *has);
+    int rc = SW_OK;
+
+    if (head == NULL || has == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+        goto done;
+    }
+    for (size_t g = 0; g < n; g++) {
+        FILE *fp = log->fp[g];
+        if (fp == NULL)
+            continue;
+        if (fflush(fp) != 0 || fseek(fp, 0, SEEK_SET) != 0) {
+            rc = log_error(err, "read back");
+            goto done;
+        }
+        has[g] = fread(&head[g], sizeof head[g], 1, fp) == 1;
+    }
+    for (;;) {
+        size_t best = n;
+        /* the earliest start; the first gate on a tie */
+        for (size_t g = 0; g < n; g++)
+            if (has[g] && (best == n || head[g].start < head[best].start))
+                best = g;
+        if (best == n)
+            break;
+        sw_report_event_row(out, site->gates[best].gate.name, &head[best],
+                            site->zone);
+        has[best] = fread(&head[best], sizeof head[best], 1,
+                          log->fp[best]) == 1;
+    }
+    for (size_t g = 0; g < n; g++)
+        if (log->fp[g] != NULL && ferror(log->fp[g]))
+            rc = log_error(err, "read back");
+done:
+    free(head);
+    free(has);
+    return rc;
+}
+
+void sw_event_log_free(sw_event_log *log)
+{
+    if (log == NULL)
+        return;
+    for (size_t g = 0; g < log->n_gates; g++)
+        if (log->fp[g] != NULL)
+            fclose(log->fp[g]);
+    free(log->fp);
+    free(log);
+}

@@ -171,6 +171,7 @@ struct sw_reader {
     int plain;         /* the header is read: runs may be fed whole */
     size_t plain_rows; /* the queue's capacity in rows */
     sw_time_ms *q_t;   /* [plain_rows] */
+    long *q_line;      /* [plain_rows]: the line of each */
     double *q_v;       /* [plain_rows * n_columns] */
     size_t q_n, q_pos; /* rows queued, next one out */
     int q_status;      /* an error after the queued rows, SW_OK if none */
@@ -179,6 +180,7 @@ struct sw_reader {
     int odd_ok;        /* odd[] is valid for this fill of the buffer */
     size_t odd[3];     /* next quote, CR, '#' at or after some pos (end) */
 
+    long out_line;     /* line of the last record handed out */
     int done;          /* end of file reached */
     int failed;        /* status of an earlier error, SW_OK if none */
     sw_error saved;    /* that error, handed out again */
@@ -888,6 +890,7 @@ static void on_plain_row(int c, void *data)
             for (size_t k = 0; k < r->n_columns; k++)
                 v[k] = r->val[k];
             r->q_t[r->q_n] = t;
+            r->q_line[r->q_n] = r->rec_line;
             r->q_n++;
         }
     }
@@ -1130,9 +1133,10 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     r->plain_rows = PLAIN_VALUES / (n_columns + 1);
     if (r->plain_rows >= 16) {
         r->q_t = malloc(r->plain_rows * sizeof *r->q_t);
+        r->q_line = malloc(r->plain_rows * sizeof *r->q_line);
         r->q_v = malloc(r->plain_rows * (n_columns ? n_columns : 1) *
                         sizeof *r->q_v);
-        if (r->q_t == NULL || r->q_v == NULL) {
+        if (r->q_t == NULL || r->q_v == NULL || r->q_line == NULL) {
             rc = sw_error_set(err, SW_ENOMEM, r->path, 0, 0,
                               "out of memory");
             goto cleanup;
@@ -1173,6 +1177,7 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
             for (size_t k = 0; k < r->n_columns; k++)
                 values[k] = v[k];
             *t = r->q_t[r->q_pos];
+            r->out_line = r->q_line[r->q_pos];
             r->q_pos++;
             *has_row = 1;
             return SW_OK;
@@ -1204,6 +1209,7 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
         } else if (keep) {
             for (size_t c = 0; c < r->n_columns; c++)
                 values[c] = r->val[c];
+            r->out_line = r->rec_line;
             *has_row = 1;
             return SW_OK;
         }
@@ -1213,6 +1219,20 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
 
 int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
                         double *values, size_t *n, sw_error *err)
+{
+    return sw_reader_next_rows_at(reader, max, t, NULL, values, n, err);
+}
+
+long sw_reader_line(const sw_reader *reader) { return reader->out_line; }
+
+long sw_reader_field(const sw_reader *reader, size_t column)
+{
+    return column < reader->n_columns ? reader->col[column].field : 0;
+}
+
+int sw_reader_next_rows_at(sw_reader *reader, size_t max, sw_time_ms *t,
+                           long *lines, double *values, size_t *n,
+                           sw_error *err)
 {
     sw_reader *r = reader;
     size_t nc = r->n_columns;
@@ -1225,10 +1245,14 @@ int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
             /* a plain run's queue: in blocks */
             size_t take = avail < max - *n ? avail : max - *n;
             memcpy(&t[*n], &r->q_t[r->q_pos], take * sizeof *t);
+            if (lines != NULL)
+                memcpy(&lines[*n], &r->q_line[r->q_pos],
+                       take * sizeof *lines);
             if (nc > 0)
                 memcpy(&values[*n * nc], &r->q_v[r->q_pos * nc],
                        take * nc * sizeof *values);
             r->q_pos += take;
+            r->out_line = r->q_line[r->q_pos - 1];
             *n += take;
             continue;
         }
@@ -1237,6 +1261,8 @@ int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
             return *n > 0 ? SW_OK : rc; /* sticky: the next call has it */
         if (!has_row)
             break;
+        if (lines != NULL)
+            lines[*n] = r->out_line;
         (*n)++;
     }
     return SW_OK;
@@ -1316,6 +1342,7 @@ void sw_reader_free(sw_reader *reader)
     free(reader->hdr_off);
     free(reader->buf);
     free(reader->q_t);
+    free(reader->q_line);
     free(reader->q_v);
     free(reader->path);
     free(reader);

@@ -194,7 +194,8 @@ static const key_def gate_keys[GK_COUNT] = {
 
 enum series_key {
     RK_FILE, RK_TIME_COLUMN, RK_VALUE_COLUMN, RK_TIME_FORMAT, RK_OFFSET,
-    RK_UNIT, RK_MISSING, RK_DELIMITER, RK_COUNT
+    RK_UNIT, RK_MISSING, RK_DELIMITER, RK_VALID_RANGE, RK_SPIKE, RK_MAX_RATE,
+    RK_FLAT, RK_COUNT
 };
 
 static const key_def series_keys[RK_COUNT] = {
@@ -216,6 +217,16 @@ static const key_def series_keys[RK_COUNT] = {
                     NULL, NULL},
     [RK_DELIMITER] = {"delimiter", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
                       NULL, NULL, NULL},
+    [RK_VALID_RANGE] = {"valid_range", KIND_TEXT, NEED_OPTIONAL, "",
+                        NO_RANGE, NULL, NULL, NULL},
+    [RK_SPIKE] = {"spike", KIND_NUMBER, NEED_OPTIONAL, "m", 1e-6, 1.0e4,
+                  NULL, NULL,
+                  "give the spike threshold in m above the neighbours' "
+                  "line"},
+    [RK_MAX_RATE] = {"max_rate", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
+    [RK_FLAT] = {"flat", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL, NULL,
+                 NULL},
 };
 
 #define N_SECTION_DEFS 5
@@ -826,8 +837,7 @@ static void unknown_key(parser *p, const section *s, const char *where,
         used += (size_t)w;
     }
     fail(p, p->lineno, col, "%s: unknown key '%.60s': the keys of %s are %s",
-         where, name, s->def->arg == NULL ? "[gate NAME]" : s->def->home,
-         list);
+         where, name, s->def->home, list);
 }
 
 /* libinih's handler: one key = value line of the current section.  The
@@ -1122,6 +1132,130 @@ static int read_missing(parser *p, const slot *sl, const char *where,
     return SW_OK;
 }
 
+/* A finite number at *q (after blanks), moving *q past it. */
+static int take_number(const char **q, double *v)
+{
+    char *end;
+    while (isspace((unsigned char)**q))
+        (*q)++;
+    errno = 0;
+    *v = strtod(*q, &end);
+    if (end == *q || errno == ERANGE || !isfinite(*v))
+        return 0;
+    *q = end;
+    while (isspace((unsigned char)**q))
+        (*q)++;
+    return 1;
+}
+
+/* valid_range = LO, HI (m above the site datum, LO < HI). */
+static int read_valid_range(parser *p, const slot *sl, const char *where,
+                            sw_qc_config *qc)
+{
+    const char *q = sl->text;
+    double lo, hi;
+    if (!take_number(&q, &lo) || *q++ != ',' || !take_number(&q, &hi) ||
+        *q != '\0')
+        return fail(p, sl->line, sl->val_col,
+                    "%s: key 'valid_range': '%.40s' is not 'LO, HI' (levels "
+                    "in m above the site datum, after unit and offset)",
+                    where, sl->text);
+    if (!(lo < hi))
+        return fail(p, sl->line, sl->val_col,
+                    "%s: key 'valid_range': the low end %g is not below the "
+                    "high end %g", where, lo, hi);
+    qc->range_set = 1;
+    qc->range_lo_m = lo;
+    qc->range_hi_m = hi;
+    return SW_OK;
+}
+
+/* max_rate = X m/h (also m/min, m/d; ft/h, ft/min, ft/d when the series
+ * is in feet); a bare number is m/h (ft/h for a series in feet). */
+static int read_max_rate(parser *p, const slot *sl, const char *where,
+                         double scale, sw_qc_config *qc)
+{
+    static const struct { const char *unit; double per_h; int ft; } units[] = {
+        {"m/h", 1.0, 0},      {"m/min", 60.0, 0}, {"m/d", 1.0 / 24.0, 0},
+        {"ft/h", 1.0, 1},     {"ft/min", 60.0, 1}, {"ft/d", 1.0 / 24.0, 1},
+    };
+    const char *q = sl->text;
+    double v;
+    if (!take_number(&q, &v) || !(v > 0.0))
+        return fail(p, sl->line, sl->val_col,
+                    "%s: key 'max_rate': '%.40s' is not a positive rate "
+                    "such as '0.5 m/h' (m/h, m/min, m/d; ft/h ... for a "
+                    "series in ft)", where, sl->text);
+    if (*q == '\0') {
+        qc->rate_m_per_h = v * scale;
+        return SW_OK;
+    }
+    for (size_t i = 0; i < sizeof units / sizeof units[0]; i++) {
+        if (strcmp(q, units[i].unit) != 0)
+            continue;
+        if (units[i].ft && scale == 1.0)
+            return fail(p, sl->line, sl->val_col,
+                        "%s: key 'max_rate': '%s' is for a series in feet; "
+                        "this one is in m (give m/h, m/min or m/d, or set "
+                        "unit = ft)", where, q);
+        qc->rate_m_per_h = v * units[i].per_h * (units[i].ft ? 0.3048 : 1.0);
+        return SW_OK;
+    }
+    return fail(p, sl->line, sl->val_col,
+                "%s: key 'max_rate': unit '%.20s' is not m/h, m/min or m/d "
+                "(ft/h, ft/min or ft/d for a series in ft)", where, q);
+}
+
+/* flat = DURATION, TOL (a duration as max_gap; TOL in m, >= 0). */
+static int read_flat(parser *p, const slot *sl, const char *where,
+                     sw_qc_config *qc)
+{
+    char dur[TEXT_SIZE];
+    const char *comma = strchr(sl->text, ',');
+    const char *q;
+    double tol;
+    if (comma == NULL)
+        return fail(p, sl->line, sl->val_col,
+                    "%s: key 'flat': '%.40s' is not 'DURATION, TOL' (for "
+                    "example '6h, 0.001': flagged when the readings of the "
+                    "preceding 6 h all lie within 1 mm)", where, sl->text);
+    snprintf(dur, sizeof dur, "%.*s", (int)(comma - sl->text), sl->text);
+    for (size_t n = strlen(dur); n > 0 && isspace((unsigned char)dur[n - 1]);)
+        dur[--n] = '\0';
+    if (sw_duration_parse(dur, &qc->flat_ms, p->err) != SW_OK) {
+        char at[128];
+        snprintf(at, sizeof at, "%s: key 'flat'", where);
+        return relocate(p, sl, at);
+    }
+    q = comma + 1;
+    if (!take_number(&q, &tol) || *q != '\0' || tol < 0.0)
+        return fail(p, sl->line, sl->val_col,
+                    "%s: key 'flat': the tolerance after the comma is not a "
+                    "level difference in m (0 or more)", where);
+    qc->flat_tol_m = tol;
+    return SW_OK;
+}
+
+/* The quality tests of a [series NAME] section. */
+static int read_qc(parser *p, const section *s, const char *where,
+                   sw_site_series *out)
+{
+    const slot *sl = s->slots;
+    if (sl[RK_VALID_RANGE].given &&
+        read_valid_range(p, &sl[RK_VALID_RANGE], where, &out->qc) != SW_OK)
+        return p->status;
+    if (sl[RK_SPIKE].given)
+        out->qc.spike_m = sl[RK_SPIKE].num;
+    if (sl[RK_MAX_RATE].given &&
+        read_max_rate(p, &sl[RK_MAX_RATE], where, out->scale, &out->qc) !=
+            SW_OK)
+        return p->status;
+    if (sl[RK_FLAT].given && read_flat(p, &sl[RK_FLAT], where, &out->qc) !=
+                                 SW_OK)
+        return p->status;
+    return SW_OK;
+}
+
 /* Take a [series NAME] section into `out`; a relative file is taken from
  * the site file's folder. */
 static int build_series(parser *p, const section *s, sw_site_series *out)
@@ -1187,7 +1321,7 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
     if (sl[RK_MISSING].given &&
         read_missing(p, &sl[RK_MISSING], where, out) != SW_OK)
         return p->status;
-    return SW_OK;
+    return read_qc(p, s, where, out);
 }
 
 /* Check that the series a gate names exist; point at the key if not. */

@@ -25,6 +25,7 @@
 #include <math.h>
 #include <pthread.h>
 #include <signal.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
@@ -59,6 +60,9 @@ typedef struct series_state {
     sw_time_ms memo_t;      /* share this series ask for the same */
     double memo_v;          /* instants */
     sw_gap_stats gaps;
+    double lo, hi;          /* least and greatest valid level taken */
+    sw_qc *qc;              /* its quality tests; NULL when it has none */
+    sw_qc_stats qstats;
 } series_state;
 
 /* Records read ahead by a reader's own thread, handed over in batches. */
@@ -76,6 +80,7 @@ typedef struct batch {
     int eof;                    /* the file ends after these records */
     sw_error err;
     sw_time_ms *t;              /* [batch_rows] */
+    long *line;                 /* [batch_rows] */
     double *v;                  /* [batch_rows * n_cols] */
 } batch;
 
@@ -86,6 +91,7 @@ typedef struct reader_state {
     size_t series_of[SW_SERIES_MAX_COLUMNS];
     int pending;                /* a record is held in t and v */
     sw_time_ms t;
+    long line;
     const double *v;
     /* the read-ahead: the worker fills batches, the stepper drains them */
     int threaded;
@@ -124,6 +130,8 @@ typedef struct gate_state {
     int in_event;
     sw_event ev;
     sw_tally run, month;
+    sw_time_ms unknown_edge; /* not evaluated: before the first or after
+                                the last valid reading of a series */
     int month_yyyymm;
     sw_time_ms month_start, month_next;
     int month_open;
@@ -145,7 +153,16 @@ struct sw_stepper {
     size_t n_events, cap_events;
     sw_month_row *months;
     size_t n_months, cap_months;
+    int any_qc;              /* some series has quality tests */
+    int passed;              /* the last advance passed a point */
+    sw_stepper_flag *flags;  /* flagged readings found by the last advance */
+    size_t n_flags, cap_flags;
 };
+
+/* An advance returns early, passing no point, once it has found this many
+ * flagged readings, so that they never pile up (a file whose every value
+ * is out of range is read in one go otherwise). */
+#define FLAGS_BATCH 1024
 
 /* ---- small containers --------------------------------------------------- */
 
@@ -267,15 +284,17 @@ static void *read_ahead(void *arg)
 
         batch *bt = &rs->b[tail];
         bt->eof = 0;
-        bt->status = sw_reader_next_rows(rs->rd, rs->batch_rows, bt->t, bt->v,
-                                         &bt->n, &bt->err);
+        bt->status = sw_reader_next_rows_at(rs->rd, rs->batch_rows, bt->t,
+                                            bt->line, bt->v, &bt->n,
+                                            &bt->err);
         if (bt->status == SW_OK && bt->n < rs->batch_rows) {
             /* a short batch: the file ends after it, or an error follows
              * it, which this call returns */
             size_t none;
-            bt->status = sw_reader_next_rows(rs->rd, 1, &bt->t[bt->n],
-                                             &bt->v[bt->n * rs->n_cols],
-                                             &none, &bt->err);
+            bt->status = sw_reader_next_rows_at(rs->rd, 1, &bt->t[bt->n],
+                                                &bt->line[bt->n],
+                                                &bt->v[bt->n * rs->n_cols],
+                                                &none, &bt->err);
         }
         if (bt->status != SW_OK || bt->n < rs->batch_rows)
             bt->eof = 1;
@@ -290,13 +309,14 @@ static void *read_ahead(void *arg)
 }
 
 /* Hold the reader's next record (or none at the end). */
-static int read_record(reader_state *rs, sw_error *err)
+static inline int read_record(reader_state *rs, sw_error *err)
 {
     for (;;) {
         if (rs->taken) {
             batch *bt = &rs->b[rs->head];
             if (rs->pos < bt->n) {
                 rs->t = bt->t[rs->pos];
+                rs->line = bt->line[rs->pos];
                 rs->v = &bt->v[rs->pos * rs->n_cols];
                 rs->pos++;
                 rs->pending = 1;
@@ -343,14 +363,16 @@ static int read_record(reader_state *rs, sw_error *err)
 
 static int start_read_ahead(reader_state *rs, sw_error *err)
 {
-    size_t row_bytes = sizeof(sw_time_ms) + rs->n_cols * sizeof(double);
+    size_t row_bytes =
+        sizeof(sw_time_ms) + sizeof(long) + rs->n_cols * sizeof(double);
     rs->batch_rows = RING_BYTES / N_BATCHES / row_bytes;
     if (rs->batch_rows < 64)
         rs->batch_rows = 64;
     for (int i = 0; i < N_BATCHES; i++) {
         rs->b[i].t = malloc(rs->batch_rows * sizeof *rs->b[i].t);
+        rs->b[i].line = malloc(rs->batch_rows * sizeof *rs->b[i].line);
         rs->b[i].v = malloc(rs->batch_rows * rs->n_cols * sizeof *rs->b[i].v);
-        if (rs->b[i].t == NULL || rs->b[i].v == NULL)
+        if (rs->b[i].t == NULL || rs->b[i].v == NULL || rs->b[i].line == NULL)
             return nomem(err);
     }
     if (pthread_mutex_init(&rs->mu, NULL) != 0)
@@ -392,8 +414,10 @@ static void stop_read_ahead(reader_state *rs)
     }
     for (int i = 0; i < N_BATCHES; i++) {
         free(rs->b[i].t);
+        free(rs->b[i].line);
         free(rs->b[i].v);
         rs->b[i].t = NULL;
+        rs->b[i].line = NULL;
         rs->b[i].v = NULL;
     }
 }
@@ -477,6 +501,18 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
         g->run.min_fs = INFINITY;
         g->month.min_fs = INFINITY;
     }
+    for (size_t i = 0; i < st->n_series; i++) {
+        series_state *s = &st->series[i];
+        sw_qc_config qc = s->def->qc;
+        s->lo = INFINITY;
+        s->hi = -INFINITY;
+        qc.max_gap_ms = site->max_gap_ms;
+        if (!sw_qc_active(&qc))
+            continue;
+        if ((rc = sw_qc_alloc(&s->qc, &qc, err)) != SW_OK)
+            goto cleanup;
+        st->any_qc = 1;
+    }
     if ((rc = open_readers(st, err)) != SW_OK)
         goto cleanup;
     *out = st;
@@ -494,8 +530,11 @@ void sw_stepper_free(sw_stepper *st)
         stop_read_ahead(&st->readers[r]);
         sw_reader_free(st->readers[r].rd);
     }
-    for (size_t i = 0; i < st->n_series; i++)
+    for (size_t i = 0; i < st->n_series; i++) {
         free(st->series[i].fifo.items);
+        sw_qc_free(st->series[i].qc);
+    }
+    free(st->flags);
     free(st->timeline.items);
     free(st->readers);
     free(st->series);
@@ -507,13 +546,140 @@ void sw_stepper_free(sw_stepper *st)
 
 /* ---- reading ------------------------------------------------------------ */
 
+/* Count a gap before a valid sample at t of series s. */
+static void count_gap(const sw_stepper *st, series_state *s, sw_time_ms t)
+{
+    if (s->have_last && t - s->last_t > st->site->max_gap_ms) {
+        sw_time_ms gap = t - s->last_t;
+        s->gaps.gaps++;
+        s->gaps.total += gap;
+        if (gap > s->gaps.longest) {
+            s->gaps.longest = gap;
+            s->gaps.longest_start = s->last_t;
+        }
+    }
+    s->have_last = 1;
+    s->last_t = t;
+}
+
+/* Add t to the timeline.  Times come in order, but for readings that
+ * their quality tests held back (one reading, for at most max_gap), which
+ * may come after later readings of other series: those are put in order
+ * (never before the timeline's first point, see sw_stepper_advance). */
+static int timeline_insert(sw_stepper *st, sw_time_ms t, sw_error *err)
+#if defined(__GNUC__)
+    __attribute__((noinline))
+#endif
+    ;
+
+static inline int timeline_add(sw_stepper *st, sw_time_ms t, sw_error *err)
+{
+    ring *tl = &st->timeline;
+
+    /* the usual case: a later time (so the latest of the run) */
+    if (tl->count > 0 && ring_at(tl, tl->count - 1)->t < t) {
+        if (ring_push(tl, (sample){t, 0.0}) != 0)
+            return nomem(err);
+        st->span_end = t;
+        return SW_OK;
+    }
+    return timeline_insert(st, t, err);
+}
+
+/* The rest of timeline_add(): the first point, an equal time, or a time
+ * to put in order. */
+static int timeline_insert(sw_stepper *st, sw_time_ms t, sw_error *err)
+{
+    ring *tl = &st->timeline;
+
+    if (tl->count == 0 || ring_at(tl, tl->count - 1)->t < t) {
+        if (ring_push(tl, (sample){t, 0.0}) != 0)
+            return nomem(err);
+    } else if (ring_at(tl, tl->count - 1)->t != t) {
+        size_t i = tl->count;
+        while (i > 0 && ring_at(tl, i - 1)->t > t)
+            i--;
+        if (i > 0 && ring_at(tl, i - 1)->t == t)
+            return SW_OK;
+        if (ring_push(tl, (sample){t, 0.0}) != 0)
+            return nomem(err);
+        for (size_t k = tl->count - 1; k > i; k--)
+            tl->items[(tl->head + k) & (tl->cap - 1)] = *ring_at(tl, k - 1);
+        tl->items[(tl->head + i) & (tl->cap - 1)] = (sample){t, 0.0};
+    }
+    if (!st->started) {
+        st->started = 1;
+        st->span_start = st->span_end = t;
+    } else if (t < st->span_start) {
+        st->span_start = t;
+    } else if (t > st->span_end) {
+        st->span_end = t;
+    }
+    return SW_OK;
+}
+
+static int push_flag(sw_stepper *st, size_t series, const sw_qc_reading *r,
+                     sw_error *err)
+{
+    if (st->n_flags == st->cap_flags) {
+        size_t cap = st->cap_flags ? 2 * st->cap_flags : 64;
+        sw_stepper_flag *grown = realloc(st->flags, cap * sizeof *grown);
+        if (grown == NULL)
+            return nomem(err);
+        st->flags = grown;
+        st->cap_flags = cap;
+    }
+    st->flags[st->n_flags].series = series;
+    st->flags[st->n_flags].reading = *r;
+    st->n_flags++;
+    return SW_OK;
+}
+
+/* A reading of a series with quality tests, judged: into the FIFO and the
+ * timeline when it passed, else counted and listed as flagged (removed
+ * like a missing reading). */
+static int take_verdict(sw_stepper *st, series_state *s,
+                        const sw_qc_reading *r, sw_error *err)
+{
+    if (r->test != SW_QC_PASS) {
+        sw_qc_count(&s->qstats, r);
+        return push_flag(st, (size_t)(s - st->series), r, err);
+    }
+    count_gap(st, s, r->t);
+    if (r->v_m < s->lo)
+        s->lo = r->v_m;
+    if (r->v_m > s->hi)
+        s->hi = r->v_m;
+    if (ring_push(&s->fifo, (sample){r->t, r->v_m}) != 0)
+        return nomem(err);
+    return timeline_add(st, r->t, err);
+}
+
+/* After reader rs moved on: release the readings its series' tests hold
+ * that no later reading can be a neighbour of any more. */
+static int release_held(sw_stepper *st, const reader_state *rs, sw_error *err)
+{
+    for (size_t c = 0; c < rs->n_cols; c++) {
+        series_state *s = &st->series[rs->series_of[c]];
+        sw_qc_reading out;
+        int rc;
+        if (s->qc == NULL)
+            continue;
+        if ((rs->pending ? sw_qc_expire(s->qc, rs->t, &out)
+                         : sw_qc_flush(s->qc, &out)) &&
+            (rc = take_verdict(st, s, &out, err)) != SW_OK)
+            return rc;
+    }
+    return SW_OK;
+}
+
 /* Take the earliest held record into the FIFOs and read the next one from
  * its file.  Returns SW_OK, or an error; sets *none when every file is
  * done. */
 static int take_record(sw_stepper *st, int *none, sw_error *err)
 {
     reader_state *best = NULL;
-    int any_valid = 0;
+    int any_valid = 0, rc;
 
     for (size_t r = 0; r < st->n_readers; r++) {
         reader_state *rs = &st->readers[r];
@@ -528,34 +694,39 @@ static int take_record(sw_stepper *st, int *none, sw_error *err)
         double v = best->v[c];
         if (isnan(v))
             continue;
-        any_valid = 1;
-        if (s->have_last && best->t - s->last_t > st->site->max_gap_ms) {
-            sw_time_ms gap = best->t - s->last_t;
-            s->gaps.gaps++;
-            s->gaps.total += gap;
-            if (gap > s->gaps.longest) {
-                s->gaps.longest = gap;
-                s->gaps.longest_start = s->last_t;
-            }
+        if (s->qc != NULL) {
+            sw_qc_reading in = {best->t, v, best->line, SW_QC_PASS}, out;
+            if (sw_qc_push(s->qc, &in, &out) &&
+                (rc = take_verdict(st, s, &out, err)) != SW_OK)
+                return rc;
+            continue;
         }
-        s->have_last = 1;
-        s->last_t = best->t;
+        any_valid = 1;
+        count_gap(st, s, best->t);
+        if (v < s->lo)
+            s->lo = v;
+        if (v > s->hi)
+            s->hi = v;
         if (ring_push(&s->fifo, (sample){best->t, v}) != 0)
             return nomem(err);
     }
-    if (any_valid) {
-        const ring *tl = &st->timeline;
-        if (tl->count == 0 || ring_at(tl, tl->count - 1)->t < best->t) {
-            if (ring_push(&st->timeline, (sample){best->t, 0.0}) != 0)
-                return nomem(err);
-            if (!st->started) {
-                st->started = 1;
-                st->span_start = best->t;
-            }
-            st->span_end = best->t;
-        }
+    if (any_valid && (rc = timeline_add(st, best->t, err)) != SW_OK)
+        return rc;
+    if ((rc = read_record(best, err)) != SW_OK)
+        return rc;
+    return st->any_qc ? release_held(st, best, err) : SW_OK;
+}
+
+/* Does a series hold back, for its tests, a reading at or before t? */
+static int held_until(const sw_stepper *st, sw_time_ms t)
+{
+    for (size_t i = 0; i < st->n_series; i++) {
+        sw_time_ms th;
+        if (st->series[i].qc != NULL && sw_qc_held(st->series[i].qc, &th) &&
+            th <= t)
+            return 1;
     }
-    return read_record(best, err);
+    return 0;
 }
 
 /* Is series `s` settled for the interval [t0, t1]: is its next valid
@@ -577,6 +748,10 @@ static int series_settled(const sw_stepper *st, series_state *s,
         *known = ring_at(&s->fifo, 0)->t - s->prev.t <= st->site->max_gap_ms;
         return 1;
     }
+    /* a reading held back by the tests: settled if it is too far */
+    sw_time_ms th;
+    if (s->qc != NULL && sw_qc_held(s->qc, &th))
+        return th - s->prev.t > st->site->max_gap_ms;
     /* nothing read yet: settled if its file is done or already past the
      * reach of max_gap */
     return !rs->pending || rs->t - s->prev.t > st->site->max_gap_ms;
@@ -962,6 +1137,17 @@ static int may_skip(const sw_stepper *st, gate_state *g, double hw, double tw)
     return 1;
 }
 
+/* Is series s unknown because it has not begun or has ended (rather than
+ * in a gap)? */
+static int at_edge(const sw_stepper *st, const series_state *s)
+{
+    sw_time_ms th;
+    if (!s->have_prev)
+        return 1;
+    return s->fifo.count == 0 && !st->readers[s->reader].pending &&
+           !(s->qc != NULL && sw_qc_held(s->qc, &th));
+}
+
 static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
                          sw_time_ms b, int known, sw_error *err)
 {
@@ -988,6 +1174,8 @@ static int book_interval(sw_stepper *st, size_t gi, sw_time_ms a,
                 cut = g->month_next;
         }
         if (!known) {
+            if (at_edge(st, h) || at_edge(st, w))
+                g->unknown_edge += cut - a;
             rc = account(st, g, a, cut, SW_STATE_UNKNOWN, NULL, NULL, err);
         } else {
             double hw = level_at(h, cut), tw = level_at(w, cut);
@@ -1020,11 +1208,15 @@ int sw_stepper_advance(sw_stepper *st, int *done, sw_error *err)
 
     st->n_events = 0;
     st->n_months = 0;
+    st->n_flags = 0;
+    st->passed = 0;
     *done = 0;
     for (;;) {
         if (tl->count >= 2) {
             sw_time_ms t0 = ring_at(tl, 0)->t, t1 = ring_at(tl, 1)->t;
-            int settled = 1;
+            /* a reading held back at or before t1 may yet add a point
+             * inside the interval */
+            int settled = !st->any_qc || !held_until(st, t1);
             for (size_t i = 0; i < st->n_series && settled; i++)
                 settled = series_settled(st, &st->series[i], t0,
                                          &st->series[i].known);
@@ -1038,10 +1230,13 @@ int sw_stepper_advance(sw_stepper *st, int *done, sw_error *err)
                         return rc;
                 }
                 st->now = t0;
+                st->passed = 1;
                 ring_pop(tl);
                 return SW_OK;
             }
         }
+        if (st->n_flags >= FLAGS_BATCH)
+            return SW_OK; /* no point passed: hand out the flags */
         if ((rc = take_record(st, &none, err)) != SW_OK)
             return rc;
         /* with every file done, the series all settle: only a last point
@@ -1060,6 +1255,7 @@ int sw_stepper_finish(sw_stepper *st, sw_error *err)
     st->n_events = 0;
     st->n_months = 0;
     st->now = st->span_end;
+    st->passed = 1; /* the last point is exposed again */
     for (size_t gi = 0; gi < st->n_gates; gi++) {
         gate_state *g = &st->gates[gi];
         g->at.known = g->last_known && g->pt[g->cur].t == st->span_end;
@@ -1109,6 +1305,11 @@ const sw_tally *sw_stepper_tally(const sw_stepper *st, size_t gate)
     return &st->gates[gate].run;
 }
 
+sw_time_ms sw_stepper_unknown_edge(const sw_stepper *st, size_t gate)
+{
+    return st->gates[gate].unknown_edge;
+}
+
 size_t sw_stepper_n_series(const sw_stepper *st) { return st->n_series; }
 
 const sw_site_series *sw_stepper_series(const sw_stepper *st, size_t i)
@@ -1129,6 +1330,78 @@ const sw_column_stats *sw_stepper_column_stats(const sw_stepper *st, size_t i)
 const sw_gap_stats *sw_stepper_gap_stats(const sw_stepper *st, size_t i)
 {
     return &st->series[i].gaps;
+}
+
+int sw_stepper_passed(const sw_stepper *st) { return st->passed; }
+
+int sw_stepper_no_data_error(const sw_stepper *st, sw_error *err)
+{
+    char msg[SW_ERROR_MSG_MAX] = "", *w = msg;
+    size_t room = sizeof msg;
+    const char *file = st->site->path;
+    long line = 0, column = 0;
+
+    for (size_t i = 0; i < st->n_series; i++) {
+        const series_state *s = &st->series[i];
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        char first[SW_ERROR_PATH_MAX + 2 * SW_SERIES_TOKEN_MAX + 64] = "";
+        int k;
+        if (s->have_last)
+            continue; /* it has valid readings */
+        if (cs->n_kept > 0) {
+            snprintf(first, sizeof first, "; first rejected %s:%ld:%ld '%s' "
+                     "(%s)", s->def->path, cs->kept[0].line,
+                     cs->kept[0].column, cs->kept[0].text,
+                     cs->kept[0].reason);
+        } else if (s->qstats.n_kept > 0) {
+            const sw_qc_reading *r = &s->qstats.kept[0];
+            snprintf(first, sizeof first, "; first flagged %s:%ld:%ld: "
+                     "%.4f m (%s)", s->def->path, r->line,
+                     sw_reader_field(st->readers[s->reader].rd, s->column),
+                     r->v_m, sw_qc_test_name(r->test));
+        }
+        if (line == 0 && cs->n_kept > 0) {
+            file = s->def->path;
+            line = cs->kept[0].line;
+            column = cs->kept[0].column;
+        } else if (line == 0 && s->qstats.n_kept > 0) {
+            file = s->def->path;
+            line = s->qstats.kept[0].line;
+            column = sw_reader_field(st->readers[s->reader].rd, s->column);
+        }
+        long rows = sw_stepper_reader_stats(st, i)->records;
+        k = snprintf(w, room, "%sseries %s (%s): %ld row%s, %ld missing, "
+                     "%ld rejected, %ld flagged%s", w == msg ? "" : "; ",
+                     s->def->name, s->def->path, rows, rows == 1 ? "" : "s",
+                     cs->missing,
+                     cs->rejected, cs->valid /* all of them flagged */,
+                     first);
+        if (k < 0 || (size_t)k >= room)
+            break;
+        w += k;
+        room -= (size_t)k;
+    }
+    return sw_error_set(err, SW_EDATA, file, line, column,
+                        "no valid reading to replay: %s", msg);
+}
+
+int sw_stepper_level_extent(const sw_stepper *st, size_t i, double *lo_m,
+                            double *hi_m)
+{
+    *lo_m = st->series[i].lo;
+    *hi_m = st->series[i].hi;
+    return st->series[i].lo <= st->series[i].hi;
+}
+
+size_t sw_stepper_flags(const sw_stepper *st, const sw_stepper_flag **flags)
+{
+    *flags = st->flags;
+    return st->n_flags;
+}
+
+const sw_qc_stats *sw_stepper_qc_stats(const sw_stepper *st, size_t i)
+{
+    return &st->series[i].qstats;
 }
 
 long long sw_stepper_evaluations(const sw_stepper *st)

@@ -13,7 +13,10 @@
 # 12.42 h and S2 12.00 h constituents, invented amplitudes) with a surge in
 # the floods.  Gauge noise of a few millimetres from a Park-Miller generator
 # (exact in awk's doubles, so every awk writes the same files), a few missing
-# readings, one headwater sensor spike and a two-day tailwater outage.
+# readings, one headwater sensor spike, one headwater reading out of range
+# (a logger writing 0 on a power dip), a tailwater logger stuck for 12 hours
+# and a two-day tailwater outage: each is caught by a quality test of the
+# demo site (velloran.ini).
 # Every name and number here is invented.
 set -eu
 out=data/demo
@@ -59,6 +62,7 @@ BEGIN {
         v = sprintf("%.3f", headwater(i / 4) + 0.004 * noise())
         if (i == 3000 || i == 9111 || i == 15000) v = ""
         if (i == 7777) v = sprintf("%.3f", headwater(i / 4) + 1.6)     # spike
+        if (i == 12345) v = "0.000"                                    # out of range
         print civil(t0 + 900 * i, "%04d-%02d-%02dT%02d:%02d:00Z") "," v > f
     }
     # tailwater logger: feet above its zero at 9.1440 m, local UK time
@@ -72,6 +76,8 @@ BEGIN {
         v = (tailwater(i / 6) - 9.144) / 0.3048 + 0.02 * noise()
         txt = sprintf("%.2f", v); sub(/\./, ",", txt)            # decimal comma
         if (i >= 12000 && i < 12288) txt = "-9999"               # two-day outage
+        if (i == 18000) stuck = txt                              # stuck logger,
+        if (i > 18000 && i < 18072) txt = stuck                  # 12 hours
         if (i == 5003 || i == 20101) txt = ""
         print civil(local, "%04d-%02d-%02d %02d:%02d") ";" txt > f
     }

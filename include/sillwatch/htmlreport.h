@@ -73,6 +73,11 @@ int sw_html_report_point(sw_html_report *rep, const sw_stepper *st,
 /* Take in a closed event (shading, the worst-events table). */
 void sw_html_report_event(sw_html_report *rep, const sw_event *ev);
 
+/* Take in a reading flagged by a quality test of series `s` (one of the
+ * site's): marked on the level chart. */
+void sw_html_report_flag(sw_html_report *rep, const sw_site_series *s,
+                         const sw_qc_reading *reading);
+
 /* Take in a closed month of one gate.  Errors: SW_ENOMEM. */
 int sw_html_report_month(sw_html_report *rep, const sw_month_row *m,
                          sw_error *err);

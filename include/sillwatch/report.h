@@ -1,4 +1,5 @@
-/* sillwatch: the CSV outputs of a replay (summary, events, steps, months).
+/* sillwatch: the CSV outputs of a replay (summary, events, steps, months,
+ * flags).
  *
  * Times are ISO 8601 with the site's UTC offset; hours carry 4 decimals.
  * Hours are printed in whole units of 0.0001 h, with the identities kept
@@ -11,7 +12,9 @@
 
 #include <stdio.h>
 
+#include "sillwatch/error.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
 #include "sillwatch/timeutil.h"
 
@@ -41,6 +44,24 @@ void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
 void sw_report_months_header(FILE *fp);
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
                          const sw_zone *zone);
+
+/* flags.csv: one row per flagged reading: series, time, value (m above
+ * the site datum, 4 decimals), test, file, line. */
+void sw_report_flags_header(FILE *fp);
+void sw_report_flag_row(FILE *fp, const char *series, const char *file,
+                        const sw_qc_reading *r, const sw_zone *zone);
+
+/* events.csv in order of start time (gate order within a tie): the
+ * events are added as the stepper closes them (each gate's in order) and
+ * held in a temporary file per gate; sw_event_log_write() merges them.
+ * Errors: SW_ENOMEM; SW_EOUTPUT when a temporary file cannot be made,
+ * written or read back. */
+typedef struct sw_event_log sw_event_log;
+int sw_event_log_alloc(sw_event_log **log, size_t n_gates, sw_error *err);
+int sw_event_log_add(sw_event_log *log, const sw_event *ev, sw_error *err);
+int sw_event_log_write(sw_event_log *log, FILE *fp, const sw_site *site,
+                       sw_error *err);
+void sw_event_log_free(sw_event_log *log);
 
 /* "ok" "low" "open"; "recovered" "gap" "series_end". */
 const char *sw_report_end_name(sw_event_end why);

@@ -126,6 +126,19 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
 int sw_reader_next_rows(sw_reader *reader, size_t max, sw_time_ms *t,
                         double *values, size_t *n, sw_error *err);
 
+/* As sw_reader_next_rows(), with the line each record begins on in
+ * lines[0..*n) (lines may be NULL). */
+int sw_reader_next_rows_at(sw_reader *reader, size_t max, sw_time_ms *t,
+                           long *lines, double *values, size_t *n,
+                           sw_error *err);
+
+/* The line the last record handed out began on (0 before the first). */
+long sw_reader_line(const sw_reader *reader);
+
+/* The field number (1-based) of value column `column` in the header, 0
+ * when there is no such column. */
+long sw_reader_field(const sw_reader *reader, size_t column);
+
 /* The counts so far. */
 const sw_reader_stats *sw_reader_get_stats(const sw_reader *reader);
 

@@ -15,7 +15,8 @@
  *                      required_fs, fs_basis, min_sill_reaction, headwater,
  *                      tailwater
  *   [series NAME]      file, time_column, value_column, time_format,
- *                      offset, unit, missing, delimiter
+ *                      offset, unit, missing, delimiter, and the quality
+ *                      tests valid_range, spike, max_rate, flat
  *
  * Every value is checked on load; the first problem found is reported with
  * the file, line and column where it stands (or, for a missing key, the
@@ -28,6 +29,7 @@
 
 #include "sillwatch/error.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/qc.h"
 #include "sillwatch/series.h"
 #include "sillwatch/timeutil.h"
 
@@ -63,6 +65,9 @@ typedef struct sw_site_series {
     double offset_m;                    /* gauge zero above site datum */
     size_t n_missing;
     char missing[SW_SERIES_MAX_MISSING][SW_SERIES_TOKEN_MAX];
+    sw_qc_config qc;                    /* its quality tests (levels in m
+                                           above the site datum); max_gap_ms
+                                           is the site's */
 } sw_site_series;
 
 typedef struct sw_site {

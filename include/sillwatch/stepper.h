@@ -27,6 +27,7 @@
 
 #include "sillwatch/error.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/qc.h"
 #include "sillwatch/series.h"
 #include "sillwatch/site.h"
 #include "sillwatch/timeutil.h"
@@ -92,6 +93,13 @@ typedef struct sw_stepper_options {
     int keep_points;          /* fill sw_step_gate.result at each point */
 } sw_stepper_options;
 
+/* A reading that failed a quality test of its series (index as for
+ * sw_stepper_series): removed like a missing reading. */
+typedef struct sw_stepper_flag {
+    size_t series;
+    sw_qc_reading reading;
+} sw_stepper_flag;
+
 typedef struct sw_stepper sw_stepper; /* opaque */
 
 /* Open the level files of every series the site's gates use and prepare
@@ -103,8 +111,16 @@ int sw_stepper_alloc(sw_stepper **stepper, const sw_site *site,
                      const sw_stepper_options *opt, sw_error *err);
 
 /* Pass the next timeline point.  Sets *done at the end of the data (then
- * call sw_stepper_finish()).  Errors: SW_EDATA from the level files (with
- * file, line and column), SW_ENOMEM. */
+ * call sw_stepper_finish()).  With quality tests, an advance may return
+ * without passing a point (sw_stepper_passed() is 0) to hand out the
+ * flagged readings it found (sw_stepper_flags()) before they pile up.
+ * Errors: SW_EDATA from the level files (with file, line and column),
+ * SW_ENOMEM.
+ *
+ * Quality tests (sw_site_series.qc) judge each valid reading before it
+ * joins the timeline; a flagged reading is removed like a missing one.
+ * The spike test holds one reading per series until the next one (or
+ * until max_gap has passed): memory stays flat. */
 int sw_stepper_advance(sw_stepper *stepper, int *done, sw_error *err);
 
 /* Close the run: open events end with SW_END_SERIES_END and the last
@@ -123,6 +139,31 @@ size_t sw_stepper_events(const sw_stepper *stepper, const sw_event **events);
 size_t sw_stepper_months(const sw_stepper *stepper,
                          const sw_month_row **months);
 
+/* Whether the last advance passed a timeline point. */
+int sw_stepper_passed(const sw_stepper *stepper);
+
+/* The readings flagged since the last advance began (in the order found;
+ * a range flag may come before the verdict on the reading before it).
+ * The flags of the advance that set *done are still there after
+ * sw_stepper_finish(). */
+size_t sw_stepper_flags(const sw_stepper *stepper,
+                        const sw_stepper_flag **flags);
+
+/* The least and greatest level of series i that joined the timeline
+ * (valid, not flagged).  Returns 0 when it has none. */
+int sw_stepper_level_extent(const sw_stepper *stepper, size_t i,
+                            double *lo_m, double *hi_m);
+
+/* The counts of flagged readings of series i, and the first ones. */
+const sw_qc_stats *sw_stepper_qc_stats(const sw_stepper *stepper, size_t i);
+
+/* Fill *err for a run without any valid reading (sw_stepper_has_data()
+ * is 0): SW_EDATA at the first rejected field or flagged reading, naming
+ * each series without a valid reading, its file, its counts and its first
+ * rejected field (file:line:column) or flagged reading (file:line).
+ * Returns SW_EDATA. */
+int sw_stepper_no_data_error(const sw_stepper *stepper, sw_error *err);
+
 /* Whether any valid sample was read (the timeline has a point). */
 int sw_stepper_has_data(const sw_stepper *stepper);
 
@@ -130,6 +171,11 @@ int sw_stepper_has_data(const sw_stepper *stepper);
 void sw_stepper_span(const sw_stepper *stepper, sw_time_ms *start,
                      sw_time_ms *end);
 const sw_tally *sw_stepper_tally(const sw_stepper *stepper, size_t gate);
+
+/* Of a gate's hours not evaluated, those before the first or after the
+ * last valid reading of one of its series (a series starting late or
+ * ending early); the rest lie in gaps longer than max_gap. */
+sw_time_ms sw_stepper_unknown_edge(const sw_stepper *stepper, size_t gate);
 
 /* Data quality of the series in use: their count; for each, the site
  * series, the counts of its reader (records, duplicates, ...) and of its

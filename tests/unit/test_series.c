@@ -1244,6 +1244,58 @@ static void test_next_rows_same_as_next(void **state)
     unlink(f.path);
 }
 
+/* sw_reader_next_rows_at() gives the line each record begins on, over
+ * plain runs, comments, blank lines and a quoted field spanning lines,
+ * and sw_reader_line() that of the last record handed out. */
+static void test_record_lines(void **state)
+{
+    fixture f;
+    sw_reader_config cfg;
+    sw_column_config col;
+    sw_reader *a = NULL, *b = NULL;
+    sw_error err;
+    const char *text = "# levels\n"
+                       "time,headwater,note\n"
+                       "2025-01-01T00:00:00Z,2.385,\n"        /* line 3 */
+                       "\n"
+                       "2025-01-01T00:15:00Z,2.391,\n"        /* line 5 */
+                       "# a comment\n"
+                       "2025-01-01T00:30:00Z,2.397,\"two\n"  /* line 7 */
+                       "lines\"\n"
+                       "2025-01-01T00:45:00Z,2.4,\r\n"       /* line 9 */
+                       "2025-01-01T01:00:00Z,2.403,\n";      /* line 10 */
+    const long want[5] = {3, 5, 7, 9, 10};
+    sw_time_ms t[8];
+    long lines[8];
+    double v[8];
+    size_t n = 0, got;
+    int has_row;
+    (void)state;
+
+    fixture_write(&f, text, strlen(text));
+    default_config(&cfg);
+    cfg.path = f.path;
+    set_column(&col, "headwater");
+    assert_int_equal(sw_reader_open(&a, &cfg, &col, 1, &err), SW_OK);
+    while (sw_reader_next_rows_at(a, 2, &t[n], &lines[n], &v[n], &got,
+                                  &err) == SW_OK && got > 0) {
+        n += got;
+        assert_int_equal(sw_reader_line(a), lines[n - 1]);
+    }
+    assert_int_equal(n, 5);
+    for (size_t i = 0; i < n; i++)
+        assert_int_equal(lines[i], want[i]);
+    assert_int_equal(sw_reader_open(&b, &cfg, &col, 1, &err), SW_OK);
+    for (size_t i = 0; i < 5; i++) {
+        assert_int_equal(sw_reader_next(b, &has_row, &t[0], &v[0], &err),
+                         SW_OK);
+        assert_int_equal(sw_reader_line(b), want[i]);
+    }
+    sw_reader_free(a);
+    sw_reader_free(b);
+    unlink(f.path);
+}
+
 static void test_error_is_sticky(void **state)
 {
     fixture f;
@@ -1373,6 +1425,7 @@ int main(void)
         cmocka_unit_test(test_error_is_sticky),
         cmocka_unit_test(test_plain_runs_count_lines),
         cmocka_unit_test(test_next_rows_same_as_next),
+        cmocka_unit_test(test_record_lines),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

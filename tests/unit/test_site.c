@@ -841,6 +841,54 @@ static void test_series_names(void **state)
                  "gate 'G1': key 'headwater': name 'up stream' may hold only");
 }
 
+/* The quality-test keys of [series NAME] (README, "Quality control"):
+ * values in m and m/h, conversions, and an unknown key's message naming
+ * the section's own keys. */
+static void test_qc_keys(void **state)
+{
+    sw_site site;
+    (void)state;
+
+    load_ok(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+            "unit = ft\nvalid_range = 9.75, 13.125\nspike = 0.35\n"
+            "max_rate = 2 ft/min\nflat = 90min, 0.0015\n"
+            "[series down]\nfile = a.csv\nvalue_column = y\n"
+            "max_rate = 0.6\n", &site);
+    const sw_qc_config *q = &site.series[0].qc;
+    assert_int_equal(q->range_set, 1);
+    assert_close(q->range_lo_m, 9.75, 1e-15);
+    assert_close(q->range_hi_m, 13.125, 1e-15);
+    assert_close(q->spike_m, 0.35, 1e-15);
+    /* 2 ft/min = 120 ft/h = 36.576 m/h (1 ft = 0.3048 m exactly) */
+    assert_close(q->rate_m_per_h, 36.576, 1e-12);
+    assert_int_equal(q->flat_ms, 5400000);
+    assert_close(q->flat_tol_m, 0.0015, 1e-15);
+    assert_true(sw_qc_active(q));
+    /* a bare number is per hour, in the series' unit (m here) */
+    assert_close(site.series[1].qc.rate_m_per_h, 0.6, 1e-15);
+    assert_int_equal(site.series[1].qc.range_set, 0);
+    sw_site_fini(&site);
+    load_ok(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+            "max_rate = 3 m/d\n", &site);
+    assert_close(site.series[0].qc.rate_m_per_h, 0.125, 1e-15);
+    assert_false(site.series[0].qc.flat_ms > 0);
+    sw_site_fini(&site);
+
+    expect_error(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+                 "valid_range = 3\n", 18, 15,
+                 "key 'valid_range': '3' is not 'LO, HI'");
+    expect_error(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+                 "max_rate = 1 ft/h\n", 18, 12,
+                 "'ft/h' is for a series in feet");
+    expect_error(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+                 "flat = 0.001, 6h\n", 18, 8, "key 'flat'");
+    expect_error(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+                 "spike = -0.2\n", 18, 9, "key 'spike'");
+    expect_error(WATER GATE_G1 "[series up]\nfile = a.csv\nvalue_column = x\n"
+                 "tolerance = 1\n", 18, 1,
+                 "the keys of [series NAME] are file, time_column");
+}
+
 /* ---- errors from sw_gate_validate, placed at the offending key --------- */
 
 /* [site] keys for replays, [series NAME] sections, and gates naming
@@ -971,6 +1019,7 @@ int main(void)
         cmocka_unit_test(test_values_out_of_range),
         cmocka_unit_test(test_series_names),
         cmocka_unit_test(test_replay_keys),
+        cmocka_unit_test(test_qc_keys),
         cmocka_unit_test(test_validation_errors),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

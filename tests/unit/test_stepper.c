@@ -431,6 +431,212 @@ static void test_hours_match_brute_force_overturning(void **state)
     hours_match_brute_force("overturning");
 }
 
+/* ---- quality tests in the replay ----------------------------------------
+ * The tests themselves are checked in test_qc.c (IOOS QARTOD water-level
+ * tests, U.S. IOOS Manual for Real-Time Quality Control of Water Level
+ * Data); here: that the replay removes exactly the flagged readings. */
+
+/* Levels of two files at different intervals: a headwater every 15 min
+ * with spikes, readings out of range and a stuck spell, a tailwater every
+ * 10 min; `blank` leaves the headwater's bad readings empty instead. */
+static void write_qc_levels(int blank)
+{
+    static char up[64 * 1024], down[64 * 1024];
+    size_t nu = 0, nd = 0;
+    unsigned seed = 12345u;
+    nu += (size_t)snprintf(up + nu, sizeof up - nu, "time,hw\n");
+    nd += (size_t)snprintf(down + nd, sizeof down - nd, "when,tw\n");
+    for (int i = 0; i < 4 * 48; i++) {
+        seed = seed * 1103515245u + 12345u;
+        double hw = 9.2 + 0.5 * sin(i / 9.0) + 1e-3 * (double)(seed >> 22) / 1024.0;
+        if (i % 37 == 5)
+            hw += 0.9;                   /* spike */
+        if (i % 53 == 20)
+            hw = -3.0;                   /* out of range */
+        if (i >= 100 && i < 120)
+            hw = 9.4321;                 /* stuck: the readings from 104
+                                            on are flagged (flat 1h) */
+        int flagged = (i % 37 == 5) || (i % 53 == 20) || (i >= 104 && i < 120);
+        if (blank && flagged)
+            nu += (size_t)snprintf(up + nu, sizeof up - nu,
+                                   "2025-04-%02dT%02d:%02d:00Z,\n",
+                                   1 + i / 96, (i % 96) / 4, (i % 4) * 15);
+        else
+            nu += (size_t)snprintf(up + nu, sizeof up - nu,
+                                   "2025-04-%02dT%02d:%02d:00Z,%.4f\n",
+                                   1 + i / 96, (i % 96) / 4, (i % 4) * 15,
+                                   hw);
+    }
+    for (int i = 0; i < 6 * 48; i++)
+        nd += (size_t)snprintf(down + nd, sizeof down - nd,
+                               "2025-04-%02dT%02d:%02d:00Z,%.4f\n",
+                               1 + i / 144, (i % 144) / 6, (i % 6) * 10 + 5,
+                               8.3 + 0.3 * cos(i / 7.0));
+    sw_test_write("up.csv", up);
+    sw_test_write("down.csv", down);
+}
+
+#define QC_SITE(file, tests)                                                \
+    "[site]\nrequired_fs = 1.5\ngravity = 9.81\nmax_gap = 1h\n" WATERS     \
+    GATE_V "[series hw]\nfile = " file "\nvalue_column = hw\n" tests        \
+    "[series tw]\nfile = down.csv\ntime_column = when\nvalue_column = tw\n"
+
+/* The headwater's spike test holds each reading until the next, while the
+ * tailwater's readings (another file) go on: the timeline takes the held
+ * readings in order, and the run gives exactly the hours and events of
+ * the same levels with the flagged readings left empty. */
+static void test_qc_removes_only_flagged(void **state)
+{
+    (void)state;
+    run_result a, b;
+    sw_error err;
+    write_qc_levels(0);
+    sw_test_write("site.ini", QC_SITE("up.csv", "valid_range = 0, 12\n"
+                                                 "spike = 0.3\n"
+                                                 "flat = 1h, 0.0005\n"));
+    assert_int_equal(run_site(1, &a, &err), SW_OK);
+    write_qc_levels(1);
+    sw_test_write("site.ini", QC_SITE("up.csv", ""));
+    assert_int_equal(run_site(1, &b, &err), SW_OK);
+    assert_true(a.n_events > 0);
+    assert_int_equal(a.start, b.start);
+    assert_int_equal(a.end, b.end);
+    assert_int_equal(a.n_events, b.n_events);
+    assert_memory_equal(&a.tally[0], &b.tally[0], sizeof a.tally[0]);
+    for (size_t i = 0; i < a.n_events; i++) {
+        assert_int_equal(a.events[i].start, b.events[i].start);
+        assert_int_equal(a.events[i].end, b.events[i].end);
+        assert_true(a.events[i].min_fs == b.events[i].min_fs);
+    }
+    assert_int_equal(a.n_months, b.n_months);
+}
+
+/* The account adds up: rows = valid + missing + rejected + flagged +
+ * duplicates + rows in a skipped daylight-saving hour, and the flags
+ * handed out are those counted. */
+static void test_qc_account_adds_up(void **state)
+{
+    (void)state;
+    char path[128];
+    sw_site site;
+    sw_stepper *st;
+    sw_error err;
+    int done = 0;
+    long handed[2] = {0, 0};
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                              "max_gap = 2h\ntimezone = Europe/Berlin\n"
+                              WATERS GATE_V
+                              "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                              "valid_range = 7, 12\nspike = 0.2\n"
+                              "[series tw]\nfile = l.csv\nvalue_column = tw\n"
+                              "max_rate = 1 m/h\n");
+    /* 2025-03-30 02:30 does not exist in Berlin (clocks go 02:00 -> 03:00,
+     * EU rule) */
+    sw_test_write("l.csv", "time,hw,tw\n"
+                           "2025-03-30 00:00,9.10,8.00\n"
+                           "2025-03-30 00:30,9.11,8.01\n"
+                           "2025-03-30 00:30,9.11,8.01\n" /* duplicate */
+                           "2025-03-30 01:00,9.95,8.02\n" /* hw spike */
+                           "2025-03-30 01:30,9.12,x\n"    /* tw rejected */
+                           "2025-03-30 02:30,9.12,8.03\n" /* skipped hour */
+                           "2025-03-30 03:00,13.5,8.04\n" /* hw range */
+                           "2025-03-30 03:30,9.14,9.50\n" /* tw rate */
+                           "2025-03-30 04:00,,8.06\n"     /* hw missing,
+                                                             tw rate */
+                           "2025-03-30 04:30,9.15,8.07\n");
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    assert_int_equal(sw_stepper_alloc(&st, &site, NULL, &err), SW_OK);
+    for (int last = 0; !last;) {
+        if (!done)
+            assert_int_equal(sw_stepper_advance(st, &done, &err), SW_OK);
+        if (done) {
+            assert_int_equal(sw_stepper_finish(st, &err), SW_OK);
+            last = 1;
+        }
+        const sw_stepper_flag *fl;
+        size_t n = sw_stepper_flags(st, &fl);
+        for (size_t i = 0; i < n; i++)
+            handed[fl[i].series]++;
+    }
+    /* tw has no spike test: its jump to 9.50 (2.92 m/h) is flagged rate,
+     * and so is the return to 8.06 (compared with 9.50: 2.88 m/h) */
+    long want_flag[2][SW_QC_N_TESTS] = {{1, 1, 0, 0}, {0, 0, 2, 0}};
+    for (size_t i = 0; i < 2; i++) {
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        const sw_qc_stats *q = sw_stepper_qc_stats(st, i);
+        long flagged = 0;
+        for (int k = 0; k < SW_QC_N_TESTS; k++) {
+            assert_int_equal(q->flagged[k], want_flag[i][k]);
+            flagged += q->flagged[k];
+        }
+        assert_int_equal(handed[i], flagged);
+        assert_int_equal(rs->records, 10);
+        assert_int_equal(rs->duplicates, 1);
+        assert_int_equal(rs->time_rejected, 1);
+        assert_int_equal(rs->records, (cs->valid - flagged) + cs->missing +
+                                          cs->rejected + flagged +
+                                          rs->duplicates + rs->time_rejected);
+    }
+    assert_int_equal(sw_stepper_column_stats(st, 0)->missing, 1);
+    assert_int_equal(sw_stepper_column_stats(st, 1)->rejected, 1);
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+}
+
+/* A file whose every reading is flagged has no timeline point: the
+ * advances hand the flags out in batches (passing no point) instead of
+ * piling them up, and the run ends without data. */
+static void test_qc_flags_in_batches(void **state)
+{
+    (void)state;
+    static char text[5000 * 40];
+    char path[128];
+    size_t n = 0;
+    sw_site site;
+    sw_stepper *st;
+    sw_error err;
+    int done = 0;
+    long flags = 0, no_point = 0;
+    size_t most = 0;
+    n += (size_t)snprintf(text + n, sizeof text - n, "time,hw,tw\n");
+    for (int i = 0; i < 5000; i++)
+        n += (size_t)snprintf(text + n, sizeof text - n,
+                              "%lld,31.%d,27.%d\n", 1700000000LL + 60LL * i,
+                              i % 10, i % 7);
+    sw_test_write("l.csv", text);
+    sw_test_write("site.ini", "[site]\nrequired_fs = 1.5\ngravity = 9.81\n"
+                              WATERS GATE_V
+                              "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                              "time_format = unix\nvalid_range = 7, 12\n"
+                              "[series tw]\nfile = l.csv\nvalue_column = tw\n"
+                              "time_format = unix\nvalid_range = 7, 12\n");
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    assert_int_equal(sw_stepper_alloc(&st, &site, NULL, &err), SW_OK);
+    while (!done) {
+        const sw_stepper_flag *fl;
+        assert_int_equal(sw_stepper_advance(st, &done, &err), SW_OK);
+        size_t k = sw_stepper_flags(st, &fl);
+        flags += (long)k;
+        most = k > most ? k : most;
+        no_point += !done && !sw_stepper_passed(st);
+    }
+    assert_int_equal(flags, 10000);
+    assert_true(no_point >= 9);
+    assert_true(most <= 1024 + 2); /* a batch, and one record's columns */
+    assert_false(sw_stepper_has_data(st));
+    assert_int_equal(sw_stepper_no_data_error(st, &err), SW_EDATA);
+    assert_int_equal(err.line, 2);
+    assert_int_equal(err.column, 2); /* hw is the second field */
+    assert_non_null(strstr(err.message, "series hw"));
+    assert_non_null(strstr(err.message, "series tw"));
+    assert_non_null(strstr(err.message, "first flagged"));
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -446,6 +652,9 @@ int main(void)
         cmocka_unit_test(test_gate_without_series),
         cmocka_unit_test(test_hours_match_brute_force),
         cmocka_unit_test(test_hours_match_brute_force_overturning),
+        cmocka_unit_test(test_qc_removes_only_flagged),
+        cmocka_unit_test(test_qc_account_adds_up),
+        cmocka_unit_test(test_qc_flags_in_batches),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }
