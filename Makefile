@@ -78,8 +78,17 @@ $(PNGSTAT): tests/browser/pngstat.c | $(DEPS_OK)
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
 
-check: $(PROG) $(UNIT_BIN) $(PNGSTAT)
-	@tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+# The decimal parser's tests again with x87 arithmetic (FLT_EVAL_METHOD 2,
+# excess precision), where Clinger's fast path must stay off: x86-64 only.
+ifeq ($(shell uname -m),x86_64)
+X87_TEST  := $(BUILD)/tests/test_decimal_x87
+endif
+$(BUILD)/tests/test_decimal_x87: tests/unit/test_decimal.c src/decimal.c tests/unit/testutil.h | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -mfpmath=387 -Itests/unit -o $@ tests/unit/test_decimal.c src/decimal.c $(LDFLAGS) $(TEST_LIBS) -lm $(EXTRA_LDFLAGS)
+
+check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT)
+	@tools/run-tests.sh $(BUILD) $(UNIT_BIN) $(X87_TEST)
 
 bench: $(BENCH_BIN) $(PROG)
 	@for b in $(BENCH_BIN); do echo "== $$b"; $$b || exit 1; done

@@ -40,6 +40,11 @@ int sw_cli_usage_error(const char *command, const char *fmt, ...)
  * must be a finite decimal number.  Returns 0 and stores it, or -1. */
 int sw_cli_parse_number(const char *text, double *value);
 
+/* `v`, or +0.0 where `v` would print as a zero with `decimals` digits
+ * after the point (decimals < 0: only where v is a zero), so that no
+ * "-0.0" is printed. */
+double sw_cli_unsigned_zero(double v, int decimals);
+
 /* Create the output folder `dir` if it does not exist.  Returns SW_OK, or
  * SW_EOUTPUT when it cannot be made or exists but is not a folder. */
 int sw_cli_make_outdir(const char *dir, sw_error *err);

@@ -52,7 +52,7 @@ static void print_series(const sw_site_series *sr)
 
 static void row(const char *key, double v, const char *unit)
 {
-    printf("    %-20s %14.4f  %s\n", key, v, unit);
+    printf("    %-20s %14.4f  %s\n", key, sw_cli_unsigned_zero(v, 4), unit);
 }
 
 static void print_gate(const sw_site_gate *sg)

@@ -33,11 +33,13 @@ static void print_load(const char *what, double force, double s, double z,
 {
     if (force == 0.0) {
         printf("  %-22s %14s %10s %10s %10s %15.1f\n", what, "0.0", "-", "-",
-               "-", moment);
+               "-", sw_cli_unsigned_zero(moment, 1));
         return;
     }
-    printf("  %-22s %14.1f %10.3f %10.3f %10.3f %15.1f\n", what, force, s, z,
-           arm, moment);
+    printf("  %-22s %14.1f %10.3f %10.3f %10.3f %15.1f\n", what,
+           sw_cli_unsigned_zero(force, 1), sw_cli_unsigned_zero(s, 3),
+           sw_cli_unsigned_zero(z, 3), sw_cli_unsigned_zero(arm, 3),
+           sw_cli_unsigned_zero(moment, 1));
 }
 
 static void format_crit(char *buf, size_t n, const sw_crit *c, int headwater)
@@ -124,14 +126,16 @@ static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
                g->hinge_level_m - b_s * g->sin_a, r->buoyancy_arm_m,
                -r->buoyancy_moment_Nm);
     printf("  %-22s %14s %10s %10s %10s %15.1f\n", "extra moment", "", "", "",
-           "", r->extra_moment_Nm);
+           "", sw_cli_unsigned_zero(r->extra_moment_Nm, 1));
     printf("  (moments + hold the leaf shut, - open it; water forces act "
            "normal to the leaf,\n   so their arm is s; weight and buoyancy "
            "act vertically, so theirs is horizontal)\n\n");
-    printf("  resisting moment Mr   %15.1f N*m\n", r->resisting_moment_Nm);
+    printf("  resisting moment Mr   %15.1f N*m\n",
+           sw_cli_unsigned_zero(r->resisting_moment_Nm, 1));
     printf("  driving moment        %15.1f N*m (headwater)\n",
-           r->hw_moment_Nm);
-    printf("  net moment            %15.1f N*m\n", r->net_moment_Nm);
+           sw_cli_unsigned_zero(r->hw_moment_Nm, 1));
+    printf("  net moment            %15.1f N*m\n",
+           sw_cli_unsigned_zero(r->net_moment_Nm, 1));
     if (isinf(r->fs))
         printf("  factor of safety      %15s     (required %.2f)\n",
                r->fs > 0 ? "infinite" : "-infinite", g->required_fs);
@@ -139,7 +143,7 @@ static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
         printf("  factor of safety      %15.3f     (required %.2f)\n", r->fs,
                g->required_fs);
     printf("  sill reaction         %15.1f N   (minimum %.1f N)\n",
-           r->sill_reaction_N, g->min_sill_reaction_N);
+           sw_cli_unsigned_zero(r->sill_reaction_N, 1), g->min_sill_reaction_N);
     printf("  state                 %s\n", state_words(r->state));
     format_crit(buf[0], sizeof buf[0], &c->tw_alarm, 0);
     format_crit(buf[1], sizeof buf[1], &c->tw_open, 0);
@@ -160,13 +164,13 @@ static void csv_number(double v)
     if (isinf(v))
         fputs(v > 0 ? "inf" : "-inf", stdout);
     else
-        printf("%.12g", v);
+        printf("%.12g", sw_cli_unsigned_zero(v, -1));
 }
 
 static void csv_crit(const sw_crit *c)
 {
     if (c->kind == SW_CRIT_LEVEL)
-        printf("%.12g", c->level_m);
+        printf("%.12g", sw_cli_unsigned_zero(c->level_m, -1));
 }
 
 static void print_csv_row(const sw_gate *g, const sw_gate_result *r,

@@ -16,6 +16,7 @@
 #include <nettle/sha2.h>
 
 #include "cli.h"
+#include "sillwatch/decimal.h"
 
 const char sw_cli_caution[] =
     "Caution: hydrostatic screening only (no waves, surges, debris, ice or\n"
@@ -154,15 +155,24 @@ int sw_cli_usage_error(const char *command, const char *fmt, ...)
 
 int sw_cli_parse_number(const char *text, double *value)
 {
-    char *end;
+    size_t n = strlen(text);
     double v;
 
-    errno = 0;
-    v = strtod(text, &end);
-    if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
+    /* the one number grammar of the project (decimal.h): plain decimals
+     * with an optional exponent; no hex, no "inf" or "nan", no blanks */
+    if (n == 0 || text[0] == ' ' || text[0] == '\t' || text[n - 1] == ' ' ||
+        text[n - 1] == '\t' || sw_decimal_parse(text, n, 0, &v) != 0)
         return -1;
     *value = v;
     return 0;
+}
+
+double sw_cli_unsigned_zero(double v, int decimals)
+{
+    double half = decimals < 0 ? 0.0 : 0.5 * pow(10.0, -decimals);
+    if (v == 0.0 || fabs(v) < half)
+        return 0.0;
+    return v;
 }
 
 int sw_cli_make_outdir(const char *dir, sw_error *err)

@@ -84,7 +84,7 @@ static char *put_fixed(char *w, double x, int digits)
         if (rest > half || (rest == half && (q & 1u)))
             q++;
     }
-    if (bits >> 63)
+    if ((bits >> 63) && q != 0) /* no "-0.00": a zero has no sign */
         *w++ = '-';
     w = put_uint(w, q / pow10[digits], 1);
     if (digits > 0) {

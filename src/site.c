@@ -32,6 +32,7 @@
 
 #include <ini.h>
 
+#include "sillwatch/decimal.h"
 #include "sillwatch/gravity.h"
 #include "sillwatch/water.h"
 
@@ -650,12 +651,12 @@ static int read_number(parser *p, const char *where, const key_def *key,
                        const char *value, long col, double *out)
 {
     char units[48];
-    char *end;
     double v;
 
-    errno = 0;
-    v = strtod(value, &end);
-    if (end == value || *end != '\0') {
+    /* the one number grammar of the project (decimal.h), as in level
+     * files: no hex, no "inf" or "nan" */
+    int parsed = sw_decimal_parse(value, strlen(value), 0, &v);
+    if (parsed < 0) {
         if (strchr(value, ',') != NULL)
             return fail(p, p->lineno, col,
                         "%s: key '%s': '%.60s' is not a number: write the "
@@ -667,7 +668,7 @@ static int read_number(parser *p, const char *where, const key_def *key,
                     where, key->name, value,
                     unit_phrase(key, units, sizeof units));
     }
-    if (!isfinite(v))
+    if (parsed > 0)
         return fail(p, p->lineno, col,
                     "%s: key '%s': '%.60s' is not a finite number: write a "
                     "decimal number%s",
