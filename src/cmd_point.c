@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/gate.h"
 #include "sillwatch/site.h"
 
@@ -182,7 +183,7 @@ static void print_csv_row(const sw_gate *g, const sw_gate_result *r,
                         r->weight_moment_Nm,  r->buoyancy_moment_Nm,
                         r->extra_moment_Nm,   r->net_moment_Nm,
                         r->fs,                r->sill_reaction_N};
-    fputs(g->name, stdout);
+    sw_csv_put_field(stdout, g->name);
     for (size_t i = 0; i < sizeof v / sizeof v[0]; i++) {
         putchar(',');
         csv_number(v[i]);

@@ -10,6 +10,7 @@
 #include <sys/stat.h>
 
 #include "cli.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/ensemble.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
@@ -194,7 +195,9 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
             if (k == 0)
                 continue;
             put_time(fp, sw_stepper_time(st), site->zone);
-            fprintf(fp, ",%s,%zu,%.4f,%.4f", site->gates[g].gate.name, k,
+            fputc(',', fp);
+            sw_csv_put_field(fp, site->gates[g].gate.name);
+            fprintf(fp, ",%zu,%.4f,%.4f", k,
                     (double)low / (double)k, (double)open / (double)k);
             const double p[3] = {0.1, 0.5, 0.9};
             for (int i = 0; i < 3; i++) {
@@ -298,7 +301,11 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
                                                  err)) != SW_OK)
                 break;
             put_time(fp, t, site->zone);
-            fprintf(fp, ",%s,%s,%.4f,", g->name, sr->name, hw);
+            fputc(',', fp);
+            sw_csv_put_field(fp, g->name);
+            fputc(',', fp);
+            sw_csv_put_field(fp, sr->name);
+            fprintf(fp, ",%.4f,", hw);
             for (int i = 0; i < 2; i++) {
                 if (c[i].kind == SW_CRIT_LEVEL) {
                     fprintf(fp, "%.4f", c[i].level_m);
@@ -314,7 +321,10 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         sw_reader_free(rd);
         if (rc != SW_OK)
             break;
-        fprintf(mx, "%s,%s,", g->name, sr->name);
+        sw_csv_put_field(mx, g->name);
+        fputc(',', mx);
+        sw_csv_put_field(mx, sr->name);
+        fputc(',', mx);
         for (int i = 0; i < 2; i++) {
             if (seen[i]) {
                 fprintf(mx, "%.4f,", max[i]);
@@ -423,7 +433,8 @@ int sw_cmd_screen(int argc, char **argv)
     qsort(vd, n_v, sizeof *vd, cmp_verdict);
     for (size_t i = 0; i < n_v; i++) {
         const verdict *v = &vd[i];
-        fprintf(sc, "%s,%zu,", site.gates[v->gate].gate.name, v->members);
+        sw_csv_put_field(sc, site.gates[v->gate].gate.name);
+        fprintf(sc, ",%zu,", v->members);
         if (v->low_seen) {
             put_time(sc, v->low_first, site.zone);
             fputc(',', sc);

@@ -12,6 +12,7 @@
 #include <time.h>
 
 #include "cli.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
 #include "sillwatch/thresholds.h"
@@ -223,16 +224,26 @@ static void put_crit(FILE *fp, const sw_crit *c)
         fputs("none", fp);
 }
 
+/* A column's name, "tw_alarm_m[west]" or "tw_alarm_m", into buf[n]. */
+static void curve_name(char *buf, size_t n, const thr_opts *o,
+                       const sw_gate *const *gates, size_t n_gates,
+                       size_t curve)
+{
+    names nm = names_of(o->axis);
+    if (curve < 2 * n_gates)
+        snprintf(buf, n, "%s_%s_m[%s]", nm.value, limit_name[curve % 2],
+                 gates[curve / 2]->name);
+    else
+        snprintf(buf, n, "%s_%s_m", nm.value, limit_name[curve - 2 * n_gates]);
+}
+
 static void put_curve_name(FILE *fp, const thr_opts *o,
                            const sw_gate *const *gates, size_t n_gates,
                            size_t curve)
 {
-    names nm = names_of(o->axis);
-    if (curve < 2 * n_gates)
-        fprintf(fp, "%s_%s_m[%s]", nm.value, limit_name[curve % 2],
-                gates[curve / 2]->name);
-    else
-        fprintf(fp, "%s_%s_m", nm.value, limit_name[curve - 2 * n_gates]);
+    char buf[SW_SITE_NAME_MAX + 32];
+    curve_name(buf, sizeof buf, o, gates, n_gates, curve);
+    fputs(buf, fp);
 }
 
 static void put_step_value(FILE *fp, const thr_opts *o, double v)
@@ -332,8 +343,10 @@ static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
 
     fprintf(fp, "%s_m", nm.level);
     for (size_t c = 0; c < 2 * n_gates; c++) {
+        char buf[SW_SITE_NAME_MAX + 32];
         fputc(',', fp);
-        put_curve_name(fp, o, gates, n_gates, c);
+        curve_name(buf, sizeof buf, o, gates, n_gates, c);
+        sw_csv_put_field(fp, buf);
     }
     for (int k = 0; k < SW_THRESHOLDS_N_LIMITS; k++)
         fprintf(fp, ",%s_%s_m,%s_%s_gate", nm.value, limit_name[k], nm.value,
@@ -354,7 +367,7 @@ static void write_row(FILE *fp, const sw_thresholds_row *row,
         put_crit(fp, &row->governing[k]);
         fputc(',', fp);
         if (row->governing_gate[k] != SW_THRESHOLDS_NO_GATE)
-            fputs(gates[row->governing_gate[k]]->name, fp);
+            sw_csv_put_field(fp, gates[row->governing_gate[k]]->name);
     }
     fputc('\n', fp);
 }

@@ -1,5 +1,6 @@
 /* sillwatch: the CSV outputs of a replay (see report.h). */
 #include "sillwatch/report.h"
+#include "sillwatch/csvout.h"
 
 #include <math.h>
 #include <stdint.h>
@@ -183,7 +184,7 @@ static char *put_min_fs(char *w, const sw_tally *t, const sw_zone *zone)
 static void write_row(FILE *fp, const char *gate, const char *line,
                       const char *w)
 {
-    fputs(gate, fp);
+    sw_csv_put_field(fp, gate);
     fputc(',', fp);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
@@ -278,7 +279,7 @@ void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
     *w++ = ',';
     w = put_crit(w, open);
     *w++ = '\n';
-    fputs(gate, fp);
+    sw_csv_put_field(fp, gate);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
 
