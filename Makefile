@@ -17,8 +17,10 @@ PKGS      := gsl inih nettle
 WARN      := -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wstrict-prototypes \
              -Wmissing-prototypes -Wformat=2
 CFLAGS    ?= -O2 -g
+# CPPFLAGS, CFLAGS and LDFLAGS are the user's (a distribution's hardening
+# flags, say): every compile takes CPPFLAGS and CFLAGS, every link LDFLAGS.
 ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
-             -Iinclude -DSW_VERSION=\"$(VERSION)\" $(CFLAGS) $(EXTRA_CFLAGS) \
+             -Iinclude -DSW_VERSION=\"$(VERSION)\" $(CPPFLAGS) $(CFLAGS) $(EXTRA_CFLAGS) \
              $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 # Recursive (=) so that pkg-config runs after tools/check-deps.sh has
 # installed it on a new machine; the fallbacks are Debian's link lines.
@@ -62,21 +64,21 @@ $(LIB): $(LIB_OBJ)
 	$(AR) rcs $@ $^
 
 $(PROG): $(CLI_OBJ) $(LIB)
-	$(CC) $(ALL_CFLAGS) -o $@ $(CLI_OBJ) $(LIB) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $(CLI_OBJ) $(LIB) $(LDLIBS_ALL)
 
 $(BUILD)/tests/%: tests/unit/%.c tests/unit/testutil.h $(LIB) | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -Itests/unit -o $@ $< $(LIB) $(TEST_LIBS) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -Itests/unit -o $@ $< $(LIB) $(TEST_LIBS) $(LDLIBS_ALL)
 
 $(BUILD)/bench/%: tests/bench/%.c $(LIB) | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -O2 -o $@ $< $(LIB) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) -O2 $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS_ALL)
 
 # The browser test's image reader (tests/browser/pngstat.c, libpng).
 PNGSTAT   := $(BUILD)/tests/pngstat
 $(PNGSTAT): tests/browser/pngstat.c | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
 
 # The decimal parser's tests again with x87 arithmetic (FLT_EVAL_METHOD 2,
 # excess precision), where Clinger's fast path must stay off: x86-64 only.
