@@ -78,6 +78,11 @@ int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
  * now.  Returns 0, or -1 when SOURCE_DATE_EPOCH is malformed. */
 int sw_cli_generation_time(char *buf, size_t n);
 
+/* Print the version, copyright, licence and warranty lines (as GNU
+ * programs do) to stdout; return SW_EXIT_OK.  `sillwatch --version` and
+ * `sillwatch COMMAND --version` alike. */
+int sw_cli_version(void);
+
 /* The caution printed by --help and the reports. */
 extern const char sw_cli_caution[];
 

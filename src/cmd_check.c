@@ -15,7 +15,8 @@ static const char check_help[] =
     "their units and the values derived from them (water densities,\n"
     "gravity, sill elevation, sealed area, weight moment).\n"
     "\n"
-    "  -h, --help   show this help and exit\n"
+    "  -h, --help      show this help and exit\n"
+    "      --version   show the version and exit\n"
     "\n"
     "Exit status: 0 valid, 2 usage, 3 invalid site file (the message names\n"
     "file, line and column); see 'sillwatch --help'.\n"
@@ -97,6 +98,7 @@ int sw_cmd_check(int argc, char **argv)
 {
     static const struct option opts[] = {
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     sw_site site;
@@ -105,6 +107,8 @@ int sw_cmd_check(int argc, char **argv)
 
     opterr = 0;
     while ((opt = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
+        if (opt == 'V')
+            return sw_cli_version();
         if (opt == 'h') {
             fputs(check_help, stdout);
             fputs(sw_cli_caution, stdout);

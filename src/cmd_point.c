@@ -23,6 +23,7 @@ static const char point_help[] =
     "  --format FORMAT     text (default): the full hand-check;\n"
     "                      csv: one row per gate (units m, N, N*m)\n"
     "  -h, --help          show this help and exit\n"
+    "      --version       show the version and exit\n"
     "\n"
     "Exit status: 0 every gate ok, 1 some gate low or open, 2 usage,\n"
     "3 site file, 6 numerical failure; see 'sillwatch --help'.\n"
@@ -203,6 +204,7 @@ int sw_cmd_point(int argc, char **argv)
         {"gate", required_argument, NULL, 'g'},
         {"format", required_argument, NULL, 'f'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     const char *gates[64];
@@ -236,6 +238,8 @@ int sw_cmd_point(int argc, char **argv)
                 return sw_cli_usage_error(
                     "point", "--format: '%s' is not one of text, csv", optarg);
             break;
+        case 'V':
+            return sw_cli_version();
         case 'h':
             fputs(point_help, stdout);
             fputs(sw_cli_caution, stdout);

@@ -41,6 +41,7 @@ static const char run_help[] =
     "  --report               write report.html\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
+    "      --version          show the version and exit\n"
     "\n"
     "Exit status: 0 every gate held its margin, 1 some gate was low or open,\n"
     "2 usage, 3 site file, 4 level data, 5 output, 130 interrupted; see\n"
@@ -75,6 +76,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     int opt, rc;
@@ -107,6 +109,9 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(run_help, stdout);
             fputs(sw_cli_caution, stdout);

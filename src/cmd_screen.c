@@ -43,6 +43,7 @@ static const char screen_help[] =
     "                         times count from it; default: its first time)\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
+    "      --version          show the version and exit\n"
     "\n"
     "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
     "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
@@ -67,6 +68,7 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"issued", required_argument, NULL, 'i'},
         {"quiet", no_argument, NULL, 'q'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     int opt, rc;
@@ -90,6 +92,9 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(screen_help, stdout);
             fputs(sw_cli_caution, stdout);

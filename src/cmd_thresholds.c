@@ -44,6 +44,7 @@ static const char thresholds_help[] =
     "                            0.0005) of every exact curve\n"
     "  -o, --output FILE         the CSV file, written whole or not at all\n"
     "  -h, --help                show this help and exit\n"
+    "      --version             show the version and exit\n"
     "\n"
     "FROM, TO and STEP are plain decimals with at most 4 decimals (m);\n"
     "STEP > 0, TO >= FROM, at most 1000000 levels.  The file starts with a\n"
@@ -84,6 +85,7 @@ static int parse_args(int argc, char **argv, thr_opts *o)
         {"simplify", required_argument, NULL, 's'},
         {"output", required_argument, NULL, 'o'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     const char *range_opt = NULL;
@@ -134,6 +136,9 @@ static int parse_args(int argc, char **argv, thr_opts *o)
         case 'o':
             o->output = optarg;
             break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(thresholds_help, stdout);
             fputs(sw_cli_caution, stdout);

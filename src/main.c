@@ -111,6 +111,19 @@ static const char usage_text[] =
     "  130  interrupted (SIGINT or SIGTERM); earlier outputs left as they were\n"
     "\n";
 
+int sw_cli_version(void)
+{
+    printf("sillwatch %s\n"
+           "Copyright (C) 2026 the sillwatch authors.\n"
+           "License GPLv3+: GNU GPL version 3 or later "
+           "<https://gnu.org/licenses/gpl.html>.\n"
+           "This is free software: you are free to change and redistribute "
+           "it.\n"
+           "There is NO WARRANTY, to the extent permitted by law.\n",
+           SW_VERSION);
+    return SW_EXIT_OK;
+}
+
 int sw_cli_exit_code(int status)
 {
     switch (status) {
@@ -268,8 +281,7 @@ int main(int argc, char **argv)
         return SW_EXIT_OK;
     }
     if (strcmp(argv[1], "-V") == 0 || strcmp(argv[1], "--version") == 0) {
-        printf("sillwatch %s\n", SW_VERSION);
-        return SW_EXIT_OK;
+        return sw_cli_version();
     }
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
         if (strcmp(argv[1], commands[i].name) == 0)
