@@ -120,7 +120,13 @@ static int parse_args(int argc, char **argv, run_opts *o)
             return sw_cli_option_error("run", opt, argv);
         }
     }
-    return sw_cli_site_operand("run", argc, argv, o->outdir, &o->site_path);
+    rc = sw_cli_site_operand("run", argc, argv, o->outdir,
+                             &o->site_path);
+    if (rc == 0 && o->report && strcmp(o->site_path, "-") == 0)
+        return sw_cli_usage_error("run", "--report records the site file's "
+                                         "SHA-256: give the site file by "
+                                         "name, not '-'");
+    return rc;
 }
 
 static void print_summary(const sw_site *site, const sw_stepper *st)

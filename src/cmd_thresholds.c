@@ -159,6 +159,11 @@ static int parse_args(int argc, char **argv, thr_opts *o)
                                                    "%d",
                                   argc - optind);
     o->site_path = argv[optind];
+    if (strcmp(o->site_path, "-") == 0)
+        return sw_cli_usage_error("thresholds",
+                                  "the site file cannot be standard input "
+                                  "here: the table records its SHA-256; "
+                                  "give its name");
     if (!o->have_range)
         return sw_cli_usage_error("thresholds",
                                   "give the levels with --headwater "
@@ -389,14 +394,16 @@ int sw_cmd_thresholds(int argc, char **argv)
     size_t n_gates = 0;
     char dir[SW_ERROR_PATH_MAX], sha[SW_CLI_SHA256_HEX];
     char sha_after[sizeof sha], when[32];
-    const char *name;
+    const char *name = NULL;
     int rc;
 
     memset(&out, 0, sizeof out);
     memset(&site, 0, sizeof site);
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
-    if (split_path(o.output, dir, sizeof dir, &name) != 0)
+    const int to_stdout = strcmp(o.output, "-") == 0;
+    FILE *msg = to_stdout ? stderr : stdout; /* stdout holds the table */
+    if (!to_stdout && split_path(o.output, dir, sizeof dir, &name) != 0)
         return sw_cli_usage_error("thresholds",
                                   "-o: '%s' does not name a file", o.output);
     if (sw_cli_generation_time(when, sizeof when) != 0)
@@ -445,7 +452,7 @@ int sw_cmd_thresholds(int argc, char **argv)
                                   &err)) != SW_OK)
         goto fail;
     /* open first: a bad folder shows before the work */
-    {
+    if (!to_stdout) {
         struct stat sb;
         if (stat(o.output, &sb) == 0 && S_ISDIR(sb.st_mode)) {
             rc = sw_error_set(&err, SW_EOUTPUT, o.output, 0, 0,
@@ -453,35 +460,48 @@ int sw_cmd_thresholds(int argc, char **argv)
                               "file");
             goto fail;
         }
+        /* a missing folder is created, as run creates OUTDIR */
+        if (stat(dir, &sb) != 0 && errno == ENOENT &&
+            (rc = sw_cli_make_outdir(dir, &err)) != SW_OK)
+            goto fail;
+        if ((rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
+            goto fail;
     }
-    if ((rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
-        goto fail;
+    FILE *fp = to_stdout ? stdout : out.fp;
     if (o.tol_m > 0.0 &&
         (rc = sw_thresholds_simplify(t, o.tol_m, &fit, &err)) != SW_OK)
         goto fail;
     if (interrupted)
         goto stop;
-    write_header(out.fp, &o, &site, sha, when, gates, n_gates, t,
+    write_header(fp, &o, &site, sha, when, gates, n_gates, t,
                  o.tol_m > 0.0 ? &fit : NULL);
     for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
         const sw_thresholds_row *row;
         if ((rc = sw_thresholds_get_row(t, i, &row, &err)) != SW_OK)
             goto fail;
-        write_row(out.fp, row, gates, n_gates);
+        write_row(fp, row, gates, n_gates);
         if (interrupted)
             goto stop;
     }
-    if ((rc = sw_outfile_close(&out, &err)) != SW_OK)
-        goto fail;
-    if (interrupted)
-        goto stop;
-    if ((rc = sw_outfile_publish(&out, &err)) != SW_OK)
-        goto fail;
+    if (to_stdout) {
+        if (fflush(stdout) != 0 || ferror(stdout)) {
+            rc = sw_error_set(&err, SW_EOUTPUT, NULL, 0, 0,
+                              "cannot write the table to standard output");
+            goto fail;
+        }
+    } else {
+        if ((rc = sw_outfile_close(&out, &err)) != SW_OK)
+            goto fail;
+        if (interrupted)
+            goto stop;
+        if ((rc = sw_outfile_publish(&out, &err)) != SW_OK)
+            goto fail;
+    }
 
     if (o.tol_m > 0.0) {
-        printf("wrote %s: %zu breakpoints for %zu %s levels, max error "
-               "%.4f m (tolerance %.4f m)\n",
-               o.output, sw_thresholds_n_rows(t), o.range.n_levels,
+        fprintf(msg, "wrote %s: %zu breakpoints for %zu %s levels, max "
+               "error %.4f m (tolerance %.4f m)\n",
+               to_stdout ? "standard output" : o.output, sw_thresholds_n_rows(t), o.range.n_levels,
                names_of(o.axis).level, fit.max_error_m, fit.tol_m);
         if (fit.n_steps > 0)
             fprintf(stderr,
@@ -490,10 +510,11 @@ int sw_cmd_thresholds(int argc, char **argv)
                     "file's header\n",
                     fit.n_steps, fit.n_steps == 1 ? "" : "s");
     } else {
-        printf("wrote %s: %zu %s levels\n", o.output, o.range.n_levels,
-               names_of(o.axis).level);
+        fprintf(msg, "wrote %s: %zu %s levels\n",
+                to_stdout ? "standard output" : o.output, o.range.n_levels,
+                names_of(o.axis).level);
     }
-    fputs(sw_cli_caution, stdout);
+    fputs(sw_cli_caution, msg);
     sw_thresholds_free(t);
     sw_site_fini(&site);
     if (fflush(stdout) != 0 || ferror(stdout)) {
@@ -504,8 +525,12 @@ int sw_cmd_thresholds(int argc, char **argv)
     return SW_EXIT_OK;
 
 stop:
-    fprintf(stderr, "sillwatch: thresholds: interrupted; %s is left as it "
-                    "was\n", o.output);
+    if (to_stdout)
+        fprintf(stderr, "sillwatch: thresholds: interrupted; the table on "
+                        "standard output is incomplete\n");
+    else
+        fprintf(stderr, "sillwatch: thresholds: interrupted; %s is left as "
+                        "it was\n", o.output);
     sw_outfile_abort(&out);
     sw_thresholds_free(t);
     sw_site_fini(&site);

@@ -1380,15 +1380,18 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     sw_error_clear(err);
     memset(site, 0, sizeof *site);
     memset(&p, 0, sizeof p);
+    int from_stdin = strcmp(path, "-") == 0;
+    if (from_stdin)
+        path = SW_SITE_STDIN_NAME;
     p.path = path;
     p.err = err;
 
-    p.fp = fopen(path, "r");
+    p.fp = from_stdin ? stdin : fopen(path, "r");
     if (p.fp == NULL)
         return sw_error_set(err, SW_ESITE, path, 0, 0,
                             "cannot open the site file: %s", strerror(errno));
     struct stat sb;
-    if (fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
+    if (!from_stdin && fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
         fclose(p.fp);
         return sw_error_set(err, SW_ESITE, path, 0, 0,
                             "this is a folder, not a site file");
@@ -1412,7 +1415,8 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     if (p.status == SW_OK)
         resolve(&p, site);
 
-    fclose(p.fp);
+    if (!from_stdin)
+        fclose(p.fp);
     free(p.raw);
     free(p.secs);
     if (p.status != SW_OK) {

@@ -85,7 +85,13 @@ typedef struct sw_site {
     sw_site_series *series;         /* in file order; owned by the site */
 } sw_site;
 
-/* Read, check and prepare the site file at `path`.  On success returns
+/* The name messages and site->path give a site file read from standard
+ * input (path "-"). */
+#define SW_SITE_STDIN_NAME "<stdin>"
+
+/* Read, check and prepare the site file at `path` ("-": standard input;
+ * its series files are then relative to the current folder, and it is
+ * named SW_SITE_STDIN_NAME in messages).  On success returns
  * SW_OK and fills *site, which the caller releases with sw_site_fini().
  * On failure returns SW_ESITE (or SW_ENOMEM) with file, line, column and a
  * message in *err, and leaves *site empty (sw_site_fini() is still safe). */
