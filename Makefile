@@ -180,13 +180,20 @@ fuzz-run-%: $(FUZZ_DIR)/fuzz_%
 	  $(if $(wildcard tests/fuzz/$*.dict),-dict=tests/fuzz/$*.dict) \
 	  $(FUZZ_DIR)/corpus-$*
 
+# The program, its two manual pages and the bash completion script.
+MANDIR    ?= $(PREFIX)/share/man
+BASHCOMPDIR ?= $(PREFIX)/share/bash-completion/completions
 install: $(PROG)
-	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(MANDIR)/man1 \
+	  $(DESTDIR)$(MANDIR)/man5 $(DESTDIR)$(BASHCOMPDIR)
 	install -m 755 $(PROG) $(DESTDIR)$(PREFIX)/bin/sillwatch
-	install -m 644 src/sillwatch.1 $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+	install -m 644 src/sillwatch.1 $(DESTDIR)$(MANDIR)/man1/sillwatch.1
+	install -m 644 src/sillwatch-site.5 $(DESTDIR)$(MANDIR)/man5/sillwatch-site.5
+	install -m 644 completion/sillwatch $(DESTDIR)$(BASHCOMPDIR)/sillwatch
 
 uninstall:
-	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(MANDIR)/man1/sillwatch.1 \
+	  $(DESTDIR)$(MANDIR)/man5/sillwatch-site.5 $(DESTDIR)$(BASHCOMPDIR)/sillwatch
 
 clean:
 	rm -rf $(BUILD)
