@@ -13,7 +13,7 @@ ifneq ($(filter true 1,$(CI) $(WERROR)),)
 WERROR_FLAG := -Werror
 endif
 
-PKGS      := gsl inih nettle
+PKGS      := gsl inih nettle jansson
 WARN      := -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wstrict-prototypes \
              -Wmissing-prototypes -Wformat=2
 CFLAGS    ?= -O2 -g
@@ -24,7 +24,7 @@ ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
              $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 # Recursive (=) so that pkg-config runs after tools/check-deps.sh has
 # installed it on a new machine; the fallbacks are Debian's link lines.
-LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle) -pthread \
+LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson) -pthread \
              -lcsv -lm $(EXTRA_LDFLAGS)
 TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka)
 

@@ -7,14 +7,17 @@
 
 #include "cli.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/site.h"
 
 static const char check_help[] =
-    "Usage: sillwatch check SITE.ini\n"
+    "Usage: sillwatch check SITE.ini [--format text|json]\n"
     "Read and validate a site file; print every gate's parameters with\n"
     "their units and the values derived from them (water densities,\n"
     "gravity, sill elevation, sealed area, weight moment).\n"
     "\n"
+    "  --format FORMAT text (default), or json: every parameter and\n"
+    "                  derived value, units in the keys\n"
     "  -h, --help      show this help and exit\n"
     "      --version   show the version and exit\n"
     "\n"
@@ -97,18 +100,27 @@ static void print_gate(const sw_site_gate *sg)
 int sw_cmd_check(int argc, char **argv)
 {
     static const struct option opts[] = {
+        {"format", required_argument, NULL, 'f'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     sw_site site;
     sw_error err;
-    int opt;
+    int opt, json = 0;
 
     opterr = 0;
     while ((opt = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
         if (opt == 'V')
             return sw_cli_version();
+        if (opt == 'f') {
+            if (strcmp(optarg, "json") != 0 && strcmp(optarg, "text") != 0)
+                return sw_cli_usage_error(
+                    "check", "--format: '%s' is not one of text, json",
+                    optarg);
+            json = strcmp(optarg, "json") == 0;
+            continue;
+        }
         if (opt == 'h') {
             fputs(check_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -124,6 +136,22 @@ int sw_cmd_check(int argc, char **argv)
                                   argc - optind);
     if (sw_site_load(&site, argv[optind], &err) != SW_OK)
         return sw_cli_report(&err);
+    if (json) {
+        json_t *doc = sw_json_site(&site);
+        int bad = 0;
+        sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+        sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+        int rc = sw_json_write(bad ? NULL : doc, stdout, &err);
+        json_decref(doc);
+        sw_site_fini(&site);
+        if (rc != SW_OK)
+            return sw_cli_report(&err);
+        if (fflush(stdout) != 0 || ferror(stdout)) {
+            fprintf(stderr, "sillwatch: check: could not write the output\n");
+            return SW_EXIT_OUTPUT;
+        }
+        return SW_EXIT_OK;
+    }
 
     printf("site '%s' (%s): valid, %zu gate%s\n", site.name, site.path,
            site.n_gates, site.n_gates == 1 ? "" : "s");

@@ -9,11 +9,12 @@
 #include "cli.h"
 #include "sillwatch/csvout.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/site.h"
 
 static const char point_help[] =
     "Usage: sillwatch point SITE.ini --headwater LEVEL --tailwater LEVEL\n"
-    "                       [--gate NAME]... [--format text|csv]\n"
+    "                       [--gate NAME]... [--format text|csv|json]\n"
     "Evaluate the hydrostatic hinge moments of the site's gates at one pair\n"
     "of water levels (elevations in m above the site datum).\n"
     "\n"
@@ -21,7 +22,8 @@ static const char point_help[] =
     "  --tailwater LEVEL   downstream (backing) water level, m\n"
     "  --gate NAME         only this gate (repeatable; default: every gate)\n"
     "  --format FORMAT     text (default): the full hand-check;\n"
-    "                      csv: one row per gate (units m, N, N*m)\n"
+    "                      csv: one row per gate (units m, N, N*m);\n"
+    "                      json: every load and value, units in the keys\n"
     "  -h, --help          show this help and exit\n"
     "      --version       show the version and exit\n"
     "\n"
@@ -210,7 +212,9 @@ int sw_cmd_point(int argc, char **argv)
     const char *gates[64];
     size_t n_named = 0;
     double hw = NAN, tw = NAN;
-    int csv = 0, opt, worst = SW_STATE_OK, rc;
+    int csv = 0, json = 0, opt, worst = SW_STATE_OK, rc;
+    json_t *doc = NULL, *jgates = NULL;
+    int bad = 0;
     sw_site site;
     sw_error err;
 
@@ -231,12 +235,15 @@ int sw_cmd_point(int argc, char **argv)
             break;
         case 'f':
             if (strcmp(optarg, "csv") == 0)
-                csv = 1;
+                csv = 1, json = 0;
             else if (strcmp(optarg, "text") == 0)
-                csv = 0;
+                csv = 0, json = 0;
+            else if (strcmp(optarg, "json") == 0)
+                csv = 0, json = 1;
             else
                 return sw_cli_usage_error(
-                    "point", "--format: '%s' is not one of text, csv", optarg);
+                    "point", "--format: '%s' is not one of text, csv, json",
+                    optarg);
             break;
         case 'V':
             return sw_cli_version();
@@ -274,7 +281,23 @@ int sw_cmd_point(int argc, char **argv)
             return SW_EXIT_USAGE;
         }
 
-    if (csv)
+    if (json) {
+        doc = json_object();
+        jgates = json_array();
+        sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+        sw_json_set(doc, "site", json_string(site.name), &bad);
+        sw_json_set(doc, "site_file", json_string(site.path), &bad);
+        sw_json_set(doc, "gravity_ms2", sw_json_number(site.g_ms2), &bad);
+        sw_json_set(doc, "density_upstream_kgm3",
+                    sw_json_number(site.water[SW_UPSTREAM].rho_kgm3), &bad);
+        sw_json_set(doc, "density_downstream_kgm3",
+                    sw_json_number(site.water[SW_DOWNSTREAM].rho_kgm3), &bad);
+        sw_json_set(doc, "headwater_m", sw_json_number(hw), &bad);
+        sw_json_set(doc, "tailwater_m", sw_json_number(tw), &bad);
+        if (jgates != NULL)
+            json_incref(jgates);
+        sw_json_set(doc, "gates", jgates, &bad);
+    } else if (csv)
         puts("gate,headwater,tailwater,hw_force,hw_moment,tw_force,tw_moment,"
              "weight_moment,buoyancy_moment,extra_moment,net_moment,fs,"
              "sill_reaction,status,tw_alarm,tw_open");
@@ -297,18 +320,38 @@ int sw_cmd_point(int argc, char **argv)
         crit_set c;
         sw_gate_evaluate(&sg->gate, hw, tw, &r);
         if ((rc = find_crits(&sg->gate, hw, tw, &c, &err)) != SW_OK) {
+            json_decref(jgates);
+            json_decref(doc);
             sw_site_fini(&site);
             return sw_cli_report(&err);
         }
         if ((int)r.state > worst)
             worst = (int)r.state;
-        if (csv)
+        if (json) {
+            if (jgates == NULL ||
+                json_array_append_new(
+                    jgates, sw_json_point_gate(&sg->gate, &r, &c.tw_alarm,
+                                               &c.tw_open, &c.hw_alarm,
+                                               &c.hw_open)) != 0)
+                bad = 1;
+        } else if (csv) {
             print_csv_row(&sg->gate, &r, &c);
-        else
+        } else {
             print_text(sg, &r, &c);
+        }
     }
-    if (!csv)
+    if (json) {
+        sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+        rc = sw_json_write(bad ? NULL : doc, stdout, &err);
+        json_decref(jgates);
+        json_decref(doc);
+        if (rc != SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_report(&err);
+        }
+    } else if (!csv) {
         fputs(sw_cli_caution, stdout);
+    }
     sw_site_fini(&site);
     if (fflush(stdout) != 0 || ferror(stdout)) {
         fprintf(stderr, "sillwatch: point: could not write the output\n");

@@ -12,6 +12,7 @@
 
 #include "cli.h"
 #include "sillwatch/htmlreport.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/site.h"
@@ -19,7 +20,8 @@
 
 static const char run_help[] =
     "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
-    "                     [--steps] [--by month] [--report] [--quiet]\n"
+    "                     [--steps] [--by month] [--report] [--json]\n"
+    "                     [--quiet]\n"
     "Replay the level series named in the site file through every gate and\n"
     "write, in OUTDIR (created if missing):\n"
     "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
@@ -30,6 +32,8 @@ static const char run_help[] =
     "  months.csv    with --by month: the summary per calendar month\n"
     "  report.html   with --report: the season report, one page with\n"
     "                charts and tables, to open, print or attach\n"
+    "  summary.json  with --json: summary.csv for scripts (numbers as\n"
+    "                numbers)\n"
     "Each file is written whole or not at all; a failed run leaves the\n"
     "previous outputs as they were.\n"
     "\n"
@@ -39,6 +43,7 @@ static const char run_help[] =
     "  --steps                write steps.csv\n"
     "  --by month             write months.csv\n"
     "  --report               write report.html\n"
+    "  --json                 write summary.json\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
@@ -55,13 +60,17 @@ static void on_signal(int sig)
     interrupted = sig;
 }
 
-enum { OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, N_OUT };
+enum {
+    OUT_SUMMARY, OUT_EVENTS, OUT_STEPS, OUT_MONTHS, OUT_REPORT, OUT_JSON,
+    N_OUT
+};
 static const char *const out_names[N_OUT] = {
-    "summary.csv", "events.csv", "steps.csv", "months.csv", "report.html"};
+    "summary.csv", "events.csv",  "steps.csv",
+    "months.csv",  "report.html", "summary.json"};
 
 typedef struct run_opts {
     const char *site_path, *outdir;
-    int steps, by_month, report, quiet;
+    int steps, by_month, report, json, quiet;
     const char *series[64];
     size_t n_series;
 } run_opts;
@@ -72,6 +81,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"output", required_argument, NULL, 'o'},
         {"series", required_argument, NULL, 's'},
         {"steps", no_argument, NULL, 'S'},
+        {"json", no_argument, NULL, 'J'},
         {"by", required_argument, NULL, 'b'},
         {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
@@ -96,6 +106,9 @@ static int parse_args(int argc, char **argv, run_opts *o)
             break;
         case 'S':
             o->steps = 1;
+            break;
+        case 'J':
+            o->json = 1;
             break;
         case 'b':
             if (strcmp(optarg, "month") != 0)
@@ -271,6 +284,31 @@ static int write_step(const sw_stepper *st, const sw_site *site,
     return SW_OK;
 }
 
+/* summary.json: the rows of summary.csv, numbers as numbers (jsonout.h). */
+static int write_json(FILE *fp, const sw_site *site, const sw_stepper *st,
+                      sw_time_ms t0, sw_time_ms t1, sw_error *err)
+{
+    int bad = 0, rc;
+    json_t *doc = json_object(), *rows = json_array();
+
+    for (size_t i = 0; i < site->n_gates && rows != NULL; i++)
+        if (json_array_append_new(
+                rows, sw_json_summary_row(site->gates[i].gate.name, t0, t1,
+                                          sw_stepper_tally(st, i),
+                                          site->zone)) != 0)
+            bad = 1;
+    sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+    sw_json_set(doc, "site", json_string(site->name), &bad);
+    sw_json_set(doc, "site_file", json_string(site->path), &bad);
+    sw_json_set(doc, "start", sw_json_time(t0, site->zone), &bad);
+    sw_json_set(doc, "end", sw_json_time(t1, site->zone), &bad);
+    sw_json_set(doc, "gates", rows, &bad);
+    sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+    rc = sw_json_write(bad ? NULL : doc, fp, err);
+    json_decref(doc);
+    return rc;
+}
+
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
@@ -306,7 +344,7 @@ int sw_cmd_run(int argc, char **argv)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
         if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
-            (k == OUT_REPORT && !o.report))
+            (k == OUT_REPORT && !o.report) || (k == OUT_JSON && !o.json))
             continue;
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
             SW_OK)
@@ -358,6 +396,9 @@ int sw_cmd_run(int argc, char **argv)
         for (size_t i = 0; i < site.n_gates; i++)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
+        if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, st, t0, t1,
+                                       &err)) != SW_OK)
+            goto fail;
     }
     if (o.report) {
         char sha[SW_CLI_SHA256_HEX], when[32];
@@ -397,9 +438,11 @@ int sw_cmd_run(int argc, char **argv)
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv%s%s%s\n", o.outdir,
-               o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
-               o.report ? ", report.html" : "");
+        printf("\noutputs in %s: summary.csv, events.csv%s%s%s%s\n",
+               o.outdir, o.steps ? ", steps.csv" : "",
+               o.by_month ? ", months.csv" : "",
+               o.report ? ", report.html" : "",
+               o.json ? ", summary.json" : "");
         fputs(sw_cli_caution, stdout);
     }
     sw_html_report_free(rep);

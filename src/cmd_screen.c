@@ -12,6 +12,7 @@
 #include "cli.h"
 #include "sillwatch/csvout.h"
 #include "sillwatch/ensemble.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/series.h"
@@ -20,7 +21,7 @@
 
 static const char screen_help[] =
     "Usage: sillwatch screen SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
-    "                        [--issued TIME] [--quiet]\n"
+    "                        [--issued TIME] [--json] [--quiet]\n"
     "Screen forecast levels through every gate with the model and stepping\n"
     "of 'run'.  A series whose value_column holds a '*' (tw_*) is an\n"
     "ensemble: each matching column is a member, and each gate is replayed\n"
@@ -36,11 +37,14 @@ static const char screen_help[] =
     "                 series: the tailwater it needs (tw_alarm, tw_open) at\n"
     "                 each time step, per member\n"
     "  required_max.csv  their maxima and when they occur\n"
+    "  screen.json   with --json: screen.csv for scripts (numbers as\n"
+    "                numbers)\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE\n"
     "  --issued TIME          ISO 8601 time the forecast was issued (lead\n"
     "                         times count from it; default: its first time)\n"
+    "  --json                 write screen.json\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
@@ -49,13 +53,17 @@ static const char screen_help[] =
     "2 usage, 3 site file, 4 level data, 5 output; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, N_OUT };
+enum {
+    OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_JSON,
+    N_OUT
+};
 static const char *const out_names[N_OUT] = {
-    "forecast.csv", "screen.csv", "required.csv", "required_max.csv"};
+    "forecast.csv", "screen.csv", "required.csv", "required_max.csv",
+    "screen.json"};
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
-    int quiet;
+    int quiet, json;
     const char *series[64];
     size_t n_series;
 } screen_opts;
@@ -67,6 +75,7 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"series", required_argument, NULL, 's'},
         {"issued", required_argument, NULL, 'i'},
         {"quiet", no_argument, NULL, 'q'},
+        {"json", no_argument, NULL, 'J'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -91,6 +100,9 @@ static int parse_args(int argc, char **argv, screen_opts *o)
             break;
         case 'q':
             o->quiet = 1;
+            break;
+        case 'J':
+            o->json = 1;
             break;
         case 'V':
             sw_cli_version();
@@ -358,6 +370,57 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
     return rc;
 }
 
+/* screen.json: the rows of screen.csv, numbers as numbers (jsonout.h). */
+static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
+                      size_t n_v, sw_time_ms issued, sw_error *err)
+{
+    int bad = 0, rc;
+    json_t *doc = json_object(), *rows = json_array();
+
+    for (size_t i = 0; i < n_v && rows != NULL; i++) {
+        const verdict *v = &vd[i];
+        json_t *r = json_object();
+        sw_json_set(r, "gate", json_string(site->gates[v->gate].gate.name),
+                    &bad);
+        sw_json_set(r, "members", json_integer((json_int_t)v->members), &bad);
+        sw_json_set(r, "low_first_time",
+                    v->low_seen ? sw_json_time(v->low_first, site->zone)
+                                : json_null(),
+                    &bad);
+        sw_json_set(r, "low_lead_hours",
+                    v->low_seen ? sw_json_hours(v->low_first - issued)
+                                : json_null(),
+                    &bad);
+        sw_json_set(r, "low_members",
+                    json_integer((json_int_t)v->low_members), &bad);
+        sw_json_set(r, "low_median_hours", sw_json_hours(v->low_median),
+                    &bad);
+        sw_json_set(r, "open_first_time",
+                    v->open_seen ? sw_json_time(v->open_first, site->zone)
+                                 : json_null(),
+                    &bad);
+        sw_json_set(r, "open_lead_hours",
+                    v->open_seen ? sw_json_hours(v->open_first - issued)
+                                 : json_null(),
+                    &bad);
+        sw_json_set(r, "open_members",
+                    json_integer((json_int_t)v->open_members), &bad);
+        sw_json_set(r, "open_median_hours", sw_json_hours(v->open_median),
+                    &bad);
+        if (json_array_append_new(rows, r) != 0)
+            bad = 1;
+    }
+    sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+    sw_json_set(doc, "site", json_string(site->name), &bad);
+    sw_json_set(doc, "site_file", json_string(site->path), &bad);
+    sw_json_set(doc, "issued", sw_json_time(issued, site->zone), &bad);
+    sw_json_set(doc, "gates", rows, &bad);
+    sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+    rc = sw_json_write(bad ? NULL : doc, fp, err);
+    json_decref(doc);
+    return rc;
+}
+
 int sw_cmd_screen(int argc, char **argv)
 {
     screen_opts o;
@@ -408,8 +471,9 @@ int sw_cmd_screen(int argc, char **argv)
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
-            SW_OK)
+        if ((k != OUT_JSON || o.json) &&
+            (rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
+                SW_OK)
             goto fail;
     vd = calloc(site.n_gates ? site.n_gates : 1, sizeof *vd);
     if (vd == NULL) {
@@ -464,6 +528,9 @@ int sw_cmd_screen(int argc, char **argv)
             exit_code = SW_EXIT_BELOW;
     }
 
+    if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, vd, n_v, issued,
+                                   &err)) != SW_OK)
+        goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
@@ -503,7 +570,8 @@ int sw_cmd_screen(int argc, char **argv)
     }
     if (!o.quiet) {
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv\n", o.outdir);
+               "required_max.csv%s\n", o.outdir,
+               o.json ? ", screen.json" : "");
         fputs(sw_cli_caution, stdout);
     }
     free(vd);
