@@ -1,6 +1,6 @@
 # sillwatch — hydrostatic screening of hinged flap gates.
 # Targets: all (default), check, bench, install, uninstall, clean,
-#          check-sanitize, check-valgrind, fuzz.  See DEVELOPERS.md.
+#          check-sanitize, check-valgrind, fuzz, dist, distcheck.  See DEVELOPERS.md.
 
 VERSION   := 0.1.0
 PREFIX    ?= /usr/local
@@ -43,7 +43,7 @@ BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 DEPS_OK   := $(BUILD)/.deps-ok
 
 .PHONY: demo all check bench install uninstall clean check-sanitize check-valgrind check-valgrind-all deps \
-        fuzz fuzz-build
+        fuzz fuzz-build dist distcheck
 
 all: $(PROG)
 
@@ -194,6 +194,30 @@ install: $(PROG)
 uninstall:
 	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(MANDIR)/man1/sillwatch.1 \
 	  $(DESTDIR)$(MANDIR)/man5/sillwatch-site.5 $(DESTDIR)$(BASHCOMPDIR)/sillwatch
+
+# The source tarball sillwatch-VERSION.tar.gz: every file git tracks, as it
+# is in the work tree, under sillwatch-VERSION/; reproducible (sorted names,
+# no owners, every mtime the last commit's or SOURCE_DATE_EPOCH).
+# `make distcheck` unpacks it in $(BUILD)/distcheck and runs `make check`
+# there.  Needs a git checkout.
+DISTNAME  := sillwatch-$(VERSION)
+DISTDIR   ?= .
+dist:
+	@test "$$(git rev-parse --show-toplevel 2>/dev/null)" = "$$(pwd -P)" || \
+	  { echo "make dist: needs a git checkout (it packs what git tracks)" >&2; exit 2; }
+	git ls-files -z | tar --null -T - --sort=name --owner=0 --group=0 \
+	  --numeric-owner --mode='u+rw,go+r,go-w' \
+	  --mtime=@$${SOURCE_DATE_EPOCH:-$$(git log -1 --format=%ct)} \
+	  --transform 's,^,$(DISTNAME)/,S' -cf - | gzip -n -9 > $(DISTDIR)/$(DISTNAME).tar.gz.tmp
+	mv $(DISTDIR)/$(DISTNAME).tar.gz.tmp $(DISTDIR)/$(DISTNAME).tar.gz
+	@echo "wrote $(DISTDIR)/$(DISTNAME).tar.gz"
+
+distcheck:
+	@rm -rf $(BUILD)/distcheck && mkdir -p $(BUILD)/distcheck
+	$(MAKE) dist DISTDIR=$(BUILD)/distcheck
+	cd $(BUILD)/distcheck && tar xzf $(DISTNAME).tar.gz && \
+	  $(MAKE) -C $(DISTNAME) check
+	@echo "distcheck: $(DISTNAME).tar.gz unpacks and passes make check"
 
 clean:
 	rm -rf $(BUILD)
