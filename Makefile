@@ -13,7 +13,7 @@ ifneq ($(filter true 1,$(CI) $(WERROR)),)
 WERROR_FLAG := -Werror
 endif
 
-PKGS      := gsl inih nettle jansson
+PKGS      := gsl inih nettle jansson netcdf
 WARN      := -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wstrict-prototypes \
              -Wmissing-prototypes -Wformat=2
 CFLAGS    ?= -O2 -g
@@ -24,7 +24,7 @@ ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
              $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 # Recursive (=) so that pkg-config runs after tools/check-deps.sh has
 # installed it on a new machine; the fallbacks are Debian's link lines.
-LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson) -pthread \
+LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson -lnetcdf) -pthread \
              -lcsv -lm $(EXTRA_LDFLAGS)
 TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka)
 
@@ -89,7 +89,13 @@ $(BUILD)/tests/test_decimal_x87: tests/unit/test_decimal.c src/decimal.c tests/u
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -mfpmath=387 -Itests/unit -o $@ tests/unit/test_decimal.c src/decimal.c $(LDFLAGS) $(TEST_LIBS) -lm $(EXTRA_LDFLAGS)
 
-check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT)
+# The NetCDF cases' file writer (tests/netcdf/mknc.c, netCDF C library).
+MKNC      := $(BUILD)/tests/mknc
+$(MKNC): tests/netcdf/mknc.c | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(shell pkg-config --libs netcdf 2>/dev/null || echo -lnetcdf)
+
+check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT) $(MKNC)
 	@tools/run-tests.sh $(BUILD) $(UNIT_BIN) $(X87_TEST)
 
 bench: $(BENCH_BIN) $(PROG)

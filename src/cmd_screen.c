@@ -286,8 +286,10 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
     for (size_t s = 0; s < ens->n_hw_series && rc == SW_OK; s++) {
         const sw_site_series *sr = &ens->hw_series[s];
         const sw_gate *g = &site->gates[ens->hw_series_gate[s]].gate;
-        sw_reader_config cfg = {sr->path, sr->time_column, sr->time_format,
-                                sr->delimiter, site->zone};
+        sw_reader_config cfg = {sr->path,         sr->time_column,
+                                sr->time_format,  sr->delimiter,
+                                site->zone,       sr->netcdf,
+                                sr->station,      sr->member_dim};
         sw_column_config col;
         sw_reader *rd = NULL;
         double max[2] = {-INFINITY, -INFINITY};

@@ -183,7 +183,8 @@ static const key_def gate_keys[GK_COUNT] = {
 
 enum series_key {
     RK_FILE, RK_TIME_COLUMN, RK_VALUE_COLUMN, RK_TIME_FORMAT, RK_OFFSET,
-    RK_UNIT, RK_MISSING, RK_DELIMITER, RK_COUNT
+    RK_UNIT, RK_MISSING, RK_DELIMITER, RK_FORMAT, RK_VARIABLE,
+    RK_MEMBER_DIMENSION, RK_STATION, RK_COUNT
 };
 
 static const key_def series_keys[RK_COUNT] = {
@@ -191,7 +192,8 @@ static const key_def series_keys[RK_COUNT] = {
                  NULL},
     [RK_TIME_COLUMN] = {"time_column", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
-    [RK_VALUE_COLUMN] = {"value_column", KIND_TEXT, NEED_REQUIRED, "",
+    /* required for CSV series (build_series); NetCDF ones take variable */
+    [RK_VALUE_COLUMN] = {"value_column", KIND_TEXT, NEED_OPTIONAL, "",
                          NO_RANGE, NULL, NULL, NULL},
     [RK_TIME_FORMAT] = {"time_format", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
@@ -205,6 +207,14 @@ static const key_def series_keys[RK_COUNT] = {
                     NULL, NULL},
     [RK_DELIMITER] = {"delimiter", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
                       NULL, NULL, NULL},
+    [RK_FORMAT] = {"format", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                   NULL, NULL},
+    [RK_VARIABLE] = {"variable", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
+    [RK_MEMBER_DIMENSION] = {"member_dimension", KIND_TEXT, NEED_OPTIONAL,
+                             "", NO_RANGE, NULL, NULL, NULL},
+    [RK_STATION] = {"station", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                    NULL, NULL},
 };
 
 #define N_SECTION_DEFS 5
@@ -1027,6 +1037,60 @@ static int read_missing(parser *p, const slot *sl, const char *where,
     return SW_OK;
 }
 
+/* The format keys of a [series NAME] section: format = csv (the default:
+ * value_column required) or netcdf (variable required; value_column,
+ * time_column, time_format, delimiter and unit are the file's business
+ * and may not be given; member_dimension and station only there). */
+static int series_format(parser *p, const section *s, const char *where,
+                         sw_site_series *out)
+{
+    const slot *sl = s->slots;
+    static const int csv_only[] = {RK_VALUE_COLUMN, RK_TIME_COLUMN,
+                                   RK_TIME_FORMAT, RK_DELIMITER, RK_UNIT};
+    static const int nc_only[] = {RK_VARIABLE, RK_MEMBER_DIMENSION,
+                                  RK_STATION};
+
+    if (sl[RK_FORMAT].given) {
+        const char *v = sl[RK_FORMAT].text;
+        if (strcmp(v, "netcdf") == 0)
+            out->netcdf = 1;
+        else if (strcmp(v, "csv") != 0)
+            return fail(p, sl[RK_FORMAT].line, sl[RK_FORMAT].val_col,
+                        "%s: key 'format': '%.40s' is not csv or netcdf",
+                        where, v);
+    }
+    const int *other = out->netcdf ? csv_only : nc_only;
+    size_t n_other = out->netcdf ? sizeof csv_only / sizeof csv_only[0]
+                                 : sizeof nc_only / sizeof nc_only[0];
+    for (size_t i = 0; i < n_other; i++)
+        if (sl[other[i]].given)
+            return fail(p, sl[other[i]].line, sl[other[i]].key_col,
+                        "%s: key '%s' is for %s series only; this one is %s",
+                        where, series_keys[other[i]].name,
+                        out->netcdf ? "CSV" : "NetCDF",
+                        out->netcdf ? "format = netcdf" : "CSV");
+    int need = out->netcdf ? RK_VARIABLE : RK_VALUE_COLUMN;
+    if (!sl[need].given)
+        return fail(p, s->line, s->col,
+                    "%s: required key '%s' is missing: add '%s = ...' to "
+                    "[series %s]",
+                    where, series_keys[need].name, series_keys[need].name,
+                    s->arg);
+    if (out->netcdf) {
+        snprintf(out->variable, sizeof out->variable, "%.127s",
+                 sl[RK_VARIABLE].text);
+        snprintf(out->value_column, sizeof out->value_column, "%.127s",
+                 sl[RK_VARIABLE].text);
+        snprintf(out->member_dim, sizeof out->member_dim, "%.63s",
+                 sl[RK_MEMBER_DIMENSION].given
+                     ? sl[RK_MEMBER_DIMENSION].text
+                     : "");
+        snprintf(out->station, sizeof out->station, "%.127s",
+                 sl[RK_STATION].given ? sl[RK_STATION].text : "");
+    }
+    return SW_OK;
+}
+
 /* Take a [series NAME] section into `out`; a relative file is taken from
  * the site file's folder. */
 static int build_series(parser *p, const section *s, sw_site_series *out)
@@ -1034,6 +1098,8 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
     const slot *sl = s->slots;
     char where[96];
     const char *slash = strrchr(p->path, '/');
+
+    int rc;
 
     section_label(s, where, sizeof where);
     memset(out, 0, sizeof *out);
@@ -1052,8 +1118,11 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
     /* KIND_TEXT values were checked to fit TEXT_SIZE on reading */
     snprintf(out->time_column, sizeof out->time_column, "%.127s",
              sl[RK_TIME_COLUMN].given ? sl[RK_TIME_COLUMN].text : "time");
-    snprintf(out->value_column, sizeof out->value_column, "%.127s",
-             sl[RK_VALUE_COLUMN].text);
+    if ((rc = series_format(p, s, where, out)) != SW_OK)
+        return rc;
+    if (!out->netcdf)
+        snprintf(out->value_column, sizeof out->value_column, "%.127s",
+                 sl[RK_VALUE_COLUMN].text);
     out->time_format = SW_TIME_ISO8601;
     if (sl[RK_TIME_FORMAT].given) {
         const char *v = sl[RK_TIME_FORMAT].text;

@@ -20,6 +20,8 @@ have_header ini.h || missing="$missing libinih-dev"
 have_header nettle/sha2.h || missing="$missing nettle-dev"
 # JSON output (point/check --format json, run/screen --json).
 have_header jansson.h || missing="$missing libjansson-dev"
+# CF-NetCDF level series (format = netcdf); the tests write such files.
+have_header netcdf.h || missing="$missing libnetcdf-dev"
 # The tests: the report's well-formedness (xmllint), the browser test's
 # image reader (libpng).
 command -v xmllint >/dev/null 2>&1 || missing="$missing libxml2-utils"

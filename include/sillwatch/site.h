@@ -61,6 +61,11 @@ typedef struct sw_site_series {
     double offset_m;                    /* gauge zero above site datum */
     size_t n_missing;
     char missing[SW_SERIES_MAX_MISSING][SW_SERIES_TOKEN_MAX];
+    int netcdf;                         /* format = netcdf */
+    char variable[SW_SITE_NAME_MAX * 2];  /* netcdf: the level variable */
+    char member_dim[SW_SITE_NAME_MAX];  /* netcdf: "" = realization or
+                                           member */
+    char station[SW_SITE_NAME_MAX * 2]; /* netcdf: "" = the only one */
 } sw_site_series;
 
 typedef struct sw_site {
