@@ -39,6 +39,19 @@ static void print_series(const sw_site_series *sr)
 {
     printf("\n  [series %s]  (line %ld)\n", sr->name, sr->line);
     printf("    %-20s %s\n", "file", sr->path);
+    if (sr->netcdf) {
+        printf("    %-20s CF-NetCDF (time from its CF time coordinate, "
+               "units from its attributes)\n", "format");
+        printf("    %-20s %s\n", "variable", sr->variable);
+        printf("    %-20s %s\n", "station",
+               sr->station[0] ? sr->station : "(the file's only one)");
+        printf("    %-20s %s\n", "member_dimension",
+               sr->member_dim[0] ? sr->member_dim
+                                 : "realization, else member");
+        printf("    %-20s %+.4f m (gauge zero above datum)\n", "offset",
+               sr->offset_m);
+        return;
+    }
     printf("    %-20s %s (%s)\n", "time_column", sr->time_column,
            sr->time_format == SW_TIME_UNIX ? "Unix seconds" : "ISO 8601");
     printf("    %-20s %s\n", "value_column", sr->value_column);

@@ -88,6 +88,20 @@ static json_t *series(const sw_site_series *sr)
             bad = 1;
     sw_json_set(o, "name", json_string(sr->name), &bad);
     sw_json_set(o, "file", json_string(sr->path), &bad);
+    sw_json_set(o, "format", json_string(sr->netcdf ? "netcdf" : "csv"),
+                &bad);
+    if (sr->netcdf) {
+        sw_json_set(o, "variable", json_string(sr->variable), &bad);
+        sw_json_set(o, "station",
+                    sr->station[0] ? json_string(sr->station) : json_null(),
+                    &bad);
+        sw_json_set(o, "member_dimension",
+                    sr->member_dim[0] ? json_string(sr->member_dim)
+                                      : json_null(),
+                    &bad);
+        sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+        return done(o, bad);
+    }
     sw_json_set(o, "time_column", json_string(sr->time_column), &bad);
     sw_json_set(o, "time_format",
                 json_string(sr->time_format == SW_TIME_UNIX ? "unix"
