@@ -12,6 +12,14 @@
 
 #define LEVEL_MAX_ABS 1e5 /* as for CSV level files (series.c) */
 #define LABEL_MAX 64
+#define BLOCK 512 /* time steps read at once per variable */
+
+/* A block of one variable's values along time, read at once: memory stays
+ * BLOCK values per column however long the file. */
+typedef struct nc_block {
+    double v[BLOCK];
+    size_t start, n;
+} nc_block;
 
 /* One value column: a variable and where to read it. */
 typedef struct nc_column {
@@ -24,6 +32,7 @@ typedef struct nc_column {
     double pack_scale, pack_offset;
     int has_fill, n_missing;
     double fill, missing[4];
+    nc_block block;
 } nc_column;
 
 struct sw_nc {
@@ -31,6 +40,7 @@ struct sw_nc {
     int ncid, open;
     int time_varid;
     size_t n_times, next;
+    nc_block time_block;
     sw_time_ms ref_ms;
     double unit_ms;
     size_t n_columns;
@@ -428,6 +438,29 @@ static int open_column(sw_nc *nc, size_t c, const sw_column_config *cfg,
     return SW_OK;
 }
 
+/* The ragged array representations (CF 1.8, 9.3.3 and 9.3.4: a count
+ * variable with sample_dimension, an index variable with
+ * instance_dimension) are not read: say so rather than misread them. */
+static int not_ragged(int ncid, const char *path, sw_error *err)
+{
+    int nvars;
+    nc_type type;
+    size_t len;
+    if (nc_inq_nvars(ncid, &nvars) != NC_NOERR)
+        return sw_error_set(err, SW_EDATA, path, 0, 0,
+                            "cannot list variables");
+    for (int v = 0; v < nvars; v++)
+        if (nc_inq_att(ncid, v, "sample_dimension", &type, &len) ==
+                NC_NOERR ||
+            nc_inq_att(ncid, v, "instance_dimension", &type, &len) ==
+                NC_NOERR)
+            return sw_error_set(err, SW_EDATA, path, 0, 0,
+                                "a ragged array (CF 9.3.3, 9.3.4) is not "
+                                "read: give the time series as a "
+                                "multidimensional array (CF 9.3.1, 9.3.2)");
+    return SW_OK;
+}
+
 int sw_nc_open(sw_nc **out, const sw_reader_config *cfg,
                const sw_column_config *columns, size_t n_columns,
                sw_reader_stats *stats, sw_error *err)
@@ -449,7 +482,8 @@ int sw_nc_open(sw_nc **out, const sw_reader_config *cfg,
         goto fail;
     }
     nc->open = 1;
-    if ((rc = open_time(nc, err)) != SW_OK ||
+    if ((rc = not_ragged(nc->ncid, nc->path, err)) != SW_OK ||
+        (rc = open_time(nc, err)) != SW_OK ||
         (rc = find_station(nc->ncid, nc->path, cfg->station, &station_dim,
                            &station, err)) != SW_OK)
         goto fail;
@@ -465,6 +499,32 @@ fail:
 }
 
 /* Read value column c at time index i into *v (m or NAN), counting. */
+/* Value i of `varid` along its time slot (the other indices as in
+ * index[]), through the block *b.  Returns a netCDF status. */
+static int block_value(int ncid, int varid, int ndims, const size_t *index,
+                       int time_slot, size_t n_times, size_t i, nc_block *b,
+                       double *out)
+{
+    if (i < b->start || i >= b->start + b->n) {
+        size_t start[NC_MAX_VAR_DIMS], count[NC_MAX_VAR_DIMS];
+        for (int d = 0; d < ndims; d++) {
+            start[d] = index[d];
+            count[d] = 1;
+        }
+        b->start = i;
+        b->n = n_times - i < BLOCK ? n_times - i : BLOCK;
+        start[time_slot] = i;
+        count[time_slot] = b->n;
+        int st = nc_get_vara_double(ncid, varid, start, count, b->v);
+        if (st != NC_NOERR) {
+            b->n = 0;
+            return st;
+        }
+    }
+    *out = b->v[i - b->start];
+    return NC_NOERR;
+}
+
 static int read_value(sw_nc *nc, size_t c, size_t i, double *v,
                       sw_error *err)
 {
@@ -473,9 +533,9 @@ static int read_value(sw_nc *nc, size_t c, size_t i, double *v,
     double raw;
     int st;
 
-    col->index[col->time_slot] = i;
-    if ((st = nc_get_var1_double(nc->ncid, col->varid, col->index, &raw)) !=
-        NC_NOERR)
+    if ((st = block_value(nc->ncid, col->varid, col->ndims, col->index,
+                          col->time_slot, nc->n_times, i, &col->block,
+                          &raw)) != NC_NOERR)
         return nc_fail(nc->path, st, err, "cannot read a value");
     int missing = isnan(raw) || (col->has_fill && raw == col->fill);
     for (int k = 0; k < col->n_missing; k++)
@@ -518,7 +578,9 @@ static int next_record(sw_nc *nc, int *has_row, sw_time_ms *t,
         size_t i = nc->next++;
         double tv;
         char a[64], b[64];
-        int st = nc_get_var1_double(nc->ncid, nc->time_varid, &i, &tv);
+        size_t zero = 0;
+        int st = block_value(nc->ncid, nc->time_varid, 1, &zero, 0,
+                             nc->n_times, i, &nc->time_block, &tv);
         if (st != NC_NOERR)
             return nc_fail(nc->path, st, err, "cannot read a time");
         double ms = tv * nc->unit_ms;

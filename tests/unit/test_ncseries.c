@@ -131,6 +131,38 @@ static void test_time_units_and_values(void **state)
     sw_reader_free(r);
 }
 
+/* More steps than one block of the reader (512): every time and value in
+ * order across the block boundaries. */
+static void test_long_file(void **state)
+{
+    (void)state;
+    enum { N = 1300 };
+    static double v[N];
+    sw_error err;
+    sw_time_ms t;
+    double x;
+    int rc, has;
+    for (size_t i = 0; i < N; i++)
+        v[i] = (i % 97 == 5) ? -1.0 : (double)(i % 89) * 0.25;
+    write_file("minutes since 2025-01-01 00:00", "standard", N, 15.0, "m", v,
+               0.0, 0.0);
+    sw_reader *r = open_h("h", &err, &rc);
+    assert_int_equal(rc, SW_OK);
+    for (size_t i = 0; i < N; i++) {
+        assert_int_equal(sw_reader_next(r, &has, &t, &x, &err), SW_OK);
+        assert_true(has);
+        assert_int_equal(t, sw_days_from_civil(2025, 1, 1) * 86400000LL +
+                                (sw_time_ms)i * 900000LL);
+        if (i % 97 == 5)
+            assert_true(isnan(x));
+        else
+            assert_close(x, (double)(i % 89) * 0.25, 0.0);
+    }
+    assert_int_equal(sw_reader_next(r, &has, &t, &x, &err), SW_OK);
+    assert_false(has);
+    sw_reader_free(r);
+}
+
 static void expect_open_error(const char *units, const char *calendar,
                               const char *h_units, const char *column,
                               const char *text)
@@ -162,6 +194,25 @@ static void test_open_errors(void **state)
                       "units 'cm' are not m or ft");
     expect_open_error("hours since 2025-01-01", NULL, "m", "level",
                       "no variable 'level'");
+
+    /* a contiguous ragged array (CF 1.8, 9.3.3): refused, not misread */
+    int nc, d_s, d_o, v_c, v_t, v_h;
+    snprintf(path, sizeof path, "%s/r.nc", sw_test_dir());
+    ok(nc_create(path, NC_CLOBBER, &nc));
+    ok(nc_def_dim(nc, "station", 2, &d_s));
+    ok(nc_def_dim(nc, "obs", 4, &d_o));
+    ok(nc_def_var(nc, "row_size", NC_INT, 1, &d_s, &v_c));
+    att(nc, v_c, "sample_dimension", "obs");
+    ok(nc_def_var(nc, "time", NC_DOUBLE, 1, &d_o, &v_t));
+    att(nc, v_t, "units", "hours since 2025-01-01");
+    ok(nc_def_var(nc, "h", NC_DOUBLE, 1, &d_o, &v_h));
+    att(nc, v_h, "units", "m");
+    ok(nc_close(nc));
+    sw_error err;
+    int rc;
+    assert_null(open_h("h", &err, &rc));
+    assert_int_equal(rc, SW_EDATA);
+    assert_non_null(strstr(err.message, "ragged array"));
 }
 
 /* String station ids (NC_STRING), a member dimension named "ens" with
@@ -264,6 +315,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_time_units_and_values),
         cmocka_unit_test(test_open_errors),
+        cmocka_unit_test(test_long_file),
         cmocka_unit_test(test_stations_and_members),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
