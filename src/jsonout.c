@@ -100,6 +100,7 @@ static json_t *series(const sw_site_series *sr)
                                       : json_null(),
                     &bad);
         sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+        json_decref(missing); /* CSV only */
         return done(o, bad);
     }
     sw_json_set(o, "time_column", json_string(sr->time_column), &bad);
