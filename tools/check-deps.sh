@@ -28,9 +28,9 @@ command -v xmllint >/dev/null 2>&1 || missing="$missing libxml2-utils"
 have_header png.h || missing="$missing libpng-dev"
 # The tests: the manual pages rendered by man -l (man-db, groff-base).
 command -v man >/dev/null 2>&1 || missing="$missing man-db"
+command -v groff >/dev/null 2>&1 || missing="$missing groff-base"
 # The tests: JSON outputs parsed and queried with jq.
 command -v jq >/dev/null 2>&1 || missing="$missing jq"
-command -v groff >/dev/null 2>&1 || missing="$missing groff-base"
 # The tz database: zone names in site files and the tests' zones.
 [ -f "${TZDIR:-/usr/share/zoneinfo}/Europe/Berlin" ] || missing="$missing tzdata"
 
