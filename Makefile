@@ -1,6 +1,6 @@
 # sillwatch — hydrostatic screening of hinged flap gates.
 # Targets: all (default), check, bench, install, uninstall, clean,
-#          check-sanitize, check-valgrind, fuzz.  See DEVELOPERS.md.
+#          check-sanitize, check-valgrind, fuzz, dist, distcheck.  See DEVELOPERS.md.
 
 VERSION   := 0.1.0
 PREFIX    ?= /usr/local
@@ -13,16 +13,18 @@ ifneq ($(filter true 1,$(CI) $(WERROR)),)
 WERROR_FLAG := -Werror
 endif
 
-PKGS      := gsl inih nettle
+PKGS      := gsl inih nettle jansson netcdf
 WARN      := -Wall -Wextra -Wpedantic -Wshadow -Wconversion -Wstrict-prototypes \
              -Wmissing-prototypes -Wformat=2
 CFLAGS    ?= -O2 -g
+# CPPFLAGS, CFLAGS and LDFLAGS are the user's (a distribution's hardening
+# flags, say): every compile takes CPPFLAGS and CFLAGS, every link LDFLAGS.
 ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
-             -Iinclude -DSW_VERSION=\"$(VERSION)\" $(CFLAGS) $(EXTRA_CFLAGS) \
+             -Iinclude -DSW_VERSION=\"$(VERSION)\" $(CPPFLAGS) $(CFLAGS) $(EXTRA_CFLAGS) \
              $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 # Recursive (=) so that pkg-config runs after tools/check-deps.sh has
 # installed it on a new machine; the fallbacks are Debian's link lines.
-LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle) -pthread \
+LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson -lnetcdf) -pthread \
              -lcsv -lm $(EXTRA_LDFLAGS)
 TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka)
 
@@ -41,7 +43,7 @@ BENCH_BIN := $(BENCH_SRC:tests/bench/%.c=$(BUILD)/bench/%)
 DEPS_OK   := $(BUILD)/.deps-ok
 
 .PHONY: demo all check bench install uninstall clean check-sanitize check-valgrind check-valgrind-all deps \
-        fuzz fuzz-build
+        fuzz fuzz-build dist distcheck
 
 all: $(PROG)
 
@@ -62,24 +64,39 @@ $(LIB): $(LIB_OBJ)
 	$(AR) rcs $@ $^
 
 $(PROG): $(CLI_OBJ) $(LIB)
-	$(CC) $(ALL_CFLAGS) -o $@ $(CLI_OBJ) $(LIB) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $(CLI_OBJ) $(LIB) $(LDLIBS_ALL)
 
 $(BUILD)/tests/%: tests/unit/%.c tests/unit/testutil.h $(LIB) | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -Itests/unit -o $@ $< $(LIB) $(TEST_LIBS) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -Itests/unit -o $@ $< $(LIB) $(TEST_LIBS) $(LDLIBS_ALL)
 
 $(BUILD)/bench/%: tests/bench/%.c $(LIB) | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -O2 -o $@ $< $(LIB) $(LDLIBS_ALL)
+	$(CC) $(ALL_CFLAGS) -O2 $(LDFLAGS) -o $@ $< $(LIB) $(LDLIBS_ALL)
 
 # The browser test's image reader (tests/browser/pngstat.c, libpng).
 PNGSTAT   := $(BUILD)/tests/pngstat
 $(PNGSTAT): tests/browser/pngstat.c | $(DEPS_OK)
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(shell pkg-config --libs libpng 2>/dev/null || echo -lpng)
 
-check: $(PROG) $(UNIT_BIN) $(PNGSTAT)
-	@tools/run-tests.sh $(BUILD) $(UNIT_BIN)
+# The decimal parser's tests again with x87 arithmetic (FLT_EVAL_METHOD 2,
+# excess precision), where Clinger's fast path must stay off: x86-64 only.
+ifeq ($(shell uname -m),x86_64)
+X87_TEST  := $(BUILD)/tests/test_decimal_x87
+endif
+$(BUILD)/tests/test_decimal_x87: tests/unit/test_decimal.c src/decimal.c tests/unit/testutil.h | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -mfpmath=387 -Itests/unit -o $@ tests/unit/test_decimal.c src/decimal.c $(LDFLAGS) $(TEST_LIBS) -lm $(EXTRA_LDFLAGS)
+
+# The NetCDF cases' file writer (tests/netcdf/mknc.c, netCDF C library).
+MKNC      := $(BUILD)/tests/mknc
+$(MKNC): tests/netcdf/mknc.c | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(shell pkg-config --libs netcdf 2>/dev/null || echo -lnetcdf)
+
+check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT) $(MKNC)
+	@tools/run-tests.sh $(BUILD) $(UNIT_BIN) $(X87_TEST)
 
 bench: $(BENCH_BIN) $(PROG)
 	@for b in $(BENCH_BIN); do echo "== $$b"; $$b || exit 1; done
@@ -106,19 +123,25 @@ check-sanitize:
 # The CLI tests with every program run under valgrind memcheck.
 # The example's and the demo's whole job under valgrind memcheck: any
 # error or leak fails.
-VALGRIND = valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all
-check-valgrind: $(PROG)
+# tools/valgrind.supp: HDF5's own state, kept for the process's life
+# (netCDF initialises it), never sillwatch's.
+VALGRIND = valgrind -q --error-exitcode=99 --leak-check=full --errors-for-leak-kinds=all \
+           --suppressions=$(CURDIR)/tools/valgrind.supp
+check-valgrind: $(PROG) $(MKNC)
 	@rm -rf $(BUILD)/valgrind && mkdir -p $(BUILD)/valgrind
 	$(VALGRIND) $(PROG) check data/example/quillbrook.ini > /dev/null
 	$(VALGRIND) $(PROG) point data/example/quillbrook.ini --headwater 11.62 --tailwater 11.48 > /dev/null; test $$? -le 1
 	$(VALGRIND) $(PROG) run data/example/quillbrook.ini -o $(BUILD)/valgrind --by month --steps -q; test $$? -le 1
 	$(VALGRIND) $(PROG) run data/demo/velloran.ini -o $(BUILD)/valgrind/demo --by month --steps --report -q; test $$? -le 1
 	$(VALGRIND) $(PROG) screen data/demo/velloran-forecast.ini -o $(BUILD)/valgrind/screen -q; test $$? -le 1
+	$(MKNC) forecast $(BUILD)/valgrind/fc.nc
+	sed -n '/^\[site\]/,$$p' tests/cli/netcdf_screen/site-nc.ini > $(BUILD)/valgrind/site-nc.ini
+	$(VALGRIND) $(PROG) screen $(BUILD)/valgrind/site-nc.ini -o $(BUILD)/valgrind/nc --json -q; test $$? -le 1
 	$(VALGRIND) $(PROG) thresholds data/example/quillbrook.ini --headwater 11.4:13.2:0.01 --simplify 0.005 -o $(BUILD)/valgrind/thresholds.csv > /dev/null
 	@echo "check-valgrind: no memory errors, no leaks"
 
 # Every unit test and CLI case under valgrind (slow: tens of minutes).
-check-valgrind-all: $(PROG) $(UNIT_BIN)
+check-valgrind-all: $(PROG) $(UNIT_BIN) $(MKNC) $(PNGSTAT)
 	@SW_WRAPPER="$(VALGRIND)" tools/run-tests.sh $(BUILD) $(UNIT_BIN)
 
 # Fuzzing with libFuzzer (clang's -fsanitize=fuzzer), not part of check:
@@ -175,13 +198,44 @@ fuzz-run-%: $(FUZZ_DIR)/fuzz_%
 	  $(if $(wildcard tests/fuzz/$*.dict),-dict=tests/fuzz/$*.dict) \
 	  $(FUZZ_DIR)/corpus-$*
 
+# The program, its two manual pages and the bash completion script.
+MANDIR    ?= $(PREFIX)/share/man
+BASHCOMPDIR ?= $(PREFIX)/share/bash-completion/completions
 install: $(PROG)
-	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/share/man/man1
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(MANDIR)/man1 \
+	  $(DESTDIR)$(MANDIR)/man5 $(DESTDIR)$(BASHCOMPDIR)
 	install -m 755 $(PROG) $(DESTDIR)$(PREFIX)/bin/sillwatch
-	install -m 644 src/sillwatch.1 $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+	install -m 644 src/sillwatch.1 $(DESTDIR)$(MANDIR)/man1/sillwatch.1
+	install -m 644 src/sillwatch-site.5 $(DESTDIR)$(MANDIR)/man5/sillwatch-site.5
+	install -m 644 completion/sillwatch $(DESTDIR)$(BASHCOMPDIR)/sillwatch
 
 uninstall:
-	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(PREFIX)/share/man/man1/sillwatch.1
+	rm -f $(DESTDIR)$(PREFIX)/bin/sillwatch $(DESTDIR)$(MANDIR)/man1/sillwatch.1 \
+	  $(DESTDIR)$(MANDIR)/man5/sillwatch-site.5 $(DESTDIR)$(BASHCOMPDIR)/sillwatch
+
+# The source tarball sillwatch-VERSION.tar.gz: every file git tracks, as it
+# is in the work tree, under sillwatch-VERSION/; reproducible (sorted names,
+# no owners, every mtime the last commit's or SOURCE_DATE_EPOCH).
+# `make distcheck` unpacks it in $(BUILD)/distcheck and runs `make check`
+# there.  Needs a git checkout.
+DISTNAME  := sillwatch-$(VERSION)
+DISTDIR   ?= .
+dist:
+	@test "$$(git rev-parse --show-toplevel 2>/dev/null)" = "$$(pwd -P)" || \
+	  { echo "make dist: needs a git checkout (it packs what git tracks)" >&2; exit 2; }
+	git ls-files -z | tar --null -T - --sort=name --owner=0 --group=0 \
+	  --numeric-owner --mode='u+rw,go+r,go-w' \
+	  --mtime=@$${SOURCE_DATE_EPOCH:-$$(git log -1 --format=%ct)} \
+	  --transform 's,^,$(DISTNAME)/,S' -cf - | gzip -n -9 > $(DISTDIR)/$(DISTNAME).tar.gz.tmp
+	mv $(DISTDIR)/$(DISTNAME).tar.gz.tmp $(DISTDIR)/$(DISTNAME).tar.gz
+	@echo "wrote $(DISTDIR)/$(DISTNAME).tar.gz"
+
+distcheck:
+	@rm -rf $(BUILD)/distcheck && mkdir -p $(BUILD)/distcheck
+	$(MAKE) dist DISTDIR=$(BUILD)/distcheck
+	cd $(BUILD)/distcheck && tar xzf $(DISTNAME).tar.gz && \
+	  $(MAKE) -C $(DISTNAME) check
+	@echo "distcheck: $(DISTNAME).tar.gz unpacks and passes make check"
 
 clean:
 	rm -rf $(BUILD)

@@ -57,6 +57,11 @@ int sw_cli_usage_error(const char *command, const char *fmt, ...)
  * must be a finite decimal number.  Returns 0 and stores it, or -1. */
 int sw_cli_parse_number(const char *text, double *value);
 
+/* `v`, or +0.0 where `v` would print as a zero with `decimals` digits
+ * after the point (decimals < 0: only where v is a zero), so that no
+ * "-0.0" is printed. */
+double sw_cli_unsigned_zero(double v, int decimals);
+
 /* Create the output folder `dir` if it does not exist.  Returns SW_OK, or
  * SW_EOUTPUT when it cannot be made or exists but is not a folder. */
 int sw_cli_make_outdir(const char *dir, sw_error *err);
@@ -85,10 +90,21 @@ int sw_cli_site_operand(const char *command, int argc, char **argv,
 int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
                        sw_error *err);
 
+/* The site file's SHA-256 for a manifest: "" when it was read from
+ * standard input (SW_SITE_STDIN_NAME), which cannot be read again. */
+struct sw_site;
+int sw_cli_site_sha256(const struct sw_site *site,
+                       char hex[SW_CLI_SHA256_HEX], sw_error *err);
+
 /* The generation time of a report as ISO 8601 UTC into buf[n]:
  * SOURCE_DATE_EPOCH when set (the reproducible-builds convention), else
  * now.  Returns 0, or -1 when SOURCE_DATE_EPOCH is malformed. */
 int sw_cli_generation_time(char *buf, size_t n);
+
+/* Print the version, copyright, licence and warranty lines (as GNU
+ * programs do) to stdout; return SW_EXIT_OK.  `sillwatch --version` and
+ * `sillwatch COMMAND --version` alike. */
+int sw_cli_version(void);
 
 /* The caution printed by --help and the reports. */
 extern const char sw_cli_caution[];

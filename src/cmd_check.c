@@ -7,15 +7,20 @@
 
 #include "cli.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/jsonout.h"
+#include "sillwatch/ncseries.h"
 #include "sillwatch/site.h"
 
 static const char check_help[] =
-    "Usage: sillwatch check SITE.ini\n"
+    "Usage: sillwatch check SITE.ini [--format text|json]\n"
     "Read and validate a site file; print every gate's parameters with\n"
     "their units and the values derived from them (water densities,\n"
     "gravity, sill elevation, sealed area, weight moment).\n"
     "\n"
-    "  -h, --help   show this help and exit\n"
+    "  --format FORMAT text (default), or json: every parameter and\n"
+    "                  derived value, units in the keys\n"
+    "  -h, --help      show this help and exit\n"
+    "      --version   show the version and exit\n"
     "\n"
     "Exit status: 0 valid, 2 usage, 3 invalid site file (the message names\n"
     "file, line and column); see 'sillwatch --help'.\n"
@@ -35,6 +40,19 @@ static void print_series(const sw_site_series *sr)
 {
     printf("\n  [series %s]  (line %ld)\n", sr->name, sr->line);
     printf("    %-20s %s\n", "file", sr->path);
+    if (sr->netcdf) {
+        printf("    %-20s CF-NetCDF (time from its CF time coordinate, "
+               "units from its attributes)\n", "format");
+        printf("    %-20s %s\n", "variable", sr->variable);
+        printf("    %-20s %s\n", "station",
+               sr->station[0] ? sr->station : "(the file's only one)");
+        printf("    %-20s %s\n", "member_dimension",
+               sr->member_dim[0] ? sr->member_dim
+                                 : "realization, else member");
+        printf("    %-20s %+.4f m (gauge zero above datum)\n", "offset",
+               sr->offset_m);
+        return;
+    }
     printf("    %-20s %s (%s)\n", "time_column", sr->time_column,
            sr->time_format == SW_TIME_UNIX ? "Unix seconds" : "ISO 8601");
     printf("    %-20s %s\n", "value_column", sr->value_column);
@@ -52,7 +70,7 @@ static void print_series(const sw_site_series *sr)
 
 static void row(const char *key, double v, const char *unit)
 {
-    printf("    %-20s %14.4f  %s\n", key, v, unit);
+    printf("    %-20s %14.4f  %s\n", key, sw_cli_unsigned_zero(v, 4), unit);
 }
 
 static void print_gate(const sw_site_gate *sg)
@@ -160,6 +178,37 @@ static int check_members(const sw_site *site, const sw_site_series *s,
     return rc;
 }
 
+/* The members of a NetCDF series along its member dimension, each read
+ * as its own column; a variable without one is one column. */
+static int check_nc_members(const sw_site *site, const sw_site_series *s,
+                            sw_error *err)
+{
+    char **labels = NULL, **cols = NULL;
+    size_t n = 0;
+    int rc = sw_nc_members(s->path, s->variable, s->member_dim, &labels,
+                           &cols, &n, err);
+
+    if (rc != SW_OK) {
+        sw_error was = *err;
+        return sw_error_set(err, rc, was.file[0] ? was.file : NULL, was.line,
+                            was.column, "series %s: %s", s->name,
+                            was.message);
+    }
+    if (n == 0)
+        rc = check_column(site, s, s->name, err);
+    for (size_t k = 0; k < n && rc == SW_OK; k++) {
+        sw_site_series member = *s;
+        char label[2 * SW_SITE_NAME_MAX + 8];
+        snprintf(member.value_column, sizeof member.value_column, "%s",
+                 cols[k]);
+        snprintf(label, sizeof label, "%s#%s", s->name, labels[k]);
+        rc = check_column(site, &member, label, err);
+    }
+    sw_csv_header_free(labels, n);
+    sw_csv_header_free(cols, n);
+    return rc;
+}
+
 /* Read each series file: a missing file or column makes the site invalid
  * (it could not be replayed); a file that cannot be read to the end is
  * warned of; levels outside the plausible band of their gates are warned
@@ -168,7 +217,8 @@ static int check_series(const sw_site *site, sw_error *err)
 {
     for (size_t i = 0; i < site->n_series; i++) {
         const sw_site_series *s = &site->series[i];
-        int rc = strchr(s->value_column, '*') != NULL
+        int rc = s->netcdf ? check_nc_members(site, s, err)
+                 : strchr(s->value_column, '*') != NULL
                      ? check_members(site, s, err)
                      : check_column(site, s, s->name, err);
         if (rc != SW_OK)
@@ -196,15 +246,27 @@ static void warn_masses(const sw_site *site)
 int sw_cmd_check(int argc, char **argv)
 {
     static const struct option opts[] = {
+        {"format", required_argument, NULL, 'f'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     sw_site site;
     sw_error err;
-    int opt;
+    int opt, json = 0;
 
     opterr = 0;
     while ((opt = getopt_long(argc, argv, "h", opts, NULL)) != -1) {
+        if (opt == 'V')
+            return sw_cli_version();
+        if (opt == 'f') {
+            if (strcmp(optarg, "json") != 0 && strcmp(optarg, "text") != 0)
+                return sw_cli_usage_error(
+                    "check", "--format: '%s' is not one of text, json",
+                    optarg);
+            json = strcmp(optarg, "json") == 0;
+            continue;
+        }
         if (opt == 'h') {
             fputs(check_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -225,6 +287,22 @@ int sw_cmd_check(int argc, char **argv)
         return sw_cli_report(&err);
     }
     warn_masses(&site);
+    if (json) {
+        json_t *doc = sw_json_site(&site);
+        int bad = 0;
+        sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+        sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+        int rc = sw_json_write(bad ? NULL : doc, stdout, &err);
+        json_decref(doc);
+        sw_site_fini(&site);
+        if (rc != SW_OK)
+            return sw_cli_report(&err);
+        if (fflush(stdout) != 0 || ferror(stdout)) {
+            fprintf(stderr, "sillwatch: check: could not write the output\n");
+            return SW_EXIT_OUTPUT;
+        }
+        return SW_EXIT_OK;
+    }
 
     printf("site '%s' (%s): valid, %zu gate%s\n", site.name, site.path,
            site.n_gates, site.n_gates == 1 ? "" : "s");

@@ -7,12 +7,14 @@
 #include <string.h>
 
 #include "cli.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/site.h"
 
 static const char point_help[] =
     "Usage: sillwatch point SITE.ini --headwater LEVEL --tailwater LEVEL\n"
-    "                       [--gate NAME]... [--format text|csv]\n"
+    "                       [--gate NAME]... [--format text|csv|json]\n"
     "Evaluate the hydrostatic hinge moments of the site's gates at one pair\n"
     "of water levels (elevations in m above the site datum).\n"
     "\n"
@@ -20,8 +22,10 @@ static const char point_help[] =
     "  --tailwater LEVEL   downstream (backing) water level, m\n"
     "  --gate NAME         only this gate (repeatable; default: every gate)\n"
     "  --format FORMAT     text (default): the full hand-check;\n"
-    "                      csv: one row per gate (units m, N, N*m)\n"
+    "                      csv: one row per gate (units m, N, N*m);\n"
+    "                      json: every load and value, units in the keys\n"
     "  -h, --help          show this help and exit\n"
+    "      --version       show the version and exit\n"
     "\n"
     "The factor of safety is on each gate's fs_basis (site file): net, the\n"
     "default, is the leaf's own restraint R = weight - buoyancy + extra\n"
@@ -38,11 +42,13 @@ static void print_load(const char *what, double force, double s, double z,
 {
     if (force == 0.0) {
         printf("  %-22s %14s %10s %10s %10s %15.1f\n", what, "0.0", "-", "-",
-               "-", moment);
+               "-", sw_cli_unsigned_zero(moment, 1));
         return;
     }
-    printf("  %-22s %14.1f %10.3f %10.3f %10.3f %15.1f\n", what, force, s, z,
-           arm, moment);
+    printf("  %-22s %14.1f %10.3f %10.3f %10.3f %15.1f\n", what,
+           sw_cli_unsigned_zero(force, 1), sw_cli_unsigned_zero(s, 3),
+           sw_cli_unsigned_zero(z, 3), sw_cli_unsigned_zero(arm, 3),
+           sw_cli_unsigned_zero(moment, 1));
 }
 
 static void format_crit(char *buf, size_t n, const sw_crit *c, int headwater)
@@ -129,18 +135,20 @@ static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
                g->hinge_level_m - b_s * g->sin_a, r->buoyancy_arm_m,
                -r->buoyancy_moment_Nm);
     printf("  %-22s %14s %10s %10s %10s %15.1f\n", "extra moment", "", "", "",
-           "", r->extra_moment_Nm);
+           "", sw_cli_unsigned_zero(r->extra_moment_Nm, 1));
     printf("  (moments + hold the leaf shut, - open it; water forces act "
            "normal to the leaf,\n   so their arm is s; weight and buoyancy "
            "act vertically, so theirs is horizontal)\n\n");
-    printf("  resisting moment Mr   %15.1f N*m\n", r->resisting_moment_Nm);
+    printf("  resisting moment Mr   %15.1f N*m\n",
+           sw_cli_unsigned_zero(r->resisting_moment_Nm, 1));
     printf("  driving moment        %15.1f N*m (headwater)\n",
-           r->hw_moment_Nm);
-    printf("  net moment            %15.1f N*m\n", r->net_moment_Nm);
+           sw_cli_unsigned_zero(r->hw_moment_Nm, 1));
+    printf("  net moment            %15.1f N*m\n",
+           sw_cli_unsigned_zero(r->net_moment_Nm, 1));
     printf("  leaf's restraint R    %15.1f N*m (weight - buoyancy + extra)\n",
-           r->restraint_Nm);
+           sw_cli_unsigned_zero(r->restraint_Nm, 1));
     printf("  net water moment D    %15.1f N*m (headwater - tailwater)\n",
-           r->net_water_moment_Nm);
+           sw_cli_unsigned_zero(r->net_water_moment_Nm, 1));
     if (isinf(r->fs))
         printf("  factor of safety      %15s     (required %.2f; %s)\n",
                r->fs > 0 ? "infinite" : "-infinite", g->required_fs,
@@ -149,7 +157,7 @@ static void print_text(const sw_site_gate *sg, const sw_gate_result *r,
         printf("  factor of safety      %15.3f     (required %.2f; %s)\n",
                r->fs, g->required_fs, sw_fs_basis_phrase(g->fs_basis));
     printf("  sill reaction         %15.1f N   (minimum %.1f N)\n",
-           r->sill_reaction_N, g->min_sill_reaction_N);
+           sw_cli_unsigned_zero(r->sill_reaction_N, 1), g->min_sill_reaction_N);
     printf("  state                 %s\n", state_words(r->state));
     format_crit(buf[0], sizeof buf[0], &c->tw_alarm, 0);
     format_crit(buf[1], sizeof buf[1], &c->tw_open, 0);
@@ -170,13 +178,13 @@ static void csv_number(double v)
     if (isinf(v))
         fputs(v > 0 ? "inf" : "-inf", stdout);
     else
-        printf("%.12g", v);
+        printf("%.12g", sw_cli_unsigned_zero(v, -1));
 }
 
 static void csv_crit(const sw_crit *c)
 {
     if (c->kind == SW_CRIT_LEVEL)
-        printf("%.12g", c->level_m);
+        printf("%.12g", sw_cli_unsigned_zero(c->level_m, -1));
 }
 
 static void print_csv_row(const sw_gate *g, const sw_gate_result *r,
@@ -188,7 +196,7 @@ static void print_csv_row(const sw_gate *g, const sw_gate_result *r,
                         r->weight_moment_Nm,  r->buoyancy_moment_Nm,
                         r->extra_moment_Nm,   r->net_moment_Nm,
                         r->fs,                r->sill_reaction_N};
-    fputs(g->name, stdout);
+    sw_csv_put_field(stdout, g->name);
     for (size_t i = 0; i < sizeof v / sizeof v[0]; i++) {
         putchar(',');
         csv_number(v[i]);
@@ -208,12 +216,15 @@ int sw_cmd_point(int argc, char **argv)
         {"gate", required_argument, NULL, 'g'},
         {"format", required_argument, NULL, 'f'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     const char *gates[64];
     size_t n_named = 0;
     double hw = NAN, tw = NAN;
-    int csv = 0, opt, worst = SW_STATE_OK, rc;
+    int csv = 0, json = 0, opt, worst = SW_STATE_OK, rc;
+    json_t *doc = NULL, *jgates = NULL;
+    int bad = 0;
     sw_site site;
     sw_error err;
 
@@ -234,13 +245,18 @@ int sw_cmd_point(int argc, char **argv)
             break;
         case 'f':
             if (strcmp(optarg, "csv") == 0)
-                csv = 1;
+                csv = 1, json = 0;
             else if (strcmp(optarg, "text") == 0)
-                csv = 0;
+                csv = 0, json = 0;
+            else if (strcmp(optarg, "json") == 0)
+                csv = 0, json = 1;
             else
                 return sw_cli_usage_error(
-                    "point", "--format: '%s' is not one of text, csv", optarg);
+                    "point", "--format: '%s' is not one of text, csv, json",
+                    optarg);
             break;
+        case 'V':
+            return sw_cli_version();
         case 'h':
             fputs(point_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -275,7 +291,23 @@ int sw_cmd_point(int argc, char **argv)
             return SW_EXIT_USAGE;
         }
 
-    if (csv)
+    if (json) {
+        doc = json_object();
+        jgates = json_array();
+        sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+        sw_json_set(doc, "site", json_string(site.name), &bad);
+        sw_json_set(doc, "site_file", json_string(site.path), &bad);
+        sw_json_set(doc, "gravity_ms2", sw_json_number(site.g_ms2), &bad);
+        sw_json_set(doc, "density_upstream_kgm3",
+                    sw_json_number(site.water[SW_UPSTREAM].rho_kgm3), &bad);
+        sw_json_set(doc, "density_downstream_kgm3",
+                    sw_json_number(site.water[SW_DOWNSTREAM].rho_kgm3), &bad);
+        sw_json_set(doc, "headwater_m", sw_json_number(hw), &bad);
+        sw_json_set(doc, "tailwater_m", sw_json_number(tw), &bad);
+        if (jgates != NULL)
+            json_incref(jgates);
+        sw_json_set(doc, "gates", jgates, &bad);
+    } else if (csv)
         puts("gate,headwater,tailwater,hw_force,hw_moment,tw_force,tw_moment,"
              "weight_moment,buoyancy_moment,extra_moment,net_moment,fs,"
              "sill_reaction,status,tw_alarm,tw_open");
@@ -298,18 +330,38 @@ int sw_cmd_point(int argc, char **argv)
         crit_set c;
         sw_gate_evaluate(&sg->gate, hw, tw, &r);
         if ((rc = find_crits(&sg->gate, hw, tw, &c, &err)) != SW_OK) {
+            json_decref(jgates);
+            json_decref(doc);
             sw_site_fini(&site);
             return sw_cli_report(&err);
         }
         if ((int)r.state > worst)
             worst = (int)r.state;
-        if (csv)
+        if (json) {
+            if (jgates == NULL ||
+                json_array_append_new(
+                    jgates, sw_json_point_gate(&sg->gate, &r, &c.tw_alarm,
+                                               &c.tw_open, &c.hw_alarm,
+                                               &c.hw_open)) != 0)
+                bad = 1;
+        } else if (csv) {
             print_csv_row(&sg->gate, &r, &c);
-        else
+        } else {
             print_text(sg, &r, &c);
+        }
     }
-    if (!csv)
+    if (json) {
+        sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+        rc = sw_json_write(bad ? NULL : doc, stdout, &err);
+        json_decref(jgates);
+        json_decref(doc);
+        if (rc != SW_OK) {
+            sw_site_fini(&site);
+            return sw_cli_report(&err);
+        }
+    } else if (!csv) {
         fputs(sw_cli_caution, stdout);
+    }
     sw_site_fini(&site);
     if (fflush(stdout) != 0 || ferror(stdout)) {
         fprintf(stderr, "sillwatch: point: could not write the output\n");

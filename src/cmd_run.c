@@ -13,6 +13,7 @@
 #include "cli.h"
 #include "sillwatch/cancel.h"
 #include "sillwatch/htmlreport.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/site.h"
@@ -20,7 +21,8 @@
 
 static const char run_help[] =
     "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
-    "                     [--steps] [--by month] [--report] [--quiet]\n"
+    "                     [--steps] [--by month] [--report] [--json]\n"
+    "                     [--quiet]\n"
     "Replay the level series named in the site file through every gate and\n"
     "write, in OUTDIR (created if missing):\n"
     "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
@@ -33,6 +35,8 @@ static const char run_help[] =
     "  months.csv    with --by month: the summary per calendar month\n"
     "  report.html   with --report: the season report, one page with\n"
     "                charts and tables, to open, print or attach\n"
+    "  summary.json  with --json: summary.csv for scripts (numbers as\n"
+    "                numbers)\n"
     "  manifest.csv  written last: each file's size and SHA-256; a folder\n"
     "                without it holds no complete set\n"
     "The files are put in place as one set: a failed or interrupted run\n"
@@ -44,23 +48,27 @@ static const char run_help[] =
     "  --steps                write steps.csv\n"
     "  --by month             write months.csv\n"
     "  --report               write report.html\n"
+    "  --json                 write summary.json\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
+    "      --version          show the version and exit\n"
     "\n"
     "Exit status: 0 every gate held its margin, 1 some gate was low or open,\n"
     "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_SUMMARY, OUT_EVENTS, OUT_FLAGS, OUT_STEPS, OUT_MONTHS, OUT_REPORT,
-       N_OUT };
+enum {
+    OUT_SUMMARY, OUT_EVENTS, OUT_FLAGS, OUT_STEPS, OUT_MONTHS, OUT_REPORT,
+    OUT_JSON, N_OUT
+};
 static const char *const out_names[N_OUT] = {
-    "summary.csv", "events.csv", "flags.csv", "steps.csv", "months.csv",
-    "report.html"};
+    "summary.csv", "events.csv",  "flags.csv",   "steps.csv",
+    "months.csv",  "report.html", "summary.json"};
 
 typedef struct run_opts {
     const char *site_path, *outdir;
-    int steps, by_month, report, quiet;
+    int steps, by_month, report, json, quiet;
     const char *series[64];
     size_t n_series;
 } run_opts;
@@ -71,10 +79,12 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"output", required_argument, NULL, 'o'},
         {"series", required_argument, NULL, 's'},
         {"steps", no_argument, NULL, 'S'},
+        {"json", no_argument, NULL, 'J'},
         {"by", required_argument, NULL, 'b'},
         {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     int opt, rc;
@@ -95,6 +105,9 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'S':
             o->steps = 1;
             break;
+        case 'J':
+            o->json = 1;
+            break;
         case 'b':
             if (strcmp(optarg, "month") != 0)
                 return sw_cli_usage_error("run", "--by: '%s' is not 'month'",
@@ -107,6 +120,9 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(run_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -115,7 +131,13 @@ static int parse_args(int argc, char **argv, run_opts *o)
             return sw_cli_option_error("run", opt, argv);
         }
     }
-    return sw_cli_site_operand("run", argc, argv, o->outdir, &o->site_path);
+    rc = sw_cli_site_operand("run", argc, argv, o->outdir,
+                             &o->site_path);
+    if (rc == 0 && o->report && strcmp(o->site_path, "-") == 0)
+        return sw_cli_usage_error("run", "--report records the site file's "
+                                         "SHA-256: give the site file by "
+                                         "name, not '-'");
+    return rc;
 }
 
 static void print_summary(const sw_site *site, const sw_stepper *st)
@@ -386,6 +408,35 @@ static int run_interrupted(const char *outdir)
     return sw_cli_interrupted("run", what);
 }
 
+/* summary.json: the rows of summary.csv, numbers as numbers (jsonout.h). */
+static int write_json(FILE *fp, const sw_site *site, const sw_stepper *st,
+                      sw_time_ms t0, sw_time_ms t1, sw_error *err)
+{
+    int bad = 0, rc;
+    json_t *doc = json_object(), *rows = json_array();
+
+    for (size_t i = 0; i < site->n_gates && rows != NULL; i++) {
+        const sw_gate *g = &site->gates[i].gate;
+        json_t *row = sw_json_summary_row(g->name, t0, t1,
+                                          sw_stepper_tally(st, i), site->zone);
+        /* min_fs is on this basis */
+        sw_json_set(row, "fs_basis", json_string(sw_fs_basis_name(g->fs_basis)),
+                    &bad);
+        if (json_array_append_new(rows, row) != 0)
+            bad = 1;
+    }
+    sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+    sw_json_set(doc, "site", json_string(site->name), &bad);
+    sw_json_set(doc, "site_file", json_string(site->path), &bad);
+    sw_json_set(doc, "start", sw_json_time(t0, site->zone), &bad);
+    sw_json_set(doc, "end", sw_json_time(t1, site->zone), &bad);
+    sw_json_set(doc, "gates", rows, &bad);
+    sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+    rc = sw_json_write(bad ? NULL : doc, fp, err);
+    json_decref(doc);
+    return rc;
+}
+
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
@@ -425,7 +476,7 @@ int sw_cmd_run(int argc, char **argv)
         goto fail;
     for (int k = 0; k < N_OUT; k++) {
         if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
-            (k == OUT_REPORT && !o.report))
+            (k == OUT_REPORT && !o.report) || (k == OUT_JSON && !o.json))
             continue;
         if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
             SW_OK)
@@ -479,9 +530,12 @@ int sw_cmd_run(int argc, char **argv)
         for (size_t i = 0; i < site.n_gates; i++)
             sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
                                   t0, t1, sw_stepper_tally(st, i), site.zone);
+        if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, st, t0, t1,
+                                       &err)) != SW_OK)
+            goto fail;
     }
     char sha[SW_CLI_SHA256_HEX], when[32];
-    if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK)
+    if ((rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK)
         goto fail;
     if (sw_cli_generation_time(when, sizeof when) != 0)
         snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
@@ -549,10 +603,11 @@ int sw_cmd_run(int argc, char **argv)
     if (!o.quiet) {
         print_summary(&site, st);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s, "
+        printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s%s, "
                "manifest.csv\n", o.outdir,
                o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
-               o.report ? ", report.html" : "");
+               o.report ? ", report.html" : "",
+               o.json ? ", summary.json" : "");
         fputs(sw_cli_caution, stdout);
     }
     sw_html_report_free(rep);

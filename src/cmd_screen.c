@@ -11,7 +11,9 @@
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/ensemble.h"
+#include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/series.h"
@@ -20,7 +22,7 @@
 
 static const char screen_help[] =
     "Usage: sillwatch screen SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
-    "                        [--issued TIME] [--quiet]\n"
+    "                        [--issued TIME] [--json] [--quiet]\n"
     "Screen forecast levels through every gate with the model and stepping\n"
     "of 'run'.  A series whose value_column holds a '*' (tw_*) is an\n"
     "ensemble: each matching column is a member, and each gate is replayed\n"
@@ -38,13 +40,17 @@ static const char screen_help[] =
     "  required_max.csv  their maxima and when they occur\n"
     "  flags.csv      readings of the member series that failed a quality\n"
     "                 test of their series (removed)\n"
+    "  screen.json   with --json: screen.csv for scripts (numbers as\n"
+    "                numbers)\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE\n"
     "  --issued TIME          ISO 8601 time the forecast was issued (lead\n"
     "                         times count from it; default: its first time)\n"
+    "  --json                 write screen.json\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
+    "      --version          show the version and exit\n"
     "\n"
     "  manifest.csv   written last: each file's size and SHA-256; the\n"
     "                 files are put in place as one set, or not at all\n"
@@ -54,15 +60,17 @@ static const char screen_help[] =
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
-enum { OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_FLAGS,
-       N_OUT };
+enum {
+    OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_FLAGS,
+    OUT_JSON, N_OUT
+};
 static const char *const out_names[N_OUT] = {
     "forecast.csv", "screen.csv", "required.csv", "required_max.csv",
-    "flags.csv"};
+    "flags.csv", "screen.json"};
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
-    int quiet;
+    int quiet, json;
     const char *series[64];
     size_t n_series;
 } screen_opts;
@@ -74,7 +82,9 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"series", required_argument, NULL, 's'},
         {"issued", required_argument, NULL, 'i'},
         {"quiet", no_argument, NULL, 'q'},
+        {"json", no_argument, NULL, 'J'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     int opt, rc;
@@ -98,6 +108,12 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'J':
+            o->json = 1;
+            break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(screen_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -225,7 +241,9 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
             if (k == 0)
                 continue;
             put_time(fp, sw_stepper_time(st), site->zone);
-            fprintf(fp, ",%s,%zu,%.4f,%.4f", site->gates[g].gate.name, k,
+            fputc(',', fp);
+            sw_csv_put_field(fp, site->gates[g].gate.name);
+            fprintf(fp, ",%zu,%.4f,%.4f", k,
                     (double)low / (double)k, (double)open / (double)k);
             const double p[3] = {0.1, 0.5, 0.9};
             for (int i = 0; i < 3; i++) {
@@ -306,7 +324,11 @@ static int required_step(FILE *fp, const sw_site *site, const sw_gate *g,
             SW_OK)
         return rc;
     put_time(fp, t, site->zone);
-    fprintf(fp, ",%s,%s,%.4f,", g->name, sr->name, hw);
+    fputc(',', fp);
+    sw_csv_put_field(fp, g->name);
+    fputc(',', fp);
+    sw_csv_put_field(fp, sr->name);
+    fprintf(fp, ",%.4f,", hw);
     for (int i = 0; i < 2; i++) {
         if (c[i].kind == SW_CRIT_LEVEL) {
             fprintf(fp, "%.4f", c[i].level_m);
@@ -375,8 +397,10 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
     for (size_t s = 0; s < ens->n_hw_series && rc == SW_OK; s++) {
         const sw_site_series *sr = &ens->hw_series[s];
         const sw_gate *g = &site->gates[ens->hw_series_gate[s]].gate;
-        sw_reader_config cfg = {sr->path, sr->time_column, sr->time_format,
-                                sr->delimiter, site->zone};
+        sw_reader_config cfg = {sr->path,         sr->time_column,
+                                sr->time_format,  sr->delimiter,
+                                site->zone,       sr->netcdf,
+                                sr->station,      sr->member_dim};
         sw_column_config col;
         sw_reader *rd = NULL;
         sw_qc *qc = NULL;
@@ -385,9 +409,7 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         char fbuf[2 * SW_SITE_NAME_MAX + 2];
         const char *fname = flag_name(site, ens, s, fbuf, sizeof fbuf);
         required_max m = {{-INFINITY, -INFINITY}, {0, 0}, {0, 0}};
-        double *max = m.max;
-        sw_time_ms *when = m.when;
-        int *seen = m.seen, has_row = 1;
+        int has_row = 1;
 
         memset(&col, 0, sizeof col);
         col.name = sr->value_column;
@@ -429,11 +451,14 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         sw_reader_free(rd);
         if (rc != SW_OK)
             break;
-        fprintf(mx, "%s,%s,", g->name, sr->name);
+        sw_csv_put_field(mx, g->name);
+        fputc(',', mx);
+        sw_csv_put_field(mx, sr->name);
+        fputc(',', mx);
         for (int i = 0; i < 2; i++) {
-            if (seen[i]) {
-                fprintf(mx, "%.4f,", max[i]);
-                put_time(mx, when[i], site->zone);
+            if (m.seen[i]) {
+                fprintf(mx, "%.4f,", m.max[i]);
+                put_time(mx, m.when[i], site->zone);
             } else {
                 fputc(',', mx); /* not needed at any step */
             }
@@ -442,19 +467,73 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         if (!quiet) {
             char a[64] = "not needed", b[64] = "not needed", ta[64] = "",
                  tb[64] = "";
-            if (seen[0]) {
-                snprintf(a, sizeof a, "%.3f m", max[0]);
-                sw_time_format(ta, sizeof ta, when[0], site->zone);
+            if (m.seen[0]) {
+                snprintf(a, sizeof a, "%.3f m", m.max[0]);
+                sw_time_format(ta, sizeof ta, m.when[0], site->zone);
             }
-            if (seen[1]) {
-                snprintf(b, sizeof b, "%.3f m", max[1]);
-                sw_time_format(tb, sizeof tb, when[1], site->zone);
+            if (m.seen[1]) {
+                snprintf(b, sizeof b, "%.3f m", m.max[1]);
+                sw_time_format(tb, sizeof tb, m.when[1], site->zone);
             }
             printf("  %-10s %-8s  tw_alarm max %-11s %-26s  tw_open max "
                    "%-11s %s\n",
                    g->name, sr->name[0] ? sr->name : "-", a, ta, b, tb);
         }
     }
+    return rc;
+}
+
+/* screen.json: the rows of screen.csv, numbers as numbers (jsonout.h). */
+static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
+                      size_t n_v, sw_time_ms issued, sw_error *err)
+{
+    int bad = 0, rc;
+    json_t *doc = json_object(), *rows = json_array();
+
+    for (size_t i = 0; i < n_v && rows != NULL; i++) {
+        const verdict *v = &vd[i];
+        json_t *r = json_object();
+        const sw_gate *g = &site->gates[v->gate].gate;
+        sw_json_set(r, "gate", json_string(g->name), &bad);
+        /* below the margin: on this basis */
+        sw_json_set(r, "fs_basis", json_string(sw_fs_basis_name(g->fs_basis)),
+                    &bad);
+        sw_json_set(r, "members", json_integer((json_int_t)v->members), &bad);
+        sw_json_set(r, "low_first_time",
+                    v->low_seen ? sw_json_time(v->low_first, site->zone)
+                                : json_null(),
+                    &bad);
+        sw_json_set(r, "low_lead_hours",
+                    v->low_seen ? sw_json_hours(v->low_first - issued)
+                                : json_null(),
+                    &bad);
+        sw_json_set(r, "low_members",
+                    json_integer((json_int_t)v->low_members), &bad);
+        sw_json_set(r, "low_median_hours", sw_json_hours(v->low_median),
+                    &bad);
+        sw_json_set(r, "open_first_time",
+                    v->open_seen ? sw_json_time(v->open_first, site->zone)
+                                 : json_null(),
+                    &bad);
+        sw_json_set(r, "open_lead_hours",
+                    v->open_seen ? sw_json_hours(v->open_first - issued)
+                                 : json_null(),
+                    &bad);
+        sw_json_set(r, "open_members",
+                    json_integer((json_int_t)v->open_members), &bad);
+        sw_json_set(r, "open_median_hours", sw_json_hours(v->open_median),
+                    &bad);
+        if (json_array_append_new(rows, r) != 0)
+            bad = 1;
+    }
+    sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+    sw_json_set(doc, "site", json_string(site->name), &bad);
+    sw_json_set(doc, "site_file", json_string(site->path), &bad);
+    sw_json_set(doc, "issued", sw_json_time(issued, site->zone), &bad);
+    sw_json_set(doc, "gates", rows, &bad);
+    sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+    rc = sw_json_write(bad ? NULL : doc, fp, err);
+    json_decref(doc);
     return rc;
 }
 
@@ -509,8 +588,9 @@ int sw_cmd_screen(int argc, char **argv)
         (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
     for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
-            SW_OK)
+        if ((k != OUT_JSON || o.json) &&
+            (rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
+                SW_OK)
             goto fail;
     vd = calloc(site.n_gates ? site.n_gates : 1, sizeof *vd);
     if (vd == NULL) {
@@ -541,7 +621,8 @@ int sw_cmd_screen(int argc, char **argv)
     qsort(vd, n_v, sizeof *vd, cmp_verdict);
     for (size_t i = 0; i < n_v; i++) {
         const verdict *v = &vd[i];
-        fprintf(sc, "%s,%zu,", site.gates[v->gate].gate.name, v->members);
+        sw_csv_put_field(sc, site.gates[v->gate].gate.name);
+        fprintf(sc, ",%zu,", v->members);
         if (v->low_seen) {
             put_time(sc, v->low_first, site.zone);
             fputc(',', sc);
@@ -566,13 +647,16 @@ int sw_cmd_screen(int argc, char **argv)
             exit_code = SW_EXIT_BELOW;
     }
 
+    if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, vd, n_v, issued,
+                                   &err)) != SW_OK)
+        goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
     {
         char sha[SW_CLI_SHA256_HEX], when[32];
         sw_outset_meta mm = {SW_VERSION, sha, when};
-        if ((rc = sw_cli_sha256_file(site.path, sha, &err)) != SW_OK ||
+        if ((rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK ||
             (rc = sw_cancel_check(&err)) != SW_OK)
             goto fail;
         if (sw_cli_generation_time(when, sizeof when) != 0)
@@ -615,7 +699,8 @@ int sw_cmd_screen(int argc, char **argv)
     if (!o.quiet) {
         sw_cli_print_fs_basis(&site);
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv, flags.csv, manifest.csv\n", o.outdir);
+               "required_max.csv, flags.csv%s, manifest.csv\n", o.outdir,
+               o.json ? ", screen.json" : "");
         fputs(sw_cli_caution, stdout);
     }
     free(vd);

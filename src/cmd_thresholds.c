@@ -12,6 +12,7 @@
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
 #include "sillwatch/thresholds.h"
@@ -37,12 +38,14 @@ static const char thresholds_help[] =
     "                            leaf, and governs\n"
     "  --gate NAME               only this gate (repeatable; default: every\n"
     "                            gate)\n"
-    "  --simplify TOL            instead of every level, the fewest\n"
-    "                            breakpoints found whose linear\n"
+    "  --simplify TOL            instead of every level, breakpoints chosen\n"
+    "                            greedily (not proven minimal) whose linear\n"
     "                            interpolation stays within TOL m (at least\n"
     "                            0.0005) of every exact curve\n"
-    "  -o, --output FILE         the CSV file, written whole or not at all\n"
+    "  -o, --output FILE         the CSV file, written whole or not at all;\n"
+    "                            '-' for standard output\n"
     "  -h, --help                show this help and exit\n"
+    "      --version             show the version and exit\n"
     "\n"
     "FROM, TO and STEP are plain decimals with at most 4 decimals (m);\n"
     "STEP > 0, TO >= FROM, at most 1000000 levels.  The file starts with a\n"
@@ -75,6 +78,7 @@ static int parse_args(int argc, char **argv, thr_opts *o)
         {"simplify", required_argument, NULL, 's'},
         {"output", required_argument, NULL, 'o'},
         {"help", no_argument, NULL, 'h'},
+        {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     const char *range_opt = NULL;
@@ -125,6 +129,9 @@ static int parse_args(int argc, char **argv, thr_opts *o)
         case 'o':
             o->output = optarg;
             break;
+        case 'V':
+            sw_cli_version();
+            return -1;
         case 'h':
             fputs(thresholds_help, stdout);
             fputs(sw_cli_caution, stdout);
@@ -145,6 +152,11 @@ static int parse_args(int argc, char **argv, thr_opts *o)
                                                    "%d",
                                   argc - optind);
     o->site_path = argv[optind];
+    if (strcmp(o->site_path, "-") == 0)
+        return sw_cli_usage_error("thresholds",
+                                  "the site file cannot be standard input "
+                                  "here: the table records its SHA-256; "
+                                  "give its name");
     if (!o->have_range)
         return sw_cli_usage_error("thresholds",
                                   "give the levels with --headwater "
@@ -215,16 +227,26 @@ static void put_crit(FILE *fp, const sw_crit *c)
         fputs("none", fp);
 }
 
+/* A column's name, "tw_alarm_m[west]" or "tw_alarm_m", into buf[n]. */
+static void curve_name(char *buf, size_t n, const thr_opts *o,
+                       const sw_gate *const *gates, size_t n_gates,
+                       size_t curve)
+{
+    names nm = names_of(o->axis);
+    if (curve < 2 * n_gates)
+        snprintf(buf, n, "%s_%s_m[%s]", nm.value, limit_name[curve % 2],
+                 gates[curve / 2]->name);
+    else
+        snprintf(buf, n, "%s_%s_m", nm.value, limit_name[curve - 2 * n_gates]);
+}
+
 static void put_curve_name(FILE *fp, const thr_opts *o,
                            const sw_gate *const *gates, size_t n_gates,
                            size_t curve)
 {
-    names nm = names_of(o->axis);
-    if (curve < 2 * n_gates)
-        fprintf(fp, "%s_%s_m[%s]", nm.value, limit_name[curve % 2],
-                gates[curve / 2]->name);
-    else
-        fprintf(fp, "%s_%s_m", nm.value, limit_name[curve - 2 * n_gates]);
+    char buf[SW_SITE_NAME_MAX + 32];
+    curve_name(buf, sizeof buf, o, gates, n_gates, curve);
+    fputs(buf, fp);
 }
 
 static void put_step_value(FILE *fp, const thr_opts *o, double v)
@@ -328,8 +350,10 @@ static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
 
     fprintf(fp, "%s_m", nm.level);
     for (size_t c = 0; c < 2 * n_gates; c++) {
+        char buf[SW_SITE_NAME_MAX + 32];
         fputc(',', fp);
-        put_curve_name(fp, o, gates, n_gates, c);
+        curve_name(buf, sizeof buf, o, gates, n_gates, c);
+        sw_csv_put_field(fp, buf);
     }
     for (int k = 0; k < SW_THRESHOLDS_N_LIMITS; k++)
         fprintf(fp, ",%s_%s_m,%s_%s_gate", nm.value, limit_name[k], nm.value,
@@ -350,7 +374,7 @@ static void write_row(FILE *fp, const sw_thresholds_row *row,
         put_crit(fp, &row->governing[k]);
         fputc(',', fp);
         if (row->governing_gate[k] != SW_THRESHOLDS_NO_GATE)
-            fputs(gates[row->governing_gate[k]]->name, fp);
+            sw_csv_put_field(fp, gates[row->governing_gate[k]]->name);
     }
     fputc('\n', fp);
 }
@@ -367,14 +391,16 @@ int sw_cmd_thresholds(int argc, char **argv)
     size_t n_gates = 0;
     char dir[SW_ERROR_PATH_MAX], sha[SW_CLI_SHA256_HEX];
     char sha_after[sizeof sha], when[32];
-    const char *name;
+    const char *name = NULL;
     int rc;
 
     memset(&out, 0, sizeof out);
     memset(&site, 0, sizeof site);
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
-    if (split_path(o.output, dir, sizeof dir, &name) != 0)
+    const int to_stdout = strcmp(o.output, "-") == 0;
+    FILE *msg = to_stdout ? stderr : stdout; /* stdout holds the table */
+    if (!to_stdout && split_path(o.output, dir, sizeof dir, &name) != 0)
         return sw_cli_usage_error("thresholds",
                                   "-o: '%s' does not name a file", o.output);
     if (sw_cli_generation_time(when, sizeof when) != 0)
@@ -421,7 +447,7 @@ int sw_cmd_thresholds(int argc, char **argv)
                                   &err)) != SW_OK)
         goto fail;
     /* open first: a bad folder shows before the work */
-    {
+    if (!to_stdout) {
         struct stat sb;
         if (stat(o.output, &sb) == 0 && S_ISDIR(sb.st_mode)) {
             rc = sw_error_set(&err, SW_EOUTPUT, o.output, 0, 0,
@@ -429,37 +455,50 @@ int sw_cmd_thresholds(int argc, char **argv)
                               "file");
             goto fail;
         }
+        /* a missing folder is created, as run creates OUTDIR */
+        if (stat(dir, &sb) != 0 && errno == ENOENT &&
+            (rc = sw_cli_make_outdir(dir, &err)) != SW_OK)
+            goto fail;
+        if ((rc = sw_outfile_check_target(o.output, &err)) != SW_OK ||
+            (rc = sw_cli_recover(dir, 0, &err)) != SW_OK ||
+            (rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
+            goto fail;
     }
-    if ((rc = sw_outfile_check_target(o.output, &err)) != SW_OK ||
-        (rc = sw_cli_recover(dir, 0, &err)) != SW_OK ||
-        (rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
-        goto fail;
+    FILE *fp = to_stdout ? stdout : out.fp;
     if (o.tol_m > 0.0 &&
         (rc = sw_thresholds_simplify(t, o.tol_m, &fit, &err)) != SW_OK)
         goto fail;
     if (sw_cancel_requested())
         goto stop;
-    write_header(out.fp, &o, &site, sha, when, gates, n_gates, t,
+    write_header(fp, &o, &site, sha, when, gates, n_gates, t,
                  o.tol_m > 0.0 ? &fit : NULL);
     for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
         const sw_thresholds_row *row;
         if ((rc = sw_thresholds_get_row(t, i, &row, &err)) != SW_OK)
             goto fail;
-        write_row(out.fp, row, gates, n_gates);
+        write_row(fp, row, gates, n_gates);
         if (sw_cancel_requested())
             goto stop;
     }
-    if ((rc = sw_outfile_close(&out, &err)) != SW_OK)
-        goto fail;
-    if (sw_cancel_requested())
-        goto stop;
-    if ((rc = sw_outfile_publish(&out, &err)) != SW_OK)
-        goto fail;
+    if (to_stdout) {
+        if (fflush(stdout) != 0 || ferror(stdout)) {
+            rc = sw_error_set(&err, SW_EOUTPUT, NULL, 0, 0,
+                              "cannot write the table to standard output");
+            goto fail;
+        }
+    } else {
+        if ((rc = sw_outfile_close(&out, &err)) != SW_OK)
+            goto fail;
+        if (sw_cancel_requested())
+            goto stop;
+        if ((rc = sw_outfile_publish(&out, &err)) != SW_OK)
+            goto fail;
+    }
 
     if (o.tol_m > 0.0) {
-        printf("wrote %s: %zu breakpoints for %zu %s levels, max error "
-               "%.4f m (tolerance %.4f m)\n",
-               o.output, sw_thresholds_n_rows(t), o.range.n_levels,
+        fprintf(msg, "wrote %s: %zu breakpoints for %zu %s levels, max "
+               "error %.4f m (tolerance %.4f m)\n",
+               to_stdout ? "standard output" : o.output, sw_thresholds_n_rows(t), o.range.n_levels,
                names_of(o.axis).level, fit.max_error_m, fit.tol_m);
         if (fit.n_steps > 0)
             fprintf(stderr,
@@ -468,10 +507,11 @@ int sw_cmd_thresholds(int argc, char **argv)
                     "file's header\n",
                     fit.n_steps, fit.n_steps == 1 ? "" : "s");
     } else {
-        printf("wrote %s: %zu %s levels\n", o.output, o.range.n_levels,
-               names_of(o.axis).level);
+        fprintf(msg, "wrote %s: %zu %s levels\n",
+                to_stdout ? "standard output" : o.output, o.range.n_levels,
+                names_of(o.axis).level);
     }
-    fputs(sw_cli_caution, stdout);
+    fputs(sw_cli_caution, msg);
     sw_thresholds_free(t);
     sw_site_fini(&site);
     if (fflush(stdout) != 0 || ferror(stdout)) {
@@ -495,6 +535,9 @@ stop:
     {
         char what[SW_ERROR_PATH_MAX + 32];
         snprintf(what, sizeof what, "%s is left as it was", o.output);
-        return sw_cli_interrupted("thresholds", what);
+        return sw_cli_interrupted("thresholds",
+                                  to_stdout ? "the table on standard output "
+                                              "is incomplete"
+                                            : what);
     }
 }

@@ -232,6 +232,10 @@ static int plain_level(const char *p, const char *end, int allow_comma,
     int negative = 0;
     long whole, frac = 0;
 
+    /* the same guard as fast_path(): with excess precision (x87) the
+     * division below would round twice */
+    if (!FAST_PATH_OK)
+        return -1;
     if (p < end && *p == '-') {
         negative = 1;
         p++;

@@ -1,5 +1,6 @@
 /* sillwatch: forecast ensembles (see include/sillwatch/ensemble.h). */
 #include "sillwatch/ensemble.h"
+#include "sillwatch/ncseries.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -46,6 +47,40 @@ static int match(const char *pattern, const char *name, char *label,
     return 1;
 }
 
+/* The members of a NetCDF series: those along its member dimension,
+ * labelled by the member coordinate, columns "VARIABLE#LABEL"; or one
+ * member with an empty label where the variable has no such dimension. */
+static int nc_members(const sw_site_series *sr, members *out, sw_error *err)
+{
+    char **labels, **columns;
+    size_t n;
+    int rc = sw_nc_members(sr->path, sr->variable, sr->member_dim, &labels,
+                           &columns, &n, err);
+    if (rc != SW_OK)
+        return rc;
+    out->label = calloc(n ? n : 1, sizeof *out->label);
+    out->column = calloc(n ? n : 1, sizeof *out->column);
+    if (out->label == NULL || out->column == NULL) {
+        rc = nomem(err);
+    } else if (n == 0) {
+        snprintf(out->column[0], sizeof out->column[0], "%s",
+                 sr->variable);
+        out->n = 1;
+    } else {
+        for (size_t i = 0; i < n; i++) {
+            snprintf(out->label[i], sizeof out->label[0], "%s", labels[i]);
+            snprintf(out->column[i], sizeof out->column[0], "%s",
+                     columns[i]);
+        }
+        out->n = n;
+    }
+    sw_csv_header_free(labels, n);
+    sw_csv_header_free(columns, n);
+    if (rc != SW_OK)
+        members_free(out);
+    return rc;
+}
+
 /* The members of series `sr`: its matches if its column is a pattern,
  * else one member with an empty label. */
 static int find_members(const sw_site *site, const sw_site_series *sr,
@@ -57,7 +92,7 @@ static int find_members(const sw_site *site, const sw_site_series *sr,
     int rc = SW_OK;
 
     memset(out, 0, sizeof *out);
-    if (star == NULL) {
+    if (star == NULL && !sr->netcdf) {
         out->label = calloc(1, sizeof *out->label);
         out->column = calloc(1, sizeof *out->column);
         if (out->label == NULL || out->column == NULL)
@@ -67,6 +102,8 @@ static int find_members(const sw_site *site, const sw_site_series *sr,
         out->n = 1;
         return SW_OK;
     }
+    if (sr->netcdf)
+        return nc_members(sr, out, err);
     if (strchr(star + 1, '*') != NULL)
         return sw_error_set(err, SW_ESITE, site->path, sr->line, 0,
                             "[series %s]: value_column '%s' has more than "

@@ -19,6 +19,7 @@
 #include "cli.h"
 #include "sillwatch/cancel.h"
 #include "sillwatch/outfile.h"
+#include "sillwatch/decimal.h"
 
 const char sw_cli_caution[] =
     "Caution: hydrostatic screening only (no waves, surges, debris, ice or\n"
@@ -51,9 +52,16 @@ int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
     return SW_OK;
 }
 
-/* The generation time as ISO 8601 UTC: SOURCE_DATE_EPOCH when set (the
- * reproducible-builds convention: seconds since 1970-01-01T00:00:00Z, a
- * malformed value is an error), else now.  Returns 0 or -1. */
+int sw_cli_site_sha256(const sw_site *site, char hex[SW_CLI_SHA256_HEX],
+                       sw_error *err)
+{
+    if (strcmp(site->path, SW_SITE_STDIN_NAME) == 0) {
+        hex[0] = '\0'; /* read once from standard input: no file to hash */
+        return SW_OK;
+    }
+    return sw_cli_sha256_file(site->path, hex, err);
+}
+
 void sw_cli_print_fs_basis(const sw_site *site)
 {
     int mixed = 0;
@@ -73,6 +81,9 @@ void sw_cli_print_fs_basis(const sw_site *site)
     fputc('\n', stdout);
 }
 
+/* The generation time as ISO 8601 UTC: SOURCE_DATE_EPOCH when set (the
+ * reproducible-builds convention: seconds since 1970-01-01T00:00:00Z, a
+ * malformed value is an error), else now.  Returns 0 or -1. */
 int sw_cli_generation_time(char *buf, size_t n)
 {
     const char *env = getenv("SOURCE_DATE_EPOCH");
@@ -190,6 +201,19 @@ int sw_cli_recover(const char *dir, int quiet, sw_error *err)
     return SW_OK;
 }
 
+int sw_cli_version(void)
+{
+    printf("sillwatch %s\n"
+           "Copyright (C) 2026 the sillwatch authors.\n"
+           "License GPLv3+: GNU GPL version 3 or later "
+           "<https://gnu.org/licenses/gpl.html>.\n"
+           "This is free software: you are free to change and redistribute "
+           "it.\n"
+           "There is NO WARRANTY, to the extent permitted by law.\n",
+           SW_VERSION);
+    return SW_EXIT_OK;
+}
+
 int sw_cli_exit_code(int status)
 {
     switch (status) {
@@ -238,15 +262,24 @@ int sw_cli_usage_error(const char *command, const char *fmt, ...)
 
 int sw_cli_parse_number(const char *text, double *value)
 {
-    char *end;
+    size_t n = strlen(text);
     double v;
 
-    errno = 0;
-    v = strtod(text, &end);
-    if (end == text || *end != '\0' || errno == ERANGE || !isfinite(v))
+    /* the one number grammar of the project (decimal.h): plain decimals
+     * with an optional exponent; no hex, no "inf" or "nan", no blanks */
+    if (n == 0 || text[0] == ' ' || text[0] == '\t' || text[n - 1] == ' ' ||
+        text[n - 1] == '\t' || sw_decimal_parse(text, n, 0, &v) != 0)
         return -1;
     *value = v;
     return 0;
+}
+
+double sw_cli_unsigned_zero(double v, int decimals)
+{
+    double half = decimals < 0 ? 0.0 : 0.5 * pow(10.0, -decimals);
+    if (v == 0.0 || fabs(v) < half)
+        return 0.0;
+    return v;
 }
 
 int sw_cli_make_outdir(const char *dir, sw_error *err)
@@ -360,8 +393,7 @@ int main(int argc, char **argv)
         return SW_EXIT_OK;
     }
     if (strcmp(argv[1], "-V") == 0 || strcmp(argv[1], "--version") == 0) {
-        printf("sillwatch %s\n", SW_VERSION);
-        return SW_EXIT_OK;
+        return sw_cli_version();
     }
     for (size_t i = 0; i < sizeof commands / sizeof commands[0]; i++)
         if (strcmp(argv[1], commands[i].name) == 0) {

@@ -280,8 +280,9 @@ int sw_qc_series_extent(const sw_site *site, const sw_site_series *s,
                         double *lo_m, double *hi_m, long *n_valid,
                         sw_error *read_err, sw_error *err)
 {
-    sw_reader_config cfg = {s->path, s->time_column, s->time_format,
-                            s->delimiter, site->zone};
+    sw_reader_config cfg = {s->path,      s->time_column, s->time_format,
+                            s->delimiter, site->zone,     s->netcdf,
+                            s->station,   s->member_dim};
     sw_column_config col;
     sw_reader *rd;
     int rc, has_row;

@@ -1,5 +1,6 @@
 /* sillwatch: the CSV outputs of a replay (see report.h). */
 #include "sillwatch/report.h"
+#include "sillwatch/csvout.h"
 
 #include <math.h>
 #include <stdint.h>
@@ -84,7 +85,7 @@ static char *put_fixed(char *w, double x, int digits)
         if (rest > half || (rest == half && (q & 1u)))
             q++;
     }
-    if (bits >> 63)
+    if ((bits >> 63) && q != 0) /* no "-0.00": a zero has no sign */
         *w++ = '-';
     w = put_uint(w, q / pow10[digits], 1);
     if (digits > 0) {
@@ -183,7 +184,7 @@ static char *put_min_fs(char *w, const sw_tally *t, const sw_zone *zone)
 static void write_row(FILE *fp, const char *gate, const char *line,
                       const char *w)
 {
-    fputs(gate, fp);
+    sw_csv_put_field(fp, gate);
     fputc(',', fp);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
@@ -278,7 +279,7 @@ void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
     *w++ = ',';
     w = put_crit(w, open);
     *w++ = '\n';
-    fputs(gate, fp);
+    sw_csv_put_field(fp, gate);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
 
@@ -318,29 +319,12 @@ void sw_report_flags_header(FILE *fp)
     fputs("series,time,value,test,file,line\n", fp);
 }
 
-/* A field quoted as RFC 4180 asks where it holds a comma, a quote or a
- * line end (a file path may). */
-static void put_field(FILE *fp, const char *s)
-{
-    if (strpbrk(s, ",\"\r\n") == NULL) {
-        fputs(s, fp);
-        return;
-    }
-    fputc('"', fp);
-    for (; *s != '\0'; s++) {
-        if (*s == '"')
-            fputc('"', fp);
-        fputc(*s, fp);
-    }
-    fputc('"', fp);
-}
-
 void sw_report_flag_row(FILE *fp, const char *series, const char *file,
                         const sw_qc_reading *r, const sw_zone *zone)
 {
     char line[INSTANT_MAX + FIXED_MAX + 64], *w = line;
 
-    fputs(series, fp);
+    sw_csv_put_field(fp, series);
     *w++ = ',';
     w = put_instant(w, r->t, zone);
     *w++ = ',';
@@ -349,7 +333,7 @@ void sw_report_flag_row(FILE *fp, const char *series, const char *file,
     w = put_text(w, sw_qc_test_name(r->test));
     *w++ = ',';
     fwrite(line, 1, (size_t)(w - line), fp);
-    put_field(fp, file);
+    sw_csv_put_field(fp, file);
     fprintf(fp, ",%ld\n", r->line);
 }
 

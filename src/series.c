@@ -44,6 +44,7 @@
  * grows with the length of the file.
  */
 #include "sillwatch/series.h"
+#include "sillwatch/ncseries.h"
 
 #include <errno.h>
 #include <math.h>
@@ -112,6 +113,7 @@ typedef struct value_column {
 } value_column;
 
 struct sw_reader {
+    sw_nc *nc;         /* a NetCDF file (ncseries.c); the rest unused */
     char *path;
     FILE *fp;
     struct csv_parser csv;
@@ -1089,6 +1091,16 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     if ((r = calloc(1, sizeof *r)) == NULL)
         return sw_error_set(err, SW_ENOMEM, cfg ? cfg->path : NULL, 0, 0,
                             "out of memory");
+    if (cfg != NULL && cfg->netcdf) {
+        if ((rc = sw_nc_open(&r->nc, cfg, columns, n_columns, &r->stats,
+                             err)) != SW_OK) {
+            free(r);
+            return rc;
+        }
+        r->n_columns = n_columns;
+        *reader = r;
+        return SW_OK;
+    }
     if (cfg == NULL) {
         rc = sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
                           "sw_reader_open: no configuration");
@@ -1165,6 +1177,8 @@ int sw_reader_next(sw_reader *reader, int *has_row, sw_time_ms *t,
     sw_reader *r = reader;
     int got, keep, rc;
 
+    if (r->nc != NULL)
+        return sw_nc_next(r->nc, has_row, t, values, err);
     *has_row = 0;
     if (r->failed != SW_OK) {
         if (err != NULL)
@@ -1281,7 +1295,8 @@ char sw_reader_delimiter(const sw_reader *reader)
 int sw_csv_header(const char *path, char delimiter, char ***names, size_t *n,
                   sw_error *err)
 {
-    sw_reader_config cfg = {path, "", SW_TIME_ISO8601, delimiter, NULL};
+    sw_reader_config cfg = {path, "",   SW_TIME_ISO8601, delimiter,
+                            NULL, 0,    NULL,            NULL};
     sw_reader *r;
     int got = 0, rc;
 
@@ -1328,6 +1343,7 @@ void sw_reader_free(sw_reader *reader)
 {
     if (reader == NULL)
         return;
+    sw_nc_free(reader->nc);
     if (reader->fp != NULL)
         fclose(reader->fp);
     if (reader->csv_ready)

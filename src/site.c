@@ -39,6 +39,7 @@
 #define SITE_LINE_MAX ((size_t)64 * 1024)
 
 #include "sillwatch/cancel.h"
+#include "sillwatch/decimal.h"
 #include "sillwatch/gravity.h"
 #include "sillwatch/water.h"
 
@@ -195,7 +196,8 @@ static const key_def gate_keys[GK_COUNT] = {
 enum series_key {
     RK_FILE, RK_TIME_COLUMN, RK_VALUE_COLUMN, RK_TIME_FORMAT, RK_OFFSET,
     RK_UNIT, RK_MISSING, RK_DELIMITER, RK_VALID_RANGE, RK_SPIKE, RK_MAX_RATE,
-    RK_FLAT, RK_COUNT
+    RK_FLAT, RK_FORMAT, RK_VARIABLE, RK_MEMBER_DIMENSION, RK_STATION,
+    RK_COUNT
 };
 
 static const key_def series_keys[RK_COUNT] = {
@@ -203,7 +205,8 @@ static const key_def series_keys[RK_COUNT] = {
                  NULL},
     [RK_TIME_COLUMN] = {"time_column", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
-    [RK_VALUE_COLUMN] = {"value_column", KIND_TEXT, NEED_REQUIRED, "",
+    /* required for CSV series (build_series); NetCDF ones take variable */
+    [RK_VALUE_COLUMN] = {"value_column", KIND_TEXT, NEED_OPTIONAL, "",
                          NO_RANGE, NULL, NULL, NULL},
     [RK_TIME_FORMAT] = {"time_format", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
@@ -227,6 +230,14 @@ static const key_def series_keys[RK_COUNT] = {
                      NULL, NULL, NULL},
     [RK_FLAT] = {"flat", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL, NULL,
                  NULL},
+    [RK_FORMAT] = {"format", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                   NULL, NULL},
+    [RK_VARIABLE] = {"variable", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE,
+                     NULL, NULL, NULL},
+    [RK_MEMBER_DIMENSION] = {"member_dimension", KIND_TEXT, NEED_OPTIONAL,
+                             "", NO_RANGE, NULL, NULL, NULL},
+    [RK_STATION] = {"station", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
+                    NULL, NULL},
 };
 
 #define N_SECTION_DEFS 5
@@ -753,12 +764,12 @@ static int read_number(parser *p, const char *where, const key_def *key,
                        const char *value, long col, double *out)
 {
     char units[48];
-    char *end;
     double v;
 
-    errno = 0;
-    v = strtod(value, &end);
-    if (end == value || *end != '\0') {
+    /* the one number grammar of the project (decimal.h), as in level
+     * files: no hex, no "inf" or "nan" */
+    int parsed = sw_decimal_parse(value, strlen(value), 0, &v);
+    if (parsed < 0) {
         if (strchr(value, ',') != NULL)
             return fail(p, p->lineno, col,
                         "%s: key '%s': '%.60s' is not a number: write the "
@@ -770,7 +781,7 @@ static int read_number(parser *p, const char *where, const key_def *key,
                     where, key->name, value,
                     unit_phrase(key, units, sizeof units));
     }
-    if (!isfinite(v))
+    if (parsed > 0)
         return fail(p, p->lineno, col,
                     "%s: key '%s': '%.60s' is not a finite number: write a "
                     "decimal number%s",
@@ -1132,17 +1143,16 @@ static int read_missing(parser *p, const slot *sl, const char *where,
     return SW_OK;
 }
 
-/* A finite number at *q (after blanks), moving *q past it. */
+/* A finite decimal number at *q (after blanks; the one number grammar of
+ * decimal.h), moving *q past it and the blanks after it. */
 static int take_number(const char **q, double *v)
 {
-    char *end;
     while (isspace((unsigned char)**q))
         (*q)++;
-    errno = 0;
-    *v = strtod(*q, &end);
-    if (end == *q || errno == ERANGE || !isfinite(*v))
+    size_t len = strspn(*q, "+-.0123456789eE");
+    if (len == 0 || sw_decimal_parse(*q, len, 0, v) != 0)
         return 0;
-    *q = end;
+    *q += len;
     while (isspace((unsigned char)**q))
         (*q)++;
     return 1;
@@ -1256,6 +1266,60 @@ static int read_qc(parser *p, const section *s, const char *where,
     return SW_OK;
 }
 
+/* The format keys of a [series NAME] section: format = csv (the default:
+ * value_column required) or netcdf (variable required; value_column,
+ * time_column, time_format, delimiter and unit are the file's business
+ * and may not be given; member_dimension and station only there). */
+static int series_format(parser *p, const section *s, const char *where,
+                         sw_site_series *out)
+{
+    const slot *sl = s->slots;
+    static const int csv_only[] = {RK_VALUE_COLUMN, RK_TIME_COLUMN,
+                                   RK_TIME_FORMAT, RK_DELIMITER, RK_UNIT};
+    static const int nc_only[] = {RK_VARIABLE, RK_MEMBER_DIMENSION,
+                                  RK_STATION};
+
+    if (sl[RK_FORMAT].given) {
+        const char *v = sl[RK_FORMAT].text;
+        if (strcmp(v, "netcdf") == 0)
+            out->netcdf = 1;
+        else if (strcmp(v, "csv") != 0)
+            return fail(p, sl[RK_FORMAT].line, sl[RK_FORMAT].val_col,
+                        "%s: key 'format': '%.40s' is not csv or netcdf",
+                        where, v);
+    }
+    const int *other = out->netcdf ? csv_only : nc_only;
+    size_t n_other = out->netcdf ? sizeof csv_only / sizeof csv_only[0]
+                                 : sizeof nc_only / sizeof nc_only[0];
+    for (size_t i = 0; i < n_other; i++)
+        if (sl[other[i]].given)
+            return fail(p, sl[other[i]].line, sl[other[i]].key_col,
+                        "%s: key '%s' is for %s series only; this one is %s",
+                        where, series_keys[other[i]].name,
+                        out->netcdf ? "CSV" : "NetCDF",
+                        out->netcdf ? "format = netcdf" : "CSV");
+    int need = out->netcdf ? RK_VARIABLE : RK_VALUE_COLUMN;
+    if (!sl[need].given)
+        return fail(p, s->line, s->col,
+                    "%s: required key '%s' is missing: add '%s = ...' to "
+                    "[series %s]",
+                    where, series_keys[need].name, series_keys[need].name,
+                    s->arg);
+    if (out->netcdf) {
+        snprintf(out->variable, sizeof out->variable, "%.127s",
+                 sl[RK_VARIABLE].text);
+        snprintf(out->value_column, sizeof out->value_column, "%.127s",
+                 sl[RK_VARIABLE].text);
+        snprintf(out->member_dim, sizeof out->member_dim, "%.63s",
+                 sl[RK_MEMBER_DIMENSION].given
+                     ? sl[RK_MEMBER_DIMENSION].text
+                     : "");
+        snprintf(out->station, sizeof out->station, "%.127s",
+                 sl[RK_STATION].given ? sl[RK_STATION].text : "");
+    }
+    return SW_OK;
+}
+
 /* Take a [series NAME] section into `out`; a relative file is taken from
  * the site file's folder. */
 static int build_series(parser *p, const section *s, sw_site_series *out)
@@ -1263,6 +1327,8 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
     const slot *sl = s->slots;
     char where[96];
     const char *slash = strrchr(p->path, '/');
+
+    int rc;
 
     section_label(s, where, sizeof where);
     memset(out, 0, sizeof *out);
@@ -1281,8 +1347,11 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
     /* KIND_TEXT values were checked to fit TEXT_SIZE on reading */
     snprintf(out->time_column, sizeof out->time_column, "%.127s",
              sl[RK_TIME_COLUMN].given ? sl[RK_TIME_COLUMN].text : "time");
-    snprintf(out->value_column, sizeof out->value_column, "%.127s",
-             sl[RK_VALUE_COLUMN].text);
+    if ((rc = series_format(p, s, where, out)) != SW_OK)
+        return rc;
+    if (!out->netcdf)
+        snprintf(out->value_column, sizeof out->value_column, "%.127s",
+                 sl[RK_VALUE_COLUMN].text);
     out->time_format = SW_TIME_ISO8601;
     if (sl[RK_TIME_FORMAT].given) {
         const char *v = sl[RK_TIME_FORMAT].text;
@@ -1613,12 +1682,15 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     sw_error_clear(err);
     memset(site, 0, sizeof *site);
     memset(&p, 0, sizeof p);
+    int from_stdin = strcmp(path, "-") == 0;
+    if (from_stdin)
+        path = SW_SITE_STDIN_NAME;
     p.path = path;
     p.err = err;
 
     /* a FIFO's open waits for its writer: a stop request ends the wait */
-    while ((p.fp = fopen(path, "r")) == NULL && errno == EINTR &&
-           !sw_cancel_requested())
+    while ((p.fp = from_stdin ? stdin : fopen(path, "r")) == NULL &&
+           errno == EINTR && !sw_cancel_requested())
         ;
     if (p.fp == NULL)
         return errno == EINTR ? sw_cancel_check(err)
@@ -1626,7 +1698,7 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
                                              "cannot open the site file: %s",
                                              strerror(errno));
     struct stat sb;
-    if (fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
+    if (!from_stdin && fstat(fileno(p.fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
         fclose(p.fp);
         return sw_error_set(err, SW_ESITE, path, 0, 0,
                             "this is a folder, not a site file");
@@ -1651,7 +1723,8 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     if (p.status == SW_OK)
         resolve(&p, site);
 
-    fclose(p.fp);
+    if (!from_stdin)
+        fclose(p.fp);
     free(p.raw);
     free(p.secs);
     if (p.status != SW_OK) {

@@ -237,7 +237,9 @@ static int same_file(const sw_site_series *a, const sw_site_series *b)
 {
     return strcmp(a->path, b->path) == 0 &&
            strcmp(a->time_column, b->time_column) == 0 &&
-           a->time_format == b->time_format && a->delimiter == b->delimiter;
+           a->time_format == b->time_format && a->delimiter == b->delimiter &&
+           a->netcdf == b->netcdf && strcmp(a->station, b->station) == 0 &&
+           strcmp(a->member_dim, b->member_dim) == 0;
 }
 
 /* The index of series `name` in use, adding it (and its reader) if new. */
@@ -433,6 +435,9 @@ static int open_readers(sw_stepper *st, sw_error *err)
         cfg.time_column = rs->first->time_column;
         cfg.time_format = rs->first->time_format;
         cfg.delimiter = rs->first->delimiter;
+        cfg.netcdf = rs->first->netcdf;
+        cfg.station = rs->first->station;
+        cfg.member_dim = rs->first->member_dim;
         cfg.zone = st->site->zone;
         for (size_t c = 0; c < rs->n_cols; c++) {
             const sw_site_series *d = st->series[rs->series_of[c]].def;

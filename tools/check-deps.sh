@@ -18,12 +18,21 @@ printf '#include <stdarg.h>\n#include <stddef.h>\n#include <setjmp.h>\n#include 
 have_header ini.h || missing="$missing libinih-dev"
 # SHA-256 of the site file in threshold tables.
 have_header nettle/sha2.h || missing="$missing nettle-dev"
+# JSON output (point/check --format json, run/screen --json).
+have_header jansson.h || missing="$missing libjansson-dev"
+# CF-NetCDF level series (format = netcdf); the tests write such files.
+have_header netcdf.h || missing="$missing libnetcdf-dev"
 # The tests: the report's well-formedness (xmllint), the browser test's
 # image reader (libpng).
 command -v xmllint >/dev/null 2>&1 || missing="$missing libxml2-utils"
 # The print test reads the report's PDF back (pdfinfo, pdftotext, pdftoppm).
 command -v pdfinfo >/dev/null 2>&1 || missing="$missing poppler-utils"
 have_header png.h || missing="$missing libpng-dev"
+# The tests: the manual pages rendered by man -l (man-db, groff-base).
+command -v man >/dev/null 2>&1 || missing="$missing man-db"
+command -v groff >/dev/null 2>&1 || missing="$missing groff-base"
+# The tests: JSON outputs parsed and queried with jq.
+command -v jq >/dev/null 2>&1 || missing="$missing jq"
 # The tz database: zone names in site files and the tests' zones.
 [ -f "${TZDIR:-/usr/share/zoneinfo}/Europe/Berlin" ] || missing="$missing tzdata"
 

@@ -42,6 +42,11 @@ typedef struct sw_reader_config {
     char delimiter;             /* 0: detect from the header; ',' ';' '\t' */
     const sw_zone *zone;        /* for timestamps without an offset; NULL:
                                    such timestamps are an error */
+    int netcdf;                 /* a CF-NetCDF file (ncseries.h): the
+                                   fields above but path are unused */
+    const char *station;        /* netcdf: timeseries_id, or ""/NULL */
+    const char *member_dim;     /* netcdf: "" or NULL: realization or
+                                   member */
 } sw_reader_config;
 
 /* One value column. */

@@ -68,6 +68,11 @@ typedef struct sw_site_series {
     sw_qc_config qc;                    /* its quality tests (levels in m
                                            above the site datum); max_gap_ms
                                            is the site's */
+    int netcdf;                         /* format = netcdf */
+    char variable[SW_SITE_NAME_MAX * 2];  /* netcdf: the level variable */
+    char member_dim[SW_SITE_NAME_MAX];  /* netcdf: "" = realization or
+                                           member */
+    char station[SW_SITE_NAME_MAX * 2]; /* netcdf: "" = the only one */
 } sw_site_series;
 
 typedef struct sw_site {
@@ -93,7 +98,13 @@ typedef struct sw_site {
     sw_site_series *series;         /* in file order; owned by the site */
 } sw_site;
 
-/* Read, check and prepare the site file at `path`.  On success returns
+/* The name messages and site->path give a site file read from standard
+ * input (path "-"). */
+#define SW_SITE_STDIN_NAME "<stdin>"
+
+/* Read, check and prepare the site file at `path` ("-": standard input;
+ * its series files are then relative to the current folder, and it is
+ * named SW_SITE_STDIN_NAME in messages).  On success returns
  * SW_OK and fills *site, which the caller releases with sw_site_fini().
  * On failure returns SW_ESITE (or SW_ENOMEM) with file, line, column and a
  * message in *err, and leaves *site empty (sw_site_fini() is still safe). */

@@ -700,10 +700,16 @@ static void test_empty_value(void **state)
 static void test_non_finite_values(void **state)
 {
     (void)state;
+    /* one number grammar (decimal.h): "inf", "nan" and hex are not
+     * numbers at all, as in level files */
     expect_error(WATER GATE_G1 "volume = inf\n", 15, 10,
-                 "gate 'G1': key 'volume': 'inf' is not a finite number");
+                 "gate 'G1': key 'volume': 'inf' is not a number");
     expect_error(WATER GATE_G1 "cg_offset = nan\n", 15, 13,
-                 "gate 'G1': key 'cg_offset': 'nan' is not a finite number");
+                 "gate 'G1': key 'cg_offset': 'nan' is not a number");
+    expect_error(WATER GATE_G1 "volume = 0x1p-2\n", 15, 10,
+                 "gate 'G1': key 'volume': '0x1p-2' is not a number");
+    expect_error(WATER GATE_G1 "volume = 0x10\n", 15, 10,
+                 "gate 'G1': key 'volume': '0x10' is not a number");
     expect_error(WATER GATE_G1 "extra_moment = 1e999\n", 15, 16,
                  "'1e999' is not a finite number");
 }
