@@ -397,10 +397,7 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
     for (size_t s = 0; s < ens->n_hw_series && rc == SW_OK; s++) {
         const sw_site_series *sr = &ens->hw_series[s];
         const sw_gate *g = &site->gates[ens->hw_series_gate[s]].gate;
-        sw_reader_config cfg = {sr->path,         sr->time_column,
-                                sr->time_format,  sr->delimiter,
-                                site->zone,       sr->netcdf,
-                                sr->station,      sr->member_dim};
+        sw_reader_config cfg;
         sw_column_config col;
         sw_reader *rd = NULL;
         sw_qc *qc = NULL;
@@ -411,13 +408,7 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
         required_max m = {{-INFINITY, -INFINITY}, {0, 0}, {0, 0}};
         int has_row = 1;
 
-        memset(&col, 0, sizeof col);
-        col.name = sr->value_column;
-        col.scale = sr->scale;
-        col.offset_m = sr->offset_m;
-        col.n_missing = sr->n_missing;
-        for (size_t k = 0; k < sr->n_missing; k++)
-            col.missing[k] = sr->missing[k];
+        sw_site_series_reader(site, sr, &cfg, &col);
         qcc.max_gap_ms = site->max_gap_ms;
         if (sw_qc_active(&qcc) && (rc = sw_qc_alloc(&qc, &qcc, err)) != SW_OK)
             break;

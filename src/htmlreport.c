@@ -1775,6 +1775,19 @@ static void table_flags(FILE *fp, const sw_html_report *r,
         fputs("</ul>\n", fp);
 }
 
+
+/* A table row's first cells for a series: name, file, column (the last
+ * cell left open). */
+static void series_cells(FILE *fp, const sw_site_series *s)
+{
+    fputs("<tr><td>", fp);
+    esc(fp, s->name);
+    fputs("</td><td>", fp);
+    esc(fp, s->path);
+    fputs("</td><td>", fp);
+    esc(fp, s->value_column);
+}
+
 static void table_quality(FILE *fp, const sw_html_report *r,
                           const sw_stepper *st)
 {
@@ -1795,12 +1808,7 @@ static void table_quality(FILE *fp, const sw_html_report *r,
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
         const sw_column_stats *cs = sw_stepper_column_stats(st, i);
         const sw_gap_stats *gs = sw_stepper_gap_stats(st, i);
-        fputs("<tr><td>", fp);
-        esc(fp, s->name);
-        fputs("</td><td>", fp);
-        esc(fp, s->path);
-        fputs("</td><td>", fp);
-        esc(fp, s->value_column);
+        series_cells(fp, s);
         fprintf(fp, "</td><td>%ld</td><td>%ld</td><td>%ld</td><td>%ld</td>"
                 "<td>%ld</td><td>%ld</td>", rs->records,
                 cs->valid - qc_total(sw_stepper_qc_stats(st, i)),
@@ -1912,12 +1920,7 @@ static void table_provenance(FILE *fp, const sw_html_report *r,
     for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
         const sw_site_series *s = sw_stepper_series(st, i);
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
-        fputs("<tr><td>", fp);
-        esc(fp, s->name);
-        fputs("</td><td>", fp);
-        esc(fp, s->path);
-        fputs("</td><td>", fp);
-        esc(fp, s->value_column);
+        series_cells(fp, s);
         fprintf(fp, "</td><td>%s</td><td>%.4f</td><td>",
                 s->scale == 1.0 ? "m" : "ft (0.3048 m)", s->offset_m);
         esc(fp, site->zone != NULL ? sw_zone_name(site->zone)

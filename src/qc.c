@@ -280,20 +280,12 @@ int sw_qc_series_extent(const sw_site *site, const sw_site_series *s,
                         double *lo_m, double *hi_m, long *n_valid,
                         sw_error *read_err, sw_error *err)
 {
-    sw_reader_config cfg = {s->path,      s->time_column, s->time_format,
-                            s->delimiter, site->zone,     s->netcdf,
-                            s->station,   s->member_dim};
+    sw_reader_config cfg;
     sw_column_config col;
     sw_reader *rd;
     int rc, has_row;
 
-    memset(&col, 0, sizeof col);
-    col.name = s->value_column;
-    col.scale = s->scale;
-    col.offset_m = s->offset_m;
-    col.n_missing = s->n_missing;
-    for (size_t k = 0; k < s->n_missing; k++)
-        col.missing[k] = s->missing[k];
+    sw_site_series_reader(site, s, &cfg, &col);
     *lo_m = INFINITY;
     *hi_m = -INFINITY;
     *n_valid = 0;

@@ -1734,6 +1734,27 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err)
     return SW_OK;
 }
 
+void sw_site_series_reader(const sw_site *site, const sw_site_series *s,
+                           sw_reader_config *cfg, sw_column_config *col)
+{
+    memset(cfg, 0, sizeof *cfg);
+    cfg->path = s->path;
+    cfg->time_column = s->time_column;
+    cfg->time_format = s->time_format;
+    cfg->delimiter = s->delimiter;
+    cfg->zone = site->zone;
+    cfg->netcdf = s->netcdf;
+    cfg->station = s->station;
+    cfg->member_dim = s->member_dim;
+    memset(col, 0, sizeof *col);
+    col->name = s->value_column;
+    col->scale = s->scale;
+    col->offset_m = s->offset_m;
+    col->n_missing = s->n_missing;
+    for (size_t k = 0; k < s->n_missing; k++)
+        col->missing[k] = s->missing[k];
+}
+
 void sw_site_fini(sw_site *site)
 {
     if (site == NULL)

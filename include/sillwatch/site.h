@@ -110,6 +110,12 @@ typedef struct sw_site {
  * message in *err, and leaves *site empty (sw_site_fini() is still safe). */
 int sw_site_load(sw_site *site, const char *path, sw_error *err);
 
+/* How to read series `s` of `site` alone (one column): the reader's
+ * configuration and the column's, pointing into `s` and `site` (which
+ * must outlive them). */
+void sw_site_series_reader(const sw_site *site, const sw_site_series *s,
+                           sw_reader_config *cfg, sw_column_config *col);
+
 /* Release what sw_site_load() allocated.  Safe on an empty or failed site
  * and on NULL. */
 void sw_site_fini(sw_site *site);
