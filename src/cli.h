@@ -6,6 +6,7 @@
 #include <stdio.h>
 
 #include "sillwatch/error.h"
+#include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
 
 /* Exit codes, documented in the README, the man page and --help. */
@@ -86,7 +87,7 @@ int sw_cli_site_operand(const char *command, int argc, char **argv,
 
 /* SHA-256 of the file at `path` as 64 hex digits and a NUL (nettle).
  * Returns SW_OK, or SW_ESITE when it cannot be read. */
-#define SW_CLI_SHA256_HEX 65
+#define SW_CLI_SHA256_HEX SW_SHA256_HEX
 int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
                        sw_error *err);
 

@@ -12,9 +12,7 @@
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
-#include "sillwatch/htmlreport.h"
-#include "sillwatch/jsonout.h"
-#include "sillwatch/outfile.h"
+#include "sillwatch/replay.h"
 #include "sillwatch/report.h"
 #include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
@@ -57,14 +55,6 @@ static const char run_help[] =
     "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
-
-enum {
-    OUT_SUMMARY, OUT_EVENTS, OUT_FLAGS, OUT_STEPS, OUT_MONTHS, OUT_REPORT,
-    OUT_JSON, N_OUT
-};
-static const char *const out_names[N_OUT] = {
-    "summary.csv", "events.csv",  "flags.csv",   "steps.csv",
-    "months.csv",  "report.html", "summary.json"};
 
 typedef struct run_opts {
     const char *site_path, *outdir;
@@ -277,75 +267,36 @@ static void warn_implausible(const sw_site *site, const sw_stepper *st)
     }
 }
 
+/* Gate i had `missing` ms without level data: say how much and where
+ * from (gaps, series ends), each part rounded once as the data-quality
+ * account rounds its gaps. */
+static void warn_not_evaluated(const sw_site *site, const sw_stepper *st,
+                               size_t i, sw_time_ms missing)
+{
+    char h[24], hg[24], he[24], why[160];
+    sw_time_ms edge = sw_stepper_unknown_edge(st, i);
+    sw_time_ms in_gaps = missing - edge;
+
+    sw_report_hours_text(h, sizeof h, missing);
+    sw_report_hours_text(hg, sizeof hg, in_gaps);
+    sw_report_hours_text(he, sizeof he, edge);
+    if (edge == 0)
+        snprintf(why, sizeof why, "in gaps longer than max_gap");
+    else if (in_gaps == 0)
+        snprintf(why, sizeof why, "before a series began or after it ended");
+    else
+        snprintf(why, sizeof why, "%s h in gaps longer than max_gap, %s h "
+                 "before a series began or after it ended", hg, he);
+    fprintf(stderr, "sillwatch: warning: gate %s: %s h without level data "
+            "were not evaluated (%s); they are not counted as safe\n",
+            site->gates[i].gate.name, h, why);
+}
+
 static void progress(const sw_stepper *st, const sw_site *site, long steps)
 {
     char when[64];
     sw_time_format(when, sizeof when, sw_stepper_time(st), site->zone);
     fprintf(stderr, "\rsillwatch: replaying %s  (%ld steps)   ", when, steps);
-}
-
-/* Write what the last advance or finish exposed, and hand it to the
- * report when there is one.  Returns SW_OK or the report's error. */
-static int write_step(const sw_stepper *st, const sw_site *site,
-                      sw_outfile *out, const run_opts *o,
-                      sw_html_report *rep, sw_event_log *log, sw_error *err)
-{
-    const sw_event *ev;
-    const sw_month_row *mo;
-    const sw_stepper_flag *fl;
-    size_t n = sw_stepper_flags(st, &fl);
-    int rc;
-
-    for (size_t i = 0; i < n; i++) {
-        const sw_site_series *sr = sw_stepper_series(st, fl[i].series);
-        sw_report_flag_row(out[OUT_FLAGS].fp, sr->name, sr->path,
-                           &fl[i].reading, site->zone);
-        if (rep != NULL)
-            sw_html_report_flag(rep, sr, &fl[i].reading);
-    }
-    if (!sw_stepper_passed(st))
-        return SW_OK; /* flags only: no point passed */
-    n = sw_stepper_events(st, &ev);
-
-    for (size_t i = 0; i < n; i++) {
-        if ((rc = sw_event_log_add(log, &ev[i], err)) != SW_OK)
-            return rc;
-        if (rep != NULL)
-            sw_html_report_event(rep, &ev[i]);
-    }
-    n = sw_stepper_months(st, &mo);
-    for (size_t i = 0; i < n; i++) {
-        if (o->by_month)
-            sw_report_month_row(out[OUT_MONTHS].fp,
-                                site->gates[mo[i].gate].gate.name, &mo[i],
-                                site->zone);
-        if (rep != NULL && (rc = sw_html_report_month(rep, &mo[i], err)) !=
-                               SW_OK)
-            return rc;
-    }
-    if (rep != NULL && (rc = sw_html_report_point(rep, st, err)) != SW_OK)
-        return rc;
-    if (!o->steps)
-        return SW_OK;
-    for (size_t g = 0; g < site->n_gates; g++) {
-        const sw_step_gate *sg = sw_stepper_gate_at(st, g);
-        const sw_gate *gate = &site->gates[g].gate;
-        sw_crit alarm, open;
-        sw_error ignored; /* a failed search leaves the columns empty */
-        if (!sg->known)
-            continue;
-        /* critical levels only here, where they are asked for */
-        int ok = sw_gate_critical_tailwater(gate, sg->result.headwater_m,
-                                            SW_LIMIT_ALARM, &alarm,
-                                            &ignored) == SW_OK &&
-                 sw_gate_critical_tailwater(gate, sg->result.headwater_m,
-                                            SW_LIMIT_OPEN, &open,
-                                            &ignored) == SW_OK;
-        sw_report_step_row(out[OUT_STEPS].fp, sw_stepper_time(st), gate->name,
-                           &sg->result, ok ? &alarm : NULL,
-                           ok ? &open : NULL, site->zone);
-    }
-    return SW_OK;
 }
 
 /* The command line as typed, for the report's provenance: arguments
@@ -371,35 +322,6 @@ static void command_line(char *buf, size_t n, int argc, char **argv)
     }
 }
 
-/* Write the season report: every level file's SHA-256 joins the site's,
- * the generation time and the command line already in meta. */
-static int write_report(const sw_html_report *rep, FILE *fp,
-                        const sw_stepper *st, const sw_html_meta *base,
-                        sw_error *err)
-{
-    size_t n = sw_stepper_n_series(st);
-    char (*hex)[SW_CLI_SHA256_HEX] = calloc(n + 1, sizeof *hex);
-    const char **hexp = calloc(n + 1, sizeof *hexp);
-    sw_html_meta meta = *base;
-    int rc = SW_OK;
-
-    if (hex == NULL || hexp == NULL) {
-        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
-        goto done;
-    }
-    for (size_t i = 0; i < n && rc == SW_OK; i++) {
-        rc = sw_cli_sha256_file(sw_stepper_series(st, i)->path, hex[i], err);
-        hexp[i] = hex[i];
-    }
-    meta.series_sha256 = hexp;
-    if (rc == SW_OK)
-        rc = sw_html_report_write(rep, fp, st, &meta, err);
-done:
-    free(hex);
-    free(hexp);
-    return rc;
-}
-
 static int run_interrupted(const char *outdir)
 {
     char what[SW_ERROR_PATH_MAX + 64];
@@ -408,51 +330,71 @@ static int run_interrupted(const char *outdir)
     return sw_cli_interrupted("run", what);
 }
 
-/* summary.json: the rows of summary.csv, numbers as numbers (jsonout.h). */
-static int write_json(FILE *fp, const sw_site *site, const sw_stepper *st,
-                      sw_time_ms t0, sw_time_ms t1, sw_error *err)
+/* Feed the session to its end, showing progress on a terminal. */
+static int replay_all(sw_replay *rp, const sw_site *site, int show_progress,
+                      sw_error *err)
 {
-    int bad = 0, rc;
-    json_t *doc = json_object(), *rows = json_array();
+    struct timespec last, now;
+    int done = 0, rc = SW_OK;
 
-    for (size_t i = 0; i < site->n_gates && rows != NULL; i++) {
-        const sw_gate *g = &site->gates[i].gate;
-        json_t *row = sw_json_summary_row(g->name, t0, t1,
-                                          sw_stepper_tally(st, i), site->zone);
-        /* min_fs is on this basis */
-        sw_json_set(row, "fs_basis", json_string(sw_fs_basis_name(g->fs_basis)),
-                    &bad);
-        if (json_array_append_new(rows, row) != 0)
-            bad = 1;
+    clock_gettime(CLOCK_MONOTONIC, &last);
+    while (!done && (rc = sw_replay_feed(rp, 4096, &done, err)) == SW_OK) {
+        if (!show_progress)
+            continue;
+        clock_gettime(CLOCK_MONOTONIC, &now);
+        if (now.tv_sec - last.tv_sec >= 1) {
+            progress(sw_replay_stepper(rp), site, sw_replay_points(rp));
+            last = now;
+        }
     }
-    sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
-    sw_json_set(doc, "site", json_string(site->name), &bad);
-    sw_json_set(doc, "site_file", json_string(site->path), &bad);
-    sw_json_set(doc, "start", sw_json_time(t0, site->zone), &bad);
-    sw_json_set(doc, "end", sw_json_time(t1, site->zone), &bad);
-    sw_json_set(doc, "gates", rows, &bad);
-    sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
-    rc = sw_json_write(bad ? NULL : doc, fp, err);
-    json_decref(doc);
+    if (show_progress)
+        fputs(rc == SW_OK ? "\r\033[K" : "\n", stderr);
     return rc;
+}
+
+/* Warnings on standard error: hours not evaluated and why, last lines
+ * left out, implausible levels. */
+static void warn_after(const sw_site *site, const sw_stepper *st)
+{
+    sw_time_ms t0, t1;
+    sw_stepper_span(st, &t0, &t1);
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_tally *t = sw_stepper_tally(st, i);
+        if (t->evaluated < t1 - t0)
+            warn_not_evaluated(site, st, i, (t1 - t0) - t->evaluated);
+    }
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
+        if (rs->partial_line > 0)
+            fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has "
+                            "no line end and the file changed while it was "
+                            "read (a writer was still at it); it is left "
+                            "out\n",
+                    sw_stepper_series(st, i)->path, rs->partial_line);
+    }
+    warn_implausible(site, st);
+}
+
+/* 1 when some gate was low or open. */
+static int any_below(const sw_site *site, const sw_stepper *st)
+{
+    for (size_t i = 0; i < site->n_gates; i++) {
+        const sw_tally *t = sw_stepper_tally(st, i);
+        if (t->low > 0 || t->open > 0)
+            return 1;
+    }
+    return 0;
 }
 
 int sw_cmd_run(int argc, char **argv)
 {
     run_opts o;
     sw_site site;
-    sw_stepper *st = NULL;
-    sw_html_report *rep = NULL;
-    sw_event_log *log = NULL;
-    sw_outfile out[N_OUT];
+    sw_replay *rp = NULL;
     sw_error err;
-    int rc, done = 0, exit_code;
-    long steps = 0;
-    int show_progress;
-    struct timespec last, now;
-    char cmd[2048];
+    int rc;
+    char cmd[2048], sha[SW_CLI_SHA256_HEX], when[32];
 
-    memset(out, 0, sizeof out);
     command_line(cmd, sizeof cmd, argc, argv); /* before getopt permutes */
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
@@ -462,145 +404,24 @@ int sw_cmd_run(int argc, char **argv)
         sw_site_fini(&site);
         return rc;
     }
-
-    /* the report draws every point and sums the months */
-    sw_stepper_options sopt = {o.by_month || o.report, o.steps || o.report};
-    if ((rc = sw_stepper_alloc(&st, &site, &sopt, &err)) != SW_OK)
-        goto fail;
-    if (o.report && (rc = sw_html_report_alloc(&rep, &site, &err)) != SW_OK)
-        goto fail;
-    if ((rc = sw_event_log_alloc(&log, site.n_gates, &err)) != SW_OK)
-        goto fail;
+    sw_replay_options ropt = {o.steps, o.by_month, o.report, o.json};
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
-        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
-        goto fail;
-    for (int k = 0; k < N_OUT; k++) {
-        if ((k == OUT_STEPS && !o.steps) || (k == OUT_MONTHS && !o.by_month) ||
-            (k == OUT_REPORT && !o.report) || (k == OUT_JSON && !o.json))
-            continue;
-        if ((rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
-            SW_OK)
-            goto fail;
-    }
-    sw_report_summary_header(out[OUT_SUMMARY].fp);
-    sw_report_events_header(out[OUT_EVENTS].fp);
-    sw_report_flags_header(out[OUT_FLAGS].fp);
-    if (o.steps)
-        sw_report_steps_header(out[OUT_STEPS].fp);
-    if (o.by_month)
-        sw_report_months_header(out[OUT_MONTHS].fp);
-
-    show_progress = !o.quiet && isatty(STDERR_FILENO);
-    clock_gettime(CLOCK_MONOTONIC, &last);
-    while (!done) {
-        if ((rc = sw_stepper_advance(st, &done, &err)) != SW_OK)
-            goto fail;
-        if (sw_cancel_requested())
-            goto stop;
-        if (!done) {
-            if ((rc = write_step(st, &site, out, &o, rep, log, &err)) !=
-                SW_OK)
-                goto fail;
-            steps++;
-        }
-        if (show_progress && (steps & 4095) == 0) {
-            clock_gettime(CLOCK_MONOTONIC, &now);
-            if (now.tv_sec - last.tv_sec >= 1) {
-                progress(st, &site, steps);
-                last = now;
-            }
-        }
-    }
-    if ((rc = sw_stepper_finish(st, &err)) != SW_OK)
-        goto fail;
-    if (!sw_stepper_has_data(st)) {
-        rc = sw_stepper_no_data_error(st, &err);
-        goto fail;
-    }
-    if ((rc = write_step(st, &site, out, &o, rep, log, &err)) != SW_OK ||
-        (rc = sw_event_log_write(log, out[OUT_EVENTS].fp, &site, &err)) !=
-            SW_OK)
-        goto fail;
-    if (show_progress)
-        fputs("\r\033[K", stderr);
-
-    {
-        sw_time_ms t0, t1;
-        sw_stepper_span(st, &t0, &t1);
-        for (size_t i = 0; i < site.n_gates; i++)
-            sw_report_summary_row(out[OUT_SUMMARY].fp, site.gates[i].gate.name,
-                                  t0, t1, sw_stepper_tally(st, i), site.zone);
-        if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, st, t0, t1,
-                                       &err)) != SW_OK)
-            goto fail;
-    }
-    char sha[SW_CLI_SHA256_HEX], when[32];
-    if ((rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK)
+        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK ||
+        (rc = sw_replay_open(&rp, &site, o.outdir, &ropt, &err)) != SW_OK ||
+        (rc = replay_all(rp, &site, !o.quiet && isatty(STDERR_FILENO),
+                         &err)) != SW_OK ||
+        (rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK)
         goto fail;
     if (sw_cli_generation_time(when, sizeof when) != 0)
         snprintf(when, sizeof when, "(SOURCE_DATE_EPOCH unreadable)");
-    if (o.report) {
-        sw_html_meta meta = {sha, when, SW_VERSION, sw_cli_caution, cmd, NULL};
-        if ((rc = write_report(rep, out[OUT_REPORT].fp, st, &meta, &err)) !=
-            SW_OK)
-            goto fail;
-    }
-    for (int k = 0; k < N_OUT; k++)
-        if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
-            goto fail;
-    if (sw_cancel_requested())
-        goto stop;
-    {
-        sw_outset_meta mm = {SW_VERSION, sha, when};
-        if ((rc = sw_outset_publish(o.outdir, out, out_names, N_OUT, &mm,
-                                    &err)) != SW_OK)
-            goto fail;
-    }
+    sw_replay_meta meta = {SW_VERSION, sha, when, sw_cli_caution, cmd};
+    if ((rc = sw_replay_finish(rp, &meta, &err)) != SW_OK)
+        goto fail;
 
-    exit_code = SW_EXIT_OK;
-    for (size_t i = 0; i < site.n_gates; i++) {
-        const sw_tally *t = sw_stepper_tally(st, i);
-        sw_time_ms t0, t1;
-        sw_stepper_span(st, &t0, &t1);
-        if (t->low > 0 || t->open > 0)
-            exit_code = SW_EXIT_BELOW;
-        if (t->evaluated < t1 - t0 && !o.quiet) {
-            char h[24], hg[24], he[24];
-            sw_time_ms edge = sw_stepper_unknown_edge(st, i);
-            sw_report_hours_text(h, sizeof h, (t1 - t0) - t->evaluated);
-            /* each part rounded once, as the gaps of the data-quality
-             * account are */
-            sw_time_ms in_gaps = (t1 - t0) - t->evaluated - edge;
-            sw_report_hours_text(hg, sizeof hg, in_gaps);
-            sw_report_hours_text(he, sizeof he, edge);
-            /* say where the hours come from: gaps, series ends */
-            char why[160];
-            if (edge == 0)
-                snprintf(why, sizeof why, "in gaps longer than max_gap");
-            else if (in_gaps == 0)
-                snprintf(why, sizeof why, "before a series began or after "
-                         "it ended");
-            else
-                snprintf(why, sizeof why, "%s h in gaps longer than "
-                         "max_gap, %s h before a series began or after it "
-                         "ended", hg, he);
-            fprintf(stderr, "sillwatch: warning: gate %s: %s h without level "
-                    "data were not evaluated (%s); they are not counted as "
-                    "safe\n", site.gates[i].gate.name, h, why);
-        }
-    }
-    for (size_t i = 0; i < sw_stepper_n_series(st) && !o.quiet; i++) {
-        const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
-        if (rs->partial_line > 0)
-            fprintf(stderr, "sillwatch: warning: %s:%ld: the last line has "
-                            "no line end and the file changed while it was "
-                            "read (a writer was still at it); it is left "
-                            "out\n",
-                    sw_stepper_series(st, i)->path, rs->partial_line);
-    }
-    if (!o.quiet)
-        warn_implausible(&site, st);
+    const sw_stepper *st = sw_replay_stepper(rp);
+    int exit_code = any_below(&site, st) ? SW_EXIT_BELOW : SW_EXIT_OK;
     if (!o.quiet) {
+        warn_after(&site, st);
         print_summary(&site, st);
         print_quality(&site, st);
         printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s%s, "
@@ -610,29 +431,12 @@ int sw_cmd_run(int argc, char **argv)
                o.json ? ", summary.json" : "");
         fputs(sw_cli_caution, stdout);
     }
-    sw_html_report_free(rep);
-    sw_event_log_free(log);
-    sw_stepper_free(st);
+    sw_replay_free(rp);
     sw_site_fini(&site);
     return exit_code;
 
-stop:
-    if (show_progress)
-        fputs("\n", stderr);
-    for (int k = 0; k < N_OUT; k++)
-        sw_outfile_abort(&out[k]);
-    sw_html_report_free(rep);
-    sw_event_log_free(log);
-    sw_stepper_free(st);
-    sw_site_fini(&site);
-    return run_interrupted(o.outdir);
-
 fail:
-    for (int k = 0; k < N_OUT; k++)
-        sw_outfile_abort(&out[k]);
-    sw_html_report_free(rep);
-    sw_event_log_free(log);
-    sw_stepper_free(st);
+    sw_replay_free(rp);
     sw_site_fini(&site);
     if (rc == SW_EINTERRUPTED)
         return run_interrupted(o.outdir);

@@ -14,7 +14,6 @@
 #include <time.h>
 
 #include <gsl/gsl_errno.h>
-#include <nettle/sha2.h>
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
@@ -26,30 +25,10 @@ const char sw_cli_caution[] =
     "friction); not a structural assessment. Defer to local codes and a\n"
     "licensed engineer before acting on these results.\n";
 
-/* SHA-256 of the file at `path` as 64 hex digits (nettle). */
 int sw_cli_sha256_file(const char *path, char hex[SW_CLI_SHA256_HEX],
                        sw_error *err)
 {
-    struct sha256_ctx ctx;
-    uint8_t digest[SHA256_DIGEST_SIZE], buf[65536];
-    FILE *fp = fopen(path, "rb");
-    size_t n;
-
-    if (fp == NULL)
-        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read: %s",
-                            strerror(errno));
-    sha256_init(&ctx);
-    while ((n = fread(buf, 1, sizeof buf, fp)) > 0)
-        sha256_update(&ctx, n, buf);
-    if (ferror(fp)) {
-        fclose(fp);
-        return sw_error_set(err, SW_ESITE, path, 0, 0, "cannot read");
-    }
-    fclose(fp);
-    sha256_digest(&ctx, SHA256_DIGEST_SIZE, digest);
-    for (size_t i = 0; i < SHA256_DIGEST_SIZE; i++)
-        snprintf(hex + 2 * i, 3, "%02x", digest[i]);
-    return SW_OK;
+    return sw_file_sha256(path, hex, SW_ESITE, err);
 }
 
 int sw_cli_site_sha256(const sw_site *site, char hex[SW_CLI_SHA256_HEX],

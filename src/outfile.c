@@ -262,6 +262,16 @@ static int hash_file(const char *path, uint64_t *bytes, char hex[65])
     return 0;
 }
 
+int sw_file_sha256(const char *path, char hex[SW_SHA256_HEX], int code,
+                   sw_error *err)
+{
+    uint64_t bytes;
+    if (hash_file(path, &bytes, hex) != 0)
+        return sw_error_set(err, code, path, 0, 0, "cannot read: %s",
+                            strerror(errno));
+    return SW_OK;
+}
+
 /* Write the manifest of the closed files to a temporary file. */
 static int write_manifest(sw_outfile *mf, const char *dir, sw_outfile *files,
                           const char *const *names, size_t n,

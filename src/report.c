@@ -252,16 +252,14 @@ static char *put_crit(char *w, const sw_crit *c)
     return w;
 }
 
-void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
+void sw_report_step_row(FILE *fp, const char *when, const char *gate,
                         const sw_gate_result *r, const sw_crit *alarm,
-                        const sw_crit *open, const sw_zone *zone)
+                        const sw_crit *open)
 {
-    char line[2 * INSTANT_MAX + 7 * FIXED_MAX + 128], *w = line;
+    char line[7 * FIXED_MAX + 128], *w = line;
 
-    w = put_instant(w, t, zone);
-    *w++ = ',';
-    fwrite(line, 1, (size_t)(w - line), fp);
-    w = line;
+    fputs(when, fp);
+    fputc(',', fp);
     *w++ = ',';
     w = put_fixed(w, r->headwater_m, 4);
     *w++ = ',';

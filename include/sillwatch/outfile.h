@@ -68,6 +68,13 @@ typedef struct sw_outset_meta {
     const char *run_time;      /* ISO 8601 UTC */
 } sw_outset_meta;
 
+/* SHA-256 of the file at `path` as 64 hex digits and a NUL (nettle).
+ * Errors: `code` (the caller's: SW_ESITE for a site file, SW_EDATA for a
+ * level file) with the reason. */
+#define SW_SHA256_HEX 65
+int sw_file_sha256(const char *path, char hex[SW_SHA256_HEX], int code,
+                   sw_error *err);
+
 /* Publish the closed files of files[0..n) (the names of the set:
  * names[k] in `dir`) as one set, as described above.  A name whose file
  * is not closed (not written this time) is removed from the folder as

@@ -35,11 +35,13 @@ void sw_report_event_row(FILE *fp, const char *gate, const sw_event *ev,
                          const sw_zone *zone);
 
 void sw_report_steps_header(FILE *fp);
-/* alarm/open may be NULL (not computed); a crit of kind "not needed"
+/* One gate at one point.  `when` is the point's time as
+ * sw_time_format() writes it (formatted once for all gates of a point);
+ * alarm/open may be NULL (not computed); a crit of kind "not needed"
  * prints as an empty field. */
-void sw_report_step_row(FILE *fp, sw_time_ms t, const char *gate,
+void sw_report_step_row(FILE *fp, const char *when, const char *gate,
                         const sw_gate_result *r, const sw_crit *alarm,
-                        const sw_crit *open, const sw_zone *zone);
+                        const sw_crit *open);
 
 void sw_report_months_header(FILE *fp);
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,

@@ -139,15 +139,20 @@ static double bare_parse(const char *path)
 }
 
 /* Run the program; return wall seconds and peak RSS in KiB. */
-static int run_replay(const char *site, double *secs, long *rss_kib)
+static int run_replay(const char *site, int steps, double *secs,
+                      long *rss_kib)
 {
     double t0 = now_s();
     pid_t pid = fork();
     if (pid < 0)
         return -1;
     if (pid == 0) {
-        execl("build/sillwatch", "sillwatch", "run", site, "-o",
-              "build/bench/out", "-q", (char *)NULL);
+        if (steps)
+            execl("build/sillwatch", "sillwatch", "run", site, "-o",
+                  "build/bench/out", "-q", "--steps", (char *)NULL);
+        else
+            execl("build/sillwatch", "sillwatch", "run", site, "-o",
+                  "build/bench/out", "-q", (char *)NULL);
         _exit(127);
     }
     int status;
@@ -201,7 +206,7 @@ int main(void)
         double bare = bare_parse(levels);
         double secs;
         long rss;
-        if (bare < 0 || run_replay(site, &secs, &rss) != 0)
+        if (bare < 0 || run_replay(site, 0, &secs, &rss) != 0)
             return 1;
         printf("replay of %ld rows (%.1f MB), 3 gates:\n", sizes[k], mb);
         printf("  bare libcsv parse   %7.3f s  %7.1f MB/s\n", bare, mb / bare);
@@ -216,6 +221,15 @@ int main(void)
         printf("  events found        %7ld (%.1f a year of data)\n",
                count_events(), (double)count_events() /
                                    ((double)sizes[k] / (4.0 * 24 * 365.25)));
+        /* the step log: every gate at every point with its critical
+         * tailwaters (remembered by exact headwater) */
+        double steps_secs;
+        long steps_rss;
+        if (run_replay(site, 1, &steps_secs, &steps_rss) != 0)
+            return 1;
+        printf("  run --steps         %7.3f s  %7.2f x the plain run "
+               "(target <= 3), peak RSS %.1f MiB\n",
+               steps_secs, steps_secs / secs, (double)steps_rss / 1024.0);
     }
     return 0;
 }
