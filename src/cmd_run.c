@@ -3,6 +3,7 @@
 #include <errno.h>
 #include <getopt.h>
 #include <math.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -12,6 +13,7 @@
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
+#include "sillwatch/jobs.h"
 #include "sillwatch/replay.h"
 #include "sillwatch/report.h"
 #include "sillwatch/site.h"
@@ -21,6 +23,7 @@ static const char run_help[] =
     "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
     "                     [--steps] [--by month] [--report] [--json]\n"
     "                     [--quiet]\n"
+    "       sillwatch run SITE.ini SITE.ini... -o OUTDIR [-j N] [options]\n"
     "Replay the level series named in the site file through every gate and\n"
     "write, in OUTDIR (created if missing):\n"
     "  summary.csv   per gate: hours evaluated, not evaluated, low, open,\n"
@@ -39,6 +42,9 @@ static const char run_help[] =
     "                without it holds no complete set\n"
     "The files are put in place as one set: a failed or interrupted run\n"
     "leaves the previous set as it was.\n"
+    "With several site files, each site is replayed exactly as alone, into\n"
+    "OUTDIR/<site file name without .ini>/, on N worker processes; a failed\n"
+    "site does not stop the others; the exit status is the worst.\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE instead of the\n"
@@ -47,6 +53,8 @@ static const char run_help[] =
     "  --by month             write months.csv\n"
     "  --report               write report.html\n"
     "  --json                 write summary.json\n"
+    "  -j, --jobs N           several sites: N at a time (default: the\n"
+    "                         number of processors)\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
@@ -58,10 +66,33 @@ static const char run_help[] =
 
 typedef struct run_opts {
     const char *site_path, *outdir;
+    char *const *sites; /* several site files: each in OUTDIR/<stem>/ */
+    size_t n_sites;
+    unsigned jobs;      /* worker processes for several sites */
     int steps, by_month, report, json, quiet;
     const char *series[64];
     size_t n_series;
 } run_opts;
+
+/* Several site files: no --series (whose site would it be?), no
+ * standard input, an output folder. */
+static int fleet_operands(int argc, char **argv, run_opts *o)
+{
+    if (o->outdir == NULL)
+        return sw_cli_usage_error("run", "give the output folder with -o "
+                                         "OUTDIR");
+    if (o->n_series > 0)
+        return sw_cli_usage_error("run", "--series names a series of one "
+                                         "site: give one site file with it");
+    o->sites = argv + optind;
+    o->n_sites = (size_t)(argc - optind);
+    for (size_t i = 0; i < o->n_sites; i++)
+        if (strcmp(o->sites[i], "-") == 0)
+            return sw_cli_usage_error("run", "several site files: '-' "
+                                             "(standard input) is not one "
+                                             "of them");
+    return 0;
+}
 
 static int parse_args(int argc, char **argv, run_opts *o)
 {
@@ -73,6 +104,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"by", required_argument, NULL, 'b'},
         {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
+        {"jobs", required_argument, NULL, 'j'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -81,7 +113,8 @@ static int parse_args(int argc, char **argv, run_opts *o)
 
     memset(o, 0, sizeof *o);
     opterr = 0;
-    while ((opt = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+    o->jobs = sw_jobs_default_workers();
+    while ((opt = getopt_long(argc, argv, ":o:j:qh", opts, NULL)) != -1) {
         switch (opt) {
         case 'o':
             o->outdir = optarg;
@@ -110,6 +143,18 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'j': {
+            char *end;
+            errno = 0;
+            long j = strtol(optarg, &end, 10);
+            if (end == optarg || *end != '\0' || errno != 0 || j < 1 ||
+                j > 1024)
+                return sw_cli_usage_error("run", "--jobs: '%s' is not a "
+                                                 "number of workers from 1 "
+                                                 "to 1024", optarg);
+            o->jobs = (unsigned)j;
+            break;
+        }
         case 'V':
             sw_cli_version();
             return -1;
@@ -121,6 +166,8 @@ static int parse_args(int argc, char **argv, run_opts *o)
             return sw_cli_option_error("run", opt, argv);
         }
     }
+    if (argc - optind > 1)
+        return fleet_operands(argc, argv, o);
     rc = sw_cli_site_operand("run", argc, argv, o->outdir,
                              &o->site_path);
     if (rc == 0 && o->report && strcmp(o->site_path, "-") == 0)
@@ -271,7 +318,7 @@ static void warn_implausible(const sw_site *site, const sw_stepper *st)
  * from (gaps, series ends), each part rounded once as the data-quality
  * account rounds its gaps. */
 static void warn_not_evaluated(const sw_site *site, const sw_stepper *st,
-                               size_t i, sw_time_ms missing)
+                               size_t i, sw_time_ms missing, int name_site)
 {
     char h[24], hg[24], he[24], why[160];
     sw_time_ms edge = sw_stepper_unknown_edge(st, i);
@@ -287,9 +334,10 @@ static void warn_not_evaluated(const sw_site *site, const sw_stepper *st,
     else
         snprintf(why, sizeof why, "%s h in gaps longer than max_gap, %s h "
                  "before a series began or after it ended", hg, he);
-    fprintf(stderr, "sillwatch: warning: gate %s: %s h without level data "
-            "were not evaluated (%s); they are not counted as safe\n",
-            site->gates[i].gate.name, h, why);
+    fprintf(stderr, "sillwatch: warning: %s%s%sgate %s: %s h without level "
+            "data were not evaluated (%s); they are not counted as safe\n",
+            name_site ? "site " : "", name_site ? site->path : "",
+            name_site ? ": " : "", site->gates[i].gate.name, h, why);
 }
 
 static void progress(const sw_stepper *st, const sw_site *site, long steps)
@@ -354,14 +402,16 @@ static int replay_all(sw_replay *rp, const sw_site *site, int show_progress,
 
 /* Warnings on standard error: hours not evaluated and why, last lines
  * left out, implausible levels. */
-static void warn_after(const sw_site *site, const sw_stepper *st)
+static void warn_after(const sw_site *site, const sw_stepper *st,
+                       int name_site)
 {
     sw_time_ms t0, t1;
     sw_stepper_span(st, &t0, &t1);
     for (size_t i = 0; i < site->n_gates; i++) {
         const sw_tally *t = sw_stepper_tally(st, i);
         if (t->evaluated < t1 - t0)
-            warn_not_evaluated(site, st, i, (t1 - t0) - t->evaluated);
+            warn_not_evaluated(site, st, i, (t1 - t0) - t->evaluated,
+                               name_site);
     }
     for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
         const sw_reader_stats *rs = sw_stepper_reader_stats(st, i);
@@ -386,30 +436,30 @@ static int any_below(const sw_site *site, const sw_stepper *st)
     return 0;
 }
 
-int sw_cmd_run(int argc, char **argv)
+/* Replay one site into `outdir` (made if missing); print its summary
+ * unless `brief` or quiet.  Returns the exit status. */
+static int run_site(const run_opts *o, const char *site_path,
+                    const char *outdir, const char *cmd, int brief)
 {
-    run_opts o;
     sw_site site;
     sw_replay *rp = NULL;
     sw_error err;
     int rc;
-    char cmd[2048], sha[SW_CLI_SHA256_HEX], when[32];
+    char sha[SW_CLI_SHA256_HEX], when[32];
 
-    command_line(cmd, sizeof cmd, argc, argv); /* before getopt permutes */
-    if ((rc = parse_args(argc, argv, &o)) != 0)
-        return rc < 0 ? SW_EXIT_OK : rc;
-    if (sw_site_load(&site, o.site_path, &err) != SW_OK)
+    if (sw_site_load(&site, site_path, &err) != SW_OK)
         return sw_cli_report(&err);
-    if ((rc = sw_cli_apply_series(&site, o.series, o.n_series, "run")) != 0) {
+    if ((rc = sw_cli_apply_series(&site, o->series, o->n_series, "run")) !=
+        0) {
         sw_site_fini(&site);
         return rc;
     }
-    sw_replay_options ropt = {o.steps, o.by_month, o.report, o.json};
-    if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
-        (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK ||
-        (rc = sw_replay_open(&rp, &site, o.outdir, &ropt, &err)) != SW_OK ||
-        (rc = replay_all(rp, &site, !o.quiet && isatty(STDERR_FILENO),
-                         &err)) != SW_OK ||
+    sw_replay_options ropt = {o->steps, o->by_month, o->report, o->json};
+    int show_progress = !o->quiet && !brief && isatty(STDERR_FILENO);
+    if ((rc = sw_cli_make_outdir(outdir, &err)) != SW_OK ||
+        (rc = sw_cli_recover(outdir, o->quiet, &err)) != SW_OK ||
+        (rc = sw_replay_open(&rp, &site, outdir, &ropt, &err)) != SW_OK ||
+        (rc = replay_all(rp, &site, show_progress, &err)) != SW_OK ||
         (rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK)
         goto fail;
     if (sw_cli_generation_time(when, sizeof when) != 0)
@@ -420,15 +470,17 @@ int sw_cmd_run(int argc, char **argv)
 
     const sw_stepper *st = sw_replay_stepper(rp);
     int exit_code = any_below(&site, st) ? SW_EXIT_BELOW : SW_EXIT_OK;
-    if (!o.quiet) {
-        warn_after(&site, st);
+    if (!o->quiet)
+        warn_after(&site, st, brief);
+    if (!o->quiet && !brief) {
         print_summary(&site, st);
         print_quality(&site, st);
         printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s%s, "
-               "manifest.csv\n", o.outdir,
-               o.steps ? ", steps.csv" : "", o.by_month ? ", months.csv" : "",
-               o.report ? ", report.html" : "",
-               o.json ? ", summary.json" : "");
+               "manifest.csv\n", outdir,
+               o->steps ? ", steps.csv" : "",
+               o->by_month ? ", months.csv" : "",
+               o->report ? ", report.html" : "",
+               o->json ? ", summary.json" : "");
         fputs(sw_cli_caution, stdout);
     }
     sw_replay_free(rp);
@@ -439,6 +491,167 @@ fail:
     sw_replay_free(rp);
     sw_site_fini(&site);
     if (rc == SW_EINTERRUPTED)
-        return run_interrupted(o.outdir);
+        return run_interrupted(outdir);
     return sw_cli_report(&err);
+}
+
+/* ---- several sites ------------------------------------------------- */
+
+typedef struct fleet {
+    const run_opts *o;
+    const char *cmd;
+    char (*dir)[SW_ERROR_PATH_MAX]; /* per site: OUTDIR/<stem> */
+    int show_progress;
+} fleet;
+
+/* The stem of a site file: its name without folder and last extension. */
+static void stem_of(const char *path, char *out, size_t n)
+{
+    const char *base = strrchr(path, '/');
+    base = base != NULL ? base + 1 : path;
+    const char *dot = strrchr(base, '.');
+    size_t len = dot != NULL && dot != base ? (size_t)(dot - base)
+                                            : strlen(base);
+    snprintf(out, n, "%.*s", (int)len, base);
+}
+
+/* Each site's folder; two sites with one stem would share it. */
+static int fleet_folders(fleet *f)
+{
+    const run_opts *o = f->o;
+    for (size_t i = 0; i < o->n_sites; i++) {
+        char stem[256];
+        stem_of(o->sites[i], stem, sizeof stem);
+        if (stem[0] == '\0' || strcmp(stem, "..") == 0)
+            return sw_cli_usage_error("run", "%s: no name to give its "
+                                             "folder", o->sites[i]);
+        if ((size_t)snprintf(f->dir[i], sizeof f->dir[i], "%s/%s",
+                             o->outdir, stem) >= sizeof f->dir[i])
+            return sw_cli_usage_error("run", "%s: the folder's path is too "
+                                             "long", o->sites[i]);
+        for (size_t k = 0; k < i; k++)
+            if (strcmp(f->dir[k], f->dir[i]) == 0)
+                return sw_cli_usage_error("run", "%s and %s would share the "
+                                                 "folder %s: rename one",
+                                          o->sites[k], o->sites[i],
+                                          f->dir[i]);
+    }
+    return 0;
+}
+
+static int fleet_job(size_t i, void *ctx)
+{
+    fleet *f = ctx;
+    return run_site(f->o, f->o->sites[i], f->dir[i], f->cmd, 1);
+}
+
+static void fleet_done(size_t i, int status, size_t n_done, void *ctx)
+{
+    fleet *f = ctx;
+    (void)i;
+    (void)status;
+    if (f->show_progress)
+        fprintf(stderr, "\rsillwatch: run: %zu of %zu sites done   ", n_done,
+                f->o->n_sites);
+}
+
+/* What an exit status says, for the list of sites. */
+static const char *status_words(int st)
+{
+    switch (st) {
+    case SW_EXIT_OK: return "every gate held its margin";
+    case SW_EXIT_BELOW: return "some gate low or open";
+    case -1: return "not run (interrupted)";
+    case 3: return "failed: site file";
+    case 4: return "failed: level data";
+    case 5: return "failed: output";
+    default: return st >= 128 ? "interrupted" : "failed";
+    }
+}
+
+/* The sites with their outcome; the worst status. */
+static int fleet_list(const fleet *f, const int *status)
+{
+    int worst = SW_EXIT_OK;
+    size_t failed = 0;
+    for (size_t i = 0; i < f->o->n_sites; i++) {
+        int st = status[i] < 0 ? 128 + SIGINT : status[i];
+        worst = st > worst ? st : worst;
+        failed += status[i] != SW_EXIT_OK && status[i] != SW_EXIT_BELOW;
+        if (!f->o->quiet)
+            printf("  %-40s %-12s exit %3d  %s\n", f->o->sites[i],
+                   strrchr(f->dir[i], '/') + 1, status[i],
+                   status_words(status[i]));
+    }
+    if (failed > 0) {
+        fprintf(stderr, "sillwatch: run: %zu of %zu sites failed:", failed,
+                f->o->n_sites);
+        for (size_t i = 0; i < f->o->n_sites; i++)
+            if (status[i] != SW_EXIT_OK && status[i] != SW_EXIT_BELOW)
+                fprintf(stderr, " %s (exit %d)", f->o->sites[i], status[i]);
+        fputc('\n', stderr);
+    }
+    return worst;
+}
+
+/* Several sites, each replayed in OUTDIR/<stem>/ exactly as a single run,
+ * on o->jobs worker processes. */
+static int run_fleet(const run_opts *o, const char *cmd)
+{
+    fleet f = {o, cmd, calloc(o->n_sites, sizeof *f.dir), 0};
+    int *status = calloc(o->n_sites, sizeof *status);
+    sw_error err;
+    int rc;
+
+    if (f.dir == NULL || status == NULL) {
+        free(f.dir);
+        free(status);
+        fprintf(stderr, "sillwatch: run: out of memory\n");
+        return SW_EXIT_OUTPUT;
+    }
+    if ((rc = fleet_folders(&f)) != 0)
+        goto done;
+    if ((rc = sw_cli_make_outdir(o->outdir, &err)) != SW_OK) {
+        rc = sw_cli_report(&err);
+        goto done;
+    }
+    f.show_progress = !o->quiet && isatty(STDERR_FILENO);
+    if (!o->quiet)
+        printf("replaying %zu sites on %u worker%s, each in %s/<site file "
+               "name>/:\n", o->n_sites, o->jobs, o->jobs == 1 ? "" : "s",
+               o->outdir);
+    fflush(stdout);
+    rc = sw_jobs_run(o->n_sites, o->jobs, fleet_job, fleet_done, &f, status,
+                     &err);
+    if (f.show_progress)
+        fputs("\r\033[K", stderr);
+    int worst = fleet_list(&f, status);
+    if (rc != SW_OK && rc != SW_EINTERRUPTED) {
+        int e = sw_cli_report(&err); /* a worker could not be started */
+        worst = e > worst ? e : worst;
+    }
+    if (rc == SW_EINTERRUPTED)
+        worst = sw_cli_interrupted("run", "each site's earlier outputs are "
+                                          "left as they were");
+    if (!o->quiet)
+        fputs(sw_cli_caution, stdout);
+    rc = worst;
+done:
+    free(f.dir);
+    free(status);
+    return rc;
+}
+
+int sw_cmd_run(int argc, char **argv)
+{
+    run_opts o;
+    int rc;
+    char cmd[2048];
+
+    command_line(cmd, sizeof cmd, argc, argv); /* before getopt permutes */
+    if ((rc = parse_args(argc, argv, &o)) != 0)
+        return rc < 0 ? SW_EXIT_OK : rc;
+    if (o.n_sites > 1)
+        return run_fleet(&o, cmd);
+    return run_site(&o, o.site_path, o.outdir, cmd, 0);
 }
