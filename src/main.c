@@ -123,6 +123,8 @@ static const char usage_text[] =
     "                     tailwater a headwater-only forecast needs\n"
     "  thresholds SITE.ini (--headwater | --tailwater) FROM:TO:STEP -o FILE\n"
     "                     write a table of alarm thresholds for controllers\n"
+    "  fleet DIR... -o FILE  put the summaries of many sites' runs (their\n"
+    "                     output folders) in one table\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -135,7 +137,8 @@ static const char usage_text[] =
     "  1  ran; some gate was below its margin (low) or open\n"
     "  2  the command line is wrong\n"
     "  3  the site file is unreadable or invalid\n"
-    "  4  a level file is unreadable or invalid\n"
+    "  4  a level file (for fleet: a run's output folder) is unreadable or\n"
+    "     invalid\n"
     "  5  an output could not be written\n"
     "  6  a numerical method failed (please report it)\n"
     "  7  out of memory\n"
@@ -416,6 +419,7 @@ int main(int argc, char **argv)
         {"run", sw_cmd_run, 1},
         {"screen", sw_cmd_screen, 1},
         {"thresholds", sw_cmd_thresholds, 1},
+        {"fleet", sw_cmd_fleet, 1},
     };
 
     /* Failures are reported through status codes, never by abort(). */
