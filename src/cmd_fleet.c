@@ -134,24 +134,63 @@ static int write_table(FILE *fp, const fleet_opts *o, sw_fleet_site *sites,
     return SW_OK;
 }
 
-int sw_cmd_fleet(int argc, char **argv)
+/* The table to standard output, only when it is whole: it is made in
+ * memory first (a summary row is some 200 bytes). */
+static int table_to_stdout(const fleet_opts *o, sw_fleet_site *sites,
+                           sw_error *err)
 {
-    fleet_opts o;
-    sw_outfile out;
-    sw_error err;
-    sw_fleet_site *sites = NULL;
-    FILE *mem = NULL;
     char *table = NULL;
-    size_t table_size = 0;
-    char dir[SW_ERROR_PATH_MAX];
-    const char *name = NULL;
+    size_t size = 0;
+    FILE *mem = open_memstream(&table, &size);
+    int rc;
+
+    if (mem == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    rc = write_table(mem, o, sites, err);
+    if (fclose(mem) != 0 && rc == SW_OK)
+        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    if (rc == SW_OK && (fwrite(table, 1, size, stdout) != size ||
+                        fflush(stdout) != 0 || ferror(stdout)))
+        rc = sw_error_set(err, SW_EOUTPUT, NULL, 0, 0,
+                          "cannot write the table to standard output");
+    free(table);
+    return rc;
+}
+
+/* The table to the file o->output (`name` in `dir`), through a temporary
+ * file renamed over it when whole (outfile.h); on error the temporary
+ * file is removed. */
+static int table_to_file(const fleet_opts *o, const char *dir,
+                         const char *name, sw_fleet_site *sites,
+                         sw_error *err)
+{
+    sw_outfile out;
     int rc;
 
     memset(&out, 0, sizeof out);
+    if ((rc = sw_cli_open_output_file(&out, o->output, dir, name, o->quiet,
+                                      err)) != SW_OK ||
+        (rc = write_table(out.fp, o, sites, err)) != SW_OK ||
+        (rc = sw_outfile_close(&out, err)) != SW_OK ||
+        (rc = sw_cancel_check(err)) != SW_OK ||
+        (rc = sw_outfile_publish(&out, err)) != SW_OK)
+        sw_outfile_abort(&out);
+    return rc;
+}
+
+int sw_cmd_fleet(int argc, char **argv)
+{
+    fleet_opts o;
+    sw_error err;
+    sw_fleet_site *sites;
+    char dir[SW_ERROR_PATH_MAX];
+    const char *name = NULL;
+    size_t below = 0;
+    int rc;
+
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
     const int to_stdout = strcmp(o.output, "-") == 0;
-    FILE *msg = to_stdout ? stderr : stdout; /* stdout holds the table */
     if (!to_stdout && sw_cli_split_path(o.output, dir, sizeof dir, &name) != 0)
         return sw_cli_usage_error("fleet", "-o: '%s' does not name a file",
                                   o.output);
@@ -160,62 +199,30 @@ int sw_cmd_fleet(int argc, char **argv)
         return sw_cli_report(&err);
     }
     /* names first: a doubled name shows before the output is touched */
-    if ((rc = sw_fleet_check_names(o.dirs, o.n_dirs, &err)) != SW_OK ||
-        (!to_stdout && (rc = sw_cli_open_output_file(&out, o.output, dir,
-                                                     name, o.quiet, &err)) !=
-                           SW_OK))
-        goto fail;
-    /* standard output gets the table only when it is whole: it is made
-     * in memory first (a summary row is some 200 bytes) */
-    if (to_stdout && (mem = open_memstream(&table, &table_size)) == NULL) {
-        rc = sw_error_set(&err, SW_ENOMEM, NULL, 0, 0, "out of memory");
-        goto fail;
+    if ((rc = sw_fleet_check_names(o.dirs, o.n_dirs, &err)) == SW_OK)
+        rc = to_stdout ? table_to_stdout(&o, sites, &err)
+                       : table_to_file(&o, dir, name, sites, &err);
+    if (rc == SW_OK) {
+        for (size_t i = 0; i < o.n_dirs; i++)
+            below += sites[i].n_below;
+        if (!o.quiet) /* stdout holds the table with -o - */
+            print_totals(to_stdout ? stderr : stdout,
+                         to_stdout ? "standard output" : o.output, sites,
+                         o.n_dirs);
     }
-    rc = write_table(to_stdout ? mem : out.fp, &o, sites, &err);
-    if (mem != NULL && fclose(mem) != 0 && rc == SW_OK)
-        rc = sw_error_set(&err, SW_ENOMEM, NULL, 0, 0, "out of memory");
-    mem = NULL;
-    if (rc != SW_OK)
-        goto fail;
-    if (to_stdout) {
-        if (fwrite(table, 1, table_size, stdout) != table_size ||
-            fflush(stdout) != 0 || ferror(stdout)) {
-            rc = sw_error_set(&err, SW_EOUTPUT, NULL, 0, 0,
-                              "cannot write the table to standard output");
-            goto fail;
-        }
-    } else if ((rc = sw_outfile_close(&out, &err)) != SW_OK ||
-               (rc = sw_cancel_check(&err)) != SW_OK ||
-               (rc = sw_outfile_publish(&out, &err)) != SW_OK) {
-        goto fail;
-    }
-
-    size_t below = 0;
-    for (size_t i = 0; i < o.n_dirs; i++)
-        below += sites[i].n_below;
-    if (!o.quiet)
-        print_totals(msg, to_stdout ? "standard output" : o.output, sites,
-                     o.n_dirs);
     free(sites);
-    free(table);
+    if (rc == SW_EINTERRUPTED) {
+        char what[SW_ERROR_PATH_MAX + 32];
+        snprintf(what, sizeof what, "%s is left as it was", o.output);
+        return sw_cli_interrupted(
+            "fleet", to_stdout ? "nothing was written to standard output"
+                               : what);
+    }
+    if (rc != SW_OK)
+        return sw_cli_report(&err);
     if (fflush(stdout) != 0 || ferror(stdout)) {
         fprintf(stderr, "sillwatch: fleet: could not write the output\n");
         return SW_EXIT_OUTPUT;
     }
     return below > 0 ? SW_EXIT_BELOW : SW_EXIT_OK;
-
-fail:
-    sw_outfile_abort(&out);
-    free(sites);
-    free(table);
-    if (rc != SW_EINTERRUPTED)
-        return sw_cli_report(&err);
-    {
-        char what[SW_ERROR_PATH_MAX + 32];
-        snprintf(what, sizeof what, "%s is left as it was", o.output);
-        return sw_cli_interrupted("fleet", to_stdout
-                                               ? "the table on standard "
-                                                 "output is incomplete"
-                                               : what);
-    }
 }
