@@ -138,6 +138,7 @@ check-valgrind: $(PROG) $(MKNC)
 	sed -n '/^\[site\]/,$$p' tests/cli/netcdf_screen/site-nc.ini > $(BUILD)/valgrind/site-nc.ini
 	$(VALGRIND) $(PROG) screen $(BUILD)/valgrind/site-nc.ini -o $(BUILD)/valgrind/nc --json -q; test $$? -le 1
 	$(VALGRIND) $(PROG) thresholds data/example/quillbrook.ini --headwater 11.4:13.2:0.01 --simplify 0.005 -o $(BUILD)/valgrind/thresholds.csv > /dev/null
+	$(VALGRIND) $(PROG) fleet $(BUILD)/valgrind $(BUILD)/valgrind/demo -o $(BUILD)/valgrind/fleet.csv > /dev/null; test $$? -le 1
 	@echo "check-valgrind: no memory errors, no leaks"
 
 # Every unit test and CLI case under valgrind (slow: tens of minutes).

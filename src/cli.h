@@ -67,6 +67,23 @@ double sw_cli_unsigned_zero(double v, int decimals);
  * SW_EOUTPUT when it cannot be made or exists but is not a folder. */
 int sw_cli_make_outdir(const char *dir, sw_error *err);
 
+/* Split the output file's `path` into its folder (dir[n_dir]) and file
+ * name for sw_outfile_open().  Returns 0, or -1 when the path names no
+ * file ("", "dir/", ".", "..") or the folder does not fit. */
+int sw_cli_split_path(const char *path, char *dir, size_t n_dir,
+                      const char **name);
+
+/* Start writing one output file `path` (split into `dir` and `name` by
+ * sw_cli_split_path) through a temporary file (outfile.h), as
+ * `thresholds -o` and `fleet -o` do: a folder at `path` is refused, a
+ * missing `dir` is created (one level), anything but a regular file at
+ * `path` is refused (and left alone), and `dir` is recovered
+ * (sw_cli_recover, warnings unless `quiet`).  Returns SW_OK or
+ * SW_EOUTPUT. */
+int sw_cli_open_output_file(sw_outfile *out, const char *path,
+                            const char *dir, const char *name, int quiet,
+                            sw_error *err);
+
 /* Apply --series NAME=FILE options (already checked to hold an '=') to
  * the site.  Returns 0, or the usage exit code after printing why. */
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
@@ -126,5 +143,6 @@ int sw_cmd_point(int argc, char **argv);
 int sw_cmd_run(int argc, char **argv);
 int sw_cmd_screen(int argc, char **argv);
 int sw_cmd_thresholds(int argc, char **argv);
+int sw_cmd_fleet(int argc, char **argv);
 
 #endif

@@ -167,27 +167,6 @@ static int parse_args(int argc, char **argv, thr_opts *o)
     return 0;
 }
 
-/* Split `path` into its folder and file name for sw_outfile_open().
- * Returns 0, or -1 when the path names no file. */
-static int split_path(const char *path, char *dir, size_t n_dir,
-                      const char **name)
-{
-    const char *slash = strrchr(path, '/');
-
-    *name = slash != NULL ? slash + 1 : path;
-    if (**name == '\0' || strcmp(*name, ".") == 0 || strcmp(*name, "..") == 0)
-        return -1;
-    if (slash == NULL)
-        snprintf(dir, n_dir, ".");
-    else if (slash == path)
-        snprintf(dir, n_dir, "/");
-    else if ((size_t)(slash - path) >= n_dir)
-        return -1;
-    else
-        snprintf(dir, n_dir, "%.*s", (int)(slash - path), path);
-    return 0;
-}
-
 /* Write text on one header line: control bytes and '\' as \ooo, so that a
  * strange path cannot break the '#' block. */
 static void put_escaped(FILE *fp, const char *s)
@@ -400,7 +379,7 @@ int sw_cmd_thresholds(int argc, char **argv)
         return rc < 0 ? SW_EXIT_OK : rc;
     const int to_stdout = strcmp(o.output, "-") == 0;
     FILE *msg = to_stdout ? stderr : stdout; /* stdout holds the table */
-    if (!to_stdout && split_path(o.output, dir, sizeof dir, &name) != 0)
+    if (!to_stdout && sw_cli_split_path(o.output, dir, sizeof dir, &name) != 0)
         return sw_cli_usage_error("thresholds",
                                   "-o: '%s' does not name a file", o.output);
     if (sw_cli_generation_time(when, sizeof when) != 0)
@@ -447,23 +426,10 @@ int sw_cmd_thresholds(int argc, char **argv)
                                   &err)) != SW_OK)
         goto fail;
     /* open first: a bad folder shows before the work */
-    if (!to_stdout) {
-        struct stat sb;
-        if (stat(o.output, &sb) == 0 && S_ISDIR(sb.st_mode)) {
-            rc = sw_error_set(&err, SW_EOUTPUT, o.output, 0, 0,
-                              "is a folder; give -o the name of the table's "
-                              "file");
-            goto fail;
-        }
-        /* a missing folder is created, as run creates OUTDIR */
-        if (stat(dir, &sb) != 0 && errno == ENOENT &&
-            (rc = sw_cli_make_outdir(dir, &err)) != SW_OK)
-            goto fail;
-        if ((rc = sw_outfile_check_target(o.output, &err)) != SW_OK ||
-            (rc = sw_cli_recover(dir, 0, &err)) != SW_OK ||
-            (rc = sw_outfile_open(&out, dir, name, &err)) != SW_OK)
-            goto fail;
-    }
+    if (!to_stdout &&
+        (rc = sw_cli_open_output_file(&out, o.output, dir, name, 0, &err)) !=
+            SW_OK)
+        goto fail;
     FILE *fp = to_stdout ? stdout : out.fp;
     if (o.tol_m > 0.0 &&
         (rc = sw_thresholds_simplify(t, o.tol_m, &fit, &err)) != SW_OK)

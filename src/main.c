@@ -102,6 +102,8 @@ static const char usage_text[] =
     "                     tailwater a headwater-only forecast needs\n"
     "  thresholds SITE.ini (--headwater | --tailwater) FROM:TO:STEP -o FILE\n"
     "                     write a table of alarm thresholds for controllers\n"
+    "  fleet DIR... -o FILE  put the summaries of many sites' runs (their\n"
+    "                     output folders) in one table\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -114,7 +116,8 @@ static const char usage_text[] =
     "  1  ran; some gate was below its margin (low) or open\n"
     "  2  the command line is wrong\n"
     "  3  the site file is unreadable or invalid\n"
-    "  4  a level file is unreadable or invalid\n"
+    "  4  a level file (for fleet: a run's output folder) is unreadable or\n"
+    "     invalid\n"
     "  5  an output could not be written\n"
     "  6  a numerical method failed (please report it)\n"
     "  7  out of memory\n"
@@ -277,6 +280,46 @@ int sw_cli_make_outdir(const char *dir, sw_error *err)
     return SW_OK;
 }
 
+int sw_cli_split_path(const char *path, char *dir, size_t n_dir,
+                      const char **name)
+{
+    const char *slash = strrchr(path, '/');
+
+    *name = slash != NULL ? slash + 1 : path;
+    if (**name == '\0' || strcmp(*name, ".") == 0 || strcmp(*name, "..") == 0)
+        return -1;
+    if (slash == NULL)
+        snprintf(dir, n_dir, ".");
+    else if (slash == path)
+        snprintf(dir, n_dir, "/");
+    else if ((size_t)(slash - path) >= n_dir)
+        return -1;
+    else
+        snprintf(dir, n_dir, "%.*s", (int)(slash - path), path);
+    return 0;
+}
+
+int sw_cli_open_output_file(sw_outfile *out, const char *path,
+                            const char *dir, const char *name, int quiet,
+                            sw_error *err)
+{
+    struct stat sb;
+    int rc;
+
+    if (stat(path, &sb) == 0 && S_ISDIR(sb.st_mode))
+        return sw_error_set(err, SW_EOUTPUT, path, 0, 0,
+                            "is a folder; give -o the name of the table's "
+                            "file");
+    /* a missing folder is created, as run creates OUTDIR */
+    if (stat(dir, &sb) != 0 && errno == ENOENT &&
+        (rc = sw_cli_make_outdir(dir, err)) != SW_OK)
+        return rc;
+    if ((rc = sw_outfile_check_target(path, err)) != SW_OK ||
+        (rc = sw_cli_recover(dir, quiet, err)) != SW_OK)
+        return rc;
+    return sw_outfile_open(out, dir, name, err);
+}
+
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,
                         const char *command)
 {
@@ -355,6 +398,7 @@ int main(int argc, char **argv)
         {"run", sw_cmd_run, 1},
         {"screen", sw_cmd_screen, 1},
         {"thresholds", sw_cmd_thresholds, 1},
+        {"fleet", sw_cmd_fleet, 1},
     };
 
     /* Failures are reported through status codes, never by abort(). */

@@ -33,6 +33,10 @@ command -v man >/dev/null 2>&1 || missing="$missing man-db"
 command -v groff >/dev/null 2>&1 || missing="$missing groff-base"
 # The tests: JSON outputs parsed and queried with jq.
 command -v jq >/dev/null 2>&1 || missing="$missing jq"
+# The tests: tools/fleet-parallel.sh runs sites with GNU parallel, and the
+# fleet scripts are checked with shellcheck.
+command -v parallel >/dev/null 2>&1 || missing="$missing parallel"
+command -v shellcheck >/dev/null 2>&1 || missing="$missing shellcheck"
 # The tz database: zone names in site files and the tests' zones.
 [ -f "${TZDIR:-/usr/share/zoneinfo}/Europe/Berlin" ] || missing="$missing tzdata"
 

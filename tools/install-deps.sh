@@ -4,7 +4,7 @@
 # Usage: tools/install-deps.sh [PACKAGE...]   (default: every build/test dependency)
 set -eu
 
-PACKAGES=${*:-"build-essential pkg-config libcsv-dev libgsl-dev libcmocka-dev libinih-dev nettle-dev tzdata libxml2-utils libpng-dev poppler-utils man-db groff-base libjansson-dev jq libnetcdf-dev"}
+PACKAGES=${*:-"build-essential pkg-config libcsv-dev libgsl-dev libcmocka-dev libinih-dev nettle-dev tzdata libxml2-utils libpng-dev poppler-utils man-db groff-base libjansson-dev jq libnetcdf-dev parallel shellcheck"}
 
 if [ "$(id -u)" = 0 ]; then
     SUDO=
