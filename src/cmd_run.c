@@ -13,6 +13,7 @@
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
+#include "sillwatch/fleet.h"
 #include "sillwatch/jobs.h"
 #include "sillwatch/replay.h"
 #include "sillwatch/report.h"
@@ -594,6 +595,49 @@ static int fleet_list(const fleet *f, const int *status)
     return worst;
 }
 
+/* OUTDIR/fleet.csv: the summaries of the sites that ran (exit 0 or 1),
+ * each folder checked against its manifest (fleet.h).  Returns SW_OK or
+ * an error in *err. */
+static int fleet_table(const fleet *f, const int *status, sw_error *err)
+{
+    const run_opts *o = f->o;
+    const char **dirs = calloc(o->n_sites + 1, sizeof *dirs);
+    sw_fleet_entry *entries = calloc(o->n_sites + 1, sizeof *entries);
+    sw_outfile out;
+    char path[SW_ERROR_PATH_MAX];
+    size_t n = 0;
+    int rc;
+
+    memset(&out, 0, sizeof out);
+    if (dirs == NULL || entries == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+        goto done;
+    }
+    for (size_t i = 0; i < o->n_sites; i++)
+        if (status[i] == SW_EXIT_OK || status[i] == SW_EXIT_BELOW)
+            dirs[n++] = f->dir[i];
+    snprintf(path, sizeof path, "%s/fleet.csv", o->outdir);
+    if ((rc = sw_cli_open_output_file(&out, path, o->outdir, "fleet.csv",
+                                      o->quiet, err)) != SW_OK ||
+        (rc = sw_fleet_write_each(out.fp, dirs, n, entries, err)) != SW_OK)
+        goto done;
+    for (size_t i = 0; i < n; i++)
+        if (entries[i].status != SW_OK) { /* a set that ran but fails its
+                                             own manifest: say so */
+            sw_cli_report(&entries[i].err);
+            rc = sw_error_set(err, SW_EDATA, dirs[i], 0, 0,
+                              "left out of fleet.csv");
+            goto done;
+        }
+    if ((rc = sw_outfile_close(&out, err)) == SW_OK)
+        rc = sw_outfile_publish(&out, err);
+done:
+    sw_outfile_abort(&out);
+    free(dirs);
+    free(entries);
+    return rc;
+}
+
 /* Several sites, each replayed in OUTDIR/<stem>/ exactly as a single run,
  * on o->jobs worker processes. */
 static int run_fleet(const run_opts *o, const char *cmd)
@@ -626,6 +670,13 @@ static int run_fleet(const run_opts *o, const char *cmd)
     if (f.show_progress)
         fputs("\r\033[K", stderr);
     int worst = fleet_list(&f, status);
+    if (rc == SW_OK && (rc = fleet_table(&f, status, &err)) != SW_OK) {
+        int e = sw_cli_report(&err);
+        worst = e > worst ? e : worst;
+        rc = SW_OK;
+    } else if (rc == SW_OK && !o->quiet) {
+        printf("every site's summary in %s/fleet.csv\n", o->outdir);
+    }
     if (rc != SW_OK && rc != SW_EINTERRUPTED) {
         int e = sw_cli_report(&err); /* a worker could not be started */
         worst = e > worst ? e : worst;
