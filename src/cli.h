@@ -84,6 +84,33 @@ int sw_cli_open_output_file(sw_outfile *out, const char *path,
                             const char *dir, const char *name, int quiet,
                             sw_error *err);
 
+/* Several site files in one command: each site in outdir/<stem>/ (the
+ * site file's name without its extension; two sites with one stem are a
+ * usage error before anything runs), `one` called for each in a worker
+ * process of its own (jobs.h), at most `jobs` at a time; its return is
+ * the site's exit status. */
+typedef struct sw_cli_sites {
+    const char *command;    /* "run", "screen": for messages */
+    const char *doing;      /* "replaying", "screening" */
+    char *const *sites;
+    size_t n_sites;
+    const char *outdir;
+    unsigned jobs;
+    int quiet;
+    int (*one)(size_t i, const char *site, const char *dir, void *ctx);
+    void *ctx;
+} sw_cli_sites;
+
+/* Run the sites as above, with progress on a terminal; list each site
+ * with its exit status (unless quiet) and name the failed ones on
+ * standard error.  dir[i] receives site i's folder, status[i] its exit
+ * status (-1: not started).  Returns the worst exit status; after SIGINT
+ * or SIGTERM (passed on to the workers) *stopped is 1 and the return is
+ * the signal's exit status; when nothing could start (two sites of one
+ * stem, no output folder) *stopped is -1. */
+int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
+                      int *status, int *stopped);
+
 /* Apply --series NAME=FILE options (already checked to hold an '=') to
  * the site.  Returns 0, or the usage exit code after printing why. */
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,

@@ -496,111 +496,12 @@ fail:
     return sw_cli_report(&err);
 }
 
-/* ---- several sites ------------------------------------------------- */
-
-typedef struct fleet {
-    const run_opts *o;
-    const char *cmd;
-    char (*dir)[SW_ERROR_PATH_MAX]; /* per site: OUTDIR/<stem> */
-    int show_progress;
-} fleet;
-
-/* The stem of a site file: its name without folder and last extension. */
-static void stem_of(const char *path, char *out, size_t n)
-{
-    const char *base = strrchr(path, '/');
-    base = base != NULL ? base + 1 : path;
-    const char *dot = strrchr(base, '.');
-    size_t len = dot != NULL && dot != base ? (size_t)(dot - base)
-                                            : strlen(base);
-    snprintf(out, n, "%.*s", (int)len, base);
-}
-
-/* Each site's folder; two sites with one stem would share it. */
-static int fleet_folders(fleet *f)
-{
-    const run_opts *o = f->o;
-    for (size_t i = 0; i < o->n_sites; i++) {
-        char stem[256];
-        stem_of(o->sites[i], stem, sizeof stem);
-        if (stem[0] == '\0' || strcmp(stem, "..") == 0)
-            return sw_cli_usage_error("run", "%s: no name to give its "
-                                             "folder", o->sites[i]);
-        if ((size_t)snprintf(f->dir[i], sizeof f->dir[i], "%s/%s",
-                             o->outdir, stem) >= sizeof f->dir[i])
-            return sw_cli_usage_error("run", "%s: the folder's path is too "
-                                             "long", o->sites[i]);
-        for (size_t k = 0; k < i; k++)
-            if (strcmp(f->dir[k], f->dir[i]) == 0)
-                return sw_cli_usage_error("run", "%s and %s would share the "
-                                                 "folder %s: rename one",
-                                          o->sites[k], o->sites[i],
-                                          f->dir[i]);
-    }
-    return 0;
-}
-
-static int fleet_job(size_t i, void *ctx)
-{
-    fleet *f = ctx;
-    return run_site(f->o, f->o->sites[i], f->dir[i], f->cmd, 1);
-}
-
-static void fleet_done(size_t i, int status, size_t n_done, void *ctx)
-{
-    fleet *f = ctx;
-    (void)i;
-    (void)status;
-    if (f->show_progress)
-        fprintf(stderr, "\rsillwatch: run: %zu of %zu sites done   ", n_done,
-                f->o->n_sites);
-}
-
-/* What an exit status says, for the list of sites. */
-static const char *status_words(int st)
-{
-    switch (st) {
-    case SW_EXIT_OK: return "every gate held its margin";
-    case SW_EXIT_BELOW: return "some gate low or open";
-    case -1: return "not run (interrupted)";
-    case 3: return "failed: site file";
-    case 4: return "failed: level data";
-    case 5: return "failed: output";
-    default: return st >= 128 ? "interrupted" : "failed";
-    }
-}
-
-/* The sites with their outcome; the worst status. */
-static int fleet_list(const fleet *f, const int *status)
-{
-    int worst = SW_EXIT_OK;
-    size_t failed = 0;
-    for (size_t i = 0; i < f->o->n_sites; i++) {
-        int st = status[i] < 0 ? 128 + SIGINT : status[i];
-        worst = st > worst ? st : worst;
-        failed += status[i] != SW_EXIT_OK && status[i] != SW_EXIT_BELOW;
-        if (!f->o->quiet)
-            printf("  %-40s %-12s exit %3d  %s\n", f->o->sites[i],
-                   strrchr(f->dir[i], '/') + 1, status[i],
-                   status_words(status[i]));
-    }
-    if (failed > 0) {
-        fprintf(stderr, "sillwatch: run: %zu of %zu sites failed:", failed,
-                f->o->n_sites);
-        for (size_t i = 0; i < f->o->n_sites; i++)
-            if (status[i] != SW_EXIT_OK && status[i] != SW_EXIT_BELOW)
-                fprintf(stderr, " %s (exit %d)", f->o->sites[i], status[i]);
-        fputc('\n', stderr);
-    }
-    return worst;
-}
-
 /* OUTDIR/fleet.csv: the summaries of the sites that ran (exit 0 or 1),
  * each folder checked against its manifest (fleet.h).  Returns SW_OK or
  * an error in *err. */
-static int fleet_table(const fleet *f, const int *status, sw_error *err)
+static int fleet_table(const run_opts *o, char (*dir)[SW_ERROR_PATH_MAX],
+                       const int *status, sw_error *err)
 {
-    const run_opts *o = f->o;
     const char **dirs = calloc(o->n_sites + 1, sizeof *dirs);
     sw_fleet_entry *entries = calloc(o->n_sites + 1, sizeof *entries);
     sw_outfile out;
@@ -615,7 +516,7 @@ static int fleet_table(const fleet *f, const int *status, sw_error *err)
     }
     for (size_t i = 0; i < o->n_sites; i++)
         if (status[i] == SW_EXIT_OK || status[i] == SW_EXIT_BELOW)
-            dirs[n++] = f->dir[i];
+            dirs[n++] = dir[i];
     snprintf(path, sizeof path, "%s/fleet.csv", o->outdir);
     if ((rc = sw_cli_open_output_file(&out, path, o->outdir, "fleet.csv",
                                       o->quiet, err)) != SW_OK ||
@@ -639,58 +540,50 @@ done:
 }
 
 /* Several sites, each replayed in OUTDIR/<stem>/ exactly as a single run,
- * on o->jobs worker processes. */
+ * on o->jobs worker processes; then fleet.csv. */
+typedef struct fleet_ctx {
+    const run_opts *o;
+    const char *cmd;
+} fleet_ctx;
+
+static int fleet_one(size_t i, const char *site, const char *dir, void *ctx)
+{
+    const fleet_ctx *f = ctx;
+    (void)i;
+    return run_site(f->o, site, dir, f->cmd, 1);
+}
+
 static int run_fleet(const run_opts *o, const char *cmd)
 {
-    fleet f = {o, cmd, calloc(o->n_sites, sizeof *f.dir), 0};
+    fleet_ctx f = {o, cmd};
+    sw_cli_sites m = {"run",   "replaying", o->sites, o->n_sites,
+                      o->outdir, o->jobs,   o->quiet, fleet_one,
+                      &f};
+    char (*dir)[SW_ERROR_PATH_MAX] = calloc(o->n_sites, sizeof *dir);
     int *status = calloc(o->n_sites, sizeof *status);
     sw_error err;
-    int rc;
+    int stopped = 0, worst;
 
-    if (f.dir == NULL || status == NULL) {
-        free(f.dir);
+    if (dir == NULL || status == NULL) {
+        free(dir);
         free(status);
         fprintf(stderr, "sillwatch: run: out of memory\n");
-        return SW_EXIT_OUTPUT;
+        return SW_EXIT_NOMEM;
     }
-    if ((rc = fleet_folders(&f)) != 0)
-        goto done;
-    if ((rc = sw_cli_make_outdir(o->outdir, &err)) != SW_OK) {
-        rc = sw_cli_report(&err);
-        goto done;
+    worst = sw_cli_many_sites(&m, dir, status, &stopped);
+    if (stopped == 0) {
+        if (fleet_table(o, dir, status, &err) != SW_OK) {
+            int e = sw_cli_report(&err);
+            worst = e > worst ? e : worst;
+        } else if (!o->quiet) {
+            printf("every site's summary in %s/fleet.csv\n", o->outdir);
+        }
     }
-    f.show_progress = !o->quiet && isatty(STDERR_FILENO);
-    if (!o->quiet)
-        printf("replaying %zu sites on %u worker%s, each in %s/<site file "
-               "name>/:\n", o->n_sites, o->jobs, o->jobs == 1 ? "" : "s",
-               o->outdir);
-    fflush(stdout);
-    rc = sw_jobs_run(o->n_sites, o->jobs, fleet_job, fleet_done, &f, status,
-                     &err);
-    if (f.show_progress)
-        fputs("\r\033[K", stderr);
-    int worst = fleet_list(&f, status);
-    if (rc == SW_OK && (rc = fleet_table(&f, status, &err)) != SW_OK) {
-        int e = sw_cli_report(&err);
-        worst = e > worst ? e : worst;
-        rc = SW_OK;
-    } else if (rc == SW_OK && !o->quiet) {
-        printf("every site's summary in %s/fleet.csv\n", o->outdir);
-    }
-    if (rc != SW_OK && rc != SW_EINTERRUPTED) {
-        int e = sw_cli_report(&err); /* a worker could not be started */
-        worst = e > worst ? e : worst;
-    }
-    if (rc == SW_EINTERRUPTED)
-        worst = sw_cli_interrupted("run", "each site's earlier outputs are "
-                                          "left as they were");
-    if (!o->quiet)
+    if (!o->quiet && stopped >= 0)
         fputs(sw_cli_caution, stdout);
-    rc = worst;
-done:
-    free(f.dir);
+    free(dir);
     free(status);
-    return rc;
+    return worst;
 }
 
 int sw_cmd_run(int argc, char **argv)
