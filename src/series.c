@@ -40,8 +40,9 @@
  * the queue of a plain run (PLAIN_VALUES doubles and times),
  * libcsv's field buffer (bounded through the 4 MiB record limit: below
  * 2 x 4 MiB + 1 MiB, see grow_geometrically()), the header's
- * names while the reader opens, and fixed-size per-column state.  Nothing
- * grows with the length of the file.
+ * names while the reader opens, and per-column state sized when it opens
+ * (a few hundred bytes a column).  Nothing grows with the length of the
+ * file.
  */
 #include "sillwatch/series.h"
 #include "sillwatch/ncseries.h"
@@ -122,9 +123,9 @@ struct sw_reader {
     sw_time_encoding time_format;
     const sw_zone *zone;
 
-    /* columns */
+    /* columns: the arrays below marked [n_columns] are sized at open */
     size_t n_columns;
-    value_column col[SW_SERIES_MAX_COLUMNS];
+    value_column *col; /* [n_columns] */
     size_t time_idx;   /* 0-based field index of the time column */
     size_t n_header;   /* fields in the header */
     size_t n_needed;   /* fields a record must have: last needed + 1 */
@@ -153,9 +154,9 @@ struct sw_reader {
     sw_time_ms rec_t, rec_wall;
     sw_stamp_memo stamp_memo; /* the date of the last stamp read */
     sw_error time_err;
-    double val[SW_SERIES_MAX_COLUMNS];
-    unsigned char outcome[SW_SERIES_MAX_COLUMNS];
-    sw_reject rej[SW_SERIES_MAX_COLUMNS];
+    double *val;            /* [n_columns] */
+    unsigned char *outcome; /* [n_columns] */
+    sw_reject *rej;         /* [n_columns] */
 
     /* the header, while it is read */
     char *hdr;         /* names, each NUL-terminated, trimmed */
@@ -167,7 +168,7 @@ struct sw_reader {
     int has_prev;
     sw_time_ms prev_t;
     long prev_line;
-    double prev_val[SW_SERIES_MAX_COLUMNS];
+    double *prev_val;  /* [n_columns] */
 
     /* plain runs: records finished ahead, handed out from the queue */
     int plain;         /* the header is read: runs may be fed whole */
@@ -987,6 +988,35 @@ static int find_column(const sw_reader *r, const char *what,
     return SW_OK;
 }
 
+/* Size the per-column state for `n_columns` value columns (at most
+ * SW_SERIES_MAX_COLUMNS: each costs a few hundred bytes here and in the
+ * statistics, and its share of every batch of records read ahead). */
+static int alloc_columns(sw_reader *r, const char *path, size_t n_columns,
+                         sw_error *err)
+{
+    size_t n = n_columns ? n_columns : 1;
+
+    if (n_columns > SW_SERIES_MAX_COLUMNS)
+        return sw_error_set(err, SW_EDATA, path, 0, 0,
+                            "%zu value columns asked of this file (ensemble "
+                            "members and series together); at most %d are "
+                            "read from one file", n_columns,
+                            SW_SERIES_MAX_COLUMNS);
+    r->col = calloc(n, sizeof *r->col);
+    r->val = calloc(n, sizeof *r->val);
+    r->outcome = calloc(n, sizeof *r->outcome);
+    r->rej = calloc(n, sizeof *r->rej);
+    r->prev_val = calloc(n, sizeof *r->prev_val);
+    r->stats.column = calloc(n, sizeof *r->stats.column);
+    if (r->col == NULL || r->val == NULL || r->outcome == NULL ||
+        r->rej == NULL || r->prev_val == NULL || r->stats.column == NULL)
+        return sw_error_set(err, SW_ENOMEM, path, 0, 0,
+                            "out of memory for %zu value columns",
+                            n_columns);
+    r->n_columns = n_columns;
+    return SW_OK;
+}
+
 /* Copy the caller's configuration into the reader. */
 static int copy_config(sw_reader *r, const sw_reader_config *cfg,
                        const sw_column_config *columns, size_t n_columns,
@@ -997,11 +1027,6 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
         return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
                             "sw_reader_open: path, time column or columns "
                             "not given");
-    if (n_columns > SW_SERIES_MAX_COLUMNS)
-        return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
-                            "%zu value columns asked of one file; a reader "
-                            "serves at most %d", n_columns,
-                            SW_SERIES_MAX_COLUMNS);
     if (cfg->delimiter != 0 && cfg->delimiter != ',' &&
         cfg->delimiter != ';' && cfg->delimiter != '\t')
         return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
@@ -1011,7 +1036,6 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
     r->time_format = cfg->time_format;
     r->zone = cfg->zone;
     r->delim = cfg->delimiter;
-    r->n_columns = n_columns;
     for (size_t c = 0; c < n_columns; c++) {
         const sw_column_config *cc = &columns[c];
         value_column *vc = &r->col[c];
@@ -1091,20 +1115,19 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     if ((r = calloc(1, sizeof *r)) == NULL)
         return sw_error_set(err, SW_ENOMEM, cfg ? cfg->path : NULL, 0, 0,
                             "out of memory");
-    if (cfg != NULL && cfg->netcdf) {
-        if ((rc = sw_nc_open(&r->nc, cfg, columns, n_columns, &r->stats,
-                             err)) != SW_OK) {
-            free(r);
-            return rc;
-        }
-        r->n_columns = n_columns;
-        *reader = r;
-        return SW_OK;
-    }
     if (cfg == NULL) {
         rc = sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
                           "sw_reader_open: no configuration");
         goto cleanup;
+    }
+    if ((rc = alloc_columns(r, cfg->path, n_columns, err)) != SW_OK)
+        goto cleanup;
+    if (cfg->netcdf) {
+        if ((rc = sw_nc_open(&r->nc, cfg, columns, n_columns, &r->stats,
+                             err)) != SW_OK)
+            goto cleanup;
+        *reader = r;
+        return SW_OK;
     }
     if ((rc = copy_config(r, cfg, columns, n_columns, err)) != SW_OK ||
         (rc = read_header(r, &got, err)) != SW_OK)
@@ -1348,11 +1371,17 @@ void sw_reader_free(sw_reader *reader)
         fclose(reader->fp);
     if (reader->csv_ready)
         csv_free(&reader->csv);
-    for (size_t c = 0; c < SW_SERIES_MAX_COLUMNS; c++) {
+    for (size_t c = 0; reader->col != NULL && c < reader->n_columns; c++) {
         free(reader->col[c].name);
         for (size_t k = 0; k < reader->col[c].n_missing; k++)
             free(reader->col[c].missing[k]);
     }
+    free(reader->col);
+    free(reader->val);
+    free(reader->outcome);
+    free(reader->rej);
+    free(reader->prev_val);
+    free(reader->stats.column);
     free(reader->first_col);
     free(reader->hdr);
     free(reader->hdr_off);

@@ -88,7 +88,8 @@ typedef struct reader_state {
     sw_reader *rd;
     const sw_site_series *first; /* the series that opened it */
     size_t n_cols;
-    size_t series_of[SW_SERIES_MAX_COLUMNS];
+    size_t *series_of;          /* [n_cols]: the series of each column */
+    size_t cap_cols;
     int pending;                /* a record is held in t and v */
     sw_time_ms t;
     long line;
@@ -242,7 +243,10 @@ static int same_file(const sw_site_series *a, const sw_site_series *b)
            strcmp(a->member_dim, b->member_dim) == 0;
 }
 
-/* The index of series `name` in use, adding it (and its reader) if new. */
+/* The index of series `name` in use, adding it (and its reader) if new.
+ * Every series of one file shares one reader, whatever their number (the
+ * reader sizes its columns when it opens), so a file is parsed once.
+ * Returns 0, or -1 when out of memory. */
 static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
 {
     for (size_t i = 0; i < st->n_series; i++)
@@ -252,18 +256,26 @@ static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
         }
     size_t r;
     for (r = 0; r < st->n_readers; r++)
-        if (same_file(st->readers[r].first, def) &&
-            st->readers[r].n_cols < SW_SERIES_MAX_COLUMNS)
+        if (same_file(st->readers[r].first, def))
             break;
+    reader_state *rs = &st->readers[r];
+    if (rs->n_cols == rs->cap_cols) {
+        size_t cap = rs->cap_cols ? 2 * rs->cap_cols : 4;
+        size_t *grown = realloc(rs->series_of, cap * sizeof *grown);
+        if (grown == NULL)
+            return -1;
+        rs->series_of = grown;
+        rs->cap_cols = cap;
+    }
     if (r == st->n_readers) {
-        st->readers[r].first = def;
+        rs->first = def;
         st->n_readers++;
     }
     series_state *s = &st->series[st->n_series];
     s->def = def;
     s->reader = r;
-    s->column = st->readers[r].n_cols;
-    st->readers[r].series_of[st->readers[r].n_cols++] = st->n_series;
+    s->column = rs->n_cols;
+    rs->series_of[rs->n_cols++] = st->n_series;
     *index = st->n_series++;
     return 0;
 }
@@ -367,9 +379,11 @@ static int start_read_ahead(reader_state *rs, sw_error *err)
 {
     size_t row_bytes =
         sizeof(sw_time_ms) + sizeof(long) + rs->n_cols * sizeof(double);
+    /* a wide file (an ensemble of many members) gets fewer rows a batch,
+     * so that the ring stays about RING_BYTES whatever the columns */
     rs->batch_rows = RING_BYTES / N_BATCHES / row_bytes;
-    if (rs->batch_rows < 64)
-        rs->batch_rows = 64;
+    if (rs->batch_rows < 1)
+        rs->batch_rows = 1;
     for (int i = 0; i < N_BATCHES; i++) {
         rs->b[i].t = malloc(rs->batch_rows * sizeof *rs->b[i].t);
         rs->b[i].line = malloc(rs->batch_rows * sizeof *rs->b[i].line);
@@ -428,9 +442,11 @@ static int open_readers(sw_stepper *st, sw_error *err)
 {
     for (size_t r = 0; r < st->n_readers; r++) {
         reader_state *rs = &st->readers[r];
-        sw_column_config cols[SW_SERIES_MAX_COLUMNS];
+        sw_column_config *cols =
+            calloc(rs->n_cols ? rs->n_cols : 1, sizeof *cols);
         sw_reader_config cfg;
-        memset(cols, 0, sizeof cols);
+        if (cols == NULL)
+            return nomem(err);
         cfg.path = rs->first->path;
         cfg.time_column = rs->first->time_column;
         cfg.time_format = rs->first->time_format;
@@ -449,6 +465,7 @@ static int open_readers(sw_stepper *st, sw_error *err)
                 cols[c].missing[k] = d->missing[k];
         }
         int rc = sw_reader_open(&rs->rd, &cfg, cols, rs->n_cols, err);
+        free(cols);
         if (rc != SW_OK)
             return rc;
         if ((rc = start_read_ahead(rs, err)) != SW_OK)
@@ -494,8 +511,10 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
             goto cleanup;
         }
         g->gate = &sg->gate;
-        use_series(st, h, &g->hw);
-        use_series(st, t, &g->tw);
+        if (use_series(st, h, &g->hw) != 0 || use_series(st, t, &g->tw) != 0) {
+            rc = nomem(err);
+            goto cleanup;
+        }
         sw_gate_get_bounds(g->gate, &g->bounds);
         g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
                      g->gate->first_moment_m3;
@@ -534,6 +553,7 @@ void sw_stepper_free(sw_stepper *st)
     for (size_t r = 0; r < st->n_readers; r++) {
         stop_read_ahead(&st->readers[r]);
         sw_reader_free(st->readers[r].rd);
+        free(st->readers[r].series_of);
     }
     for (size_t i = 0; i < st->n_series; i++) {
         free(st->series[i].fifo.items);
