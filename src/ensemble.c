@@ -339,16 +339,176 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-double sw_quantile(double *v, size_t n, double p)
+/* Hyndman and Fan (1996) definition 7: h = (n - 1) p, the lower order
+ * statistic j = floor(h) (0-based) and the weight g = h - j of the next
+ * one.  (Shared by both quantile functions, so that they read the same
+ * order statistics.) */
+static size_t lower_rank(size_t n, double p, double *g)
 {
-    qsort(v, n, sizeof *v, cmp_double);
-    /* Hyndman and Fan (1996) definition 7: h = (n - 1) p */
     double h = (double)(n - 1) * p;
     size_t lo = (size_t)floor(h);
-    double w = h - (double)lo;
-    if (lo + 1 >= n || w == 0.0)
+    *g = h - (double)lo;
+    return lo;
+}
+
+/* Whether the quantile needs order statistic lo + 1 as well as lo. */
+static int needs_next(size_t n, size_t lo, double g)
+{
+    return !(lo + 1 >= n || g == 0.0);
+}
+
+/* The quantile from order statistics v[lo] and v[lo + 1] (in place). */
+static double interpolate(const double *v, size_t n, size_t lo, double g)
+{
+    if (!needs_next(n, lo, g))
         return v[lo < n ? lo : n - 1];
     if (isinf(v[lo]) || isinf(v[lo + 1]))
         return isinf(v[lo + 1]) && v[lo + 1] > 0 ? INFINITY : v[lo];
-    return v[lo] + w * (v[lo + 1] - v[lo]);
+    return v[lo] + g * (v[lo + 1] - v[lo]);
+}
+
+double sw_quantile(double *v, size_t n, double p)
+{
+    double g;
+    size_t lo;
+
+    qsort(v, n, sizeof *v, cmp_double);
+    lo = lower_rank(n, p, &g);
+    return interpolate(v, n, lo, g);
+}
+
+/* Sort v[0..n) (short ranges) by insertion. */
+static void insertion_sort(double *v, size_t n)
+{
+    for (size_t i = 1; i < n; i++) {
+        double x = v[i];
+        size_t j = i;
+        for (; j > 0 && v[j - 1] > x; j--)
+            v[j] = v[j - 1];
+        v[j] = x;
+    }
+}
+
+static double median_of_3(double a, double b, double c)
+{
+    if (a < b)
+        return b < c ? b : (a < c ? c : a);
+    return a < c ? a : (b < c ? c : b);
+}
+
+/* Put each order statistic r[0..m) (ascending, distinct, within [lo, hi))
+ * of v[lo..hi) at its own index, as a sort would: quickselect for several
+ * ranks at once (Hoare's FIND, 1961, with a three-way partition around
+ * the median of three, Dijkstra's "Dutch national flag", so that runs of
+ * equal values cost no more than distinct ones).  Ranks on both sides of
+ * a partition are followed on both sides.  After `depth` partitions a
+ * range is sorted instead (qsort), which bounds the time by n log n and
+ * the recursion by `depth` however the values fall. */
+static void select_ranks(double *v, size_t lo, size_t hi, const size_t *r,
+                         size_t m, int depth)
+{
+    while (m > 0) {
+        if (hi - lo <= 16) {
+            insertion_sort(v + lo, hi - lo);
+            return;
+        }
+        if (depth-- == 0) {
+            qsort(v + lo, hi - lo, sizeof *v, cmp_double);
+            return;
+        }
+        double pivot = median_of_3(v[lo], v[lo + (hi - lo) / 2], v[hi - 1]);
+        size_t lt = lo, i = lo, gt = hi;
+        while (i < gt) {
+            double x = v[i];
+            if (x < pivot) {
+                v[i++] = v[lt];
+                v[lt++] = x;
+            } else if (x > pivot) {
+                v[i] = v[--gt];
+                v[gt] = x;
+            } else {
+                i++;
+            }
+        }
+        /* [lo, lt) < pivot, [lt, gt) == pivot (in place), [gt, hi) > */
+        size_t a = 0, b;
+        while (a < m && r[a] < lt)
+            a++;
+        for (b = a; b < m && r[b] < gt; b++)
+            ;
+        if (a > 0)
+            select_ranks(v, lo, lt, r, a, depth);
+        r += b;
+        m -= b;
+        lo = gt;
+    }
+}
+
+/* Whether v holds a zero of each sign: the one case where equal values
+ * differ in their bits, so that which of them a sort puts at a rank
+ * shows in the result. */
+static int zeros_of_both_signs(const double *v, size_t n)
+{
+    int pos = 0, neg = 0;
+    for (size_t i = 0; i < n; i++)
+        if (v[i] == 0.0) {
+            if (signbit(v[i]))
+                neg = 1;
+            else
+                pos = 1;
+        }
+    return pos && neg;
+}
+
+/* Quantiles p[0..n_p) (n_p <= QUANTILES_AT_ONCE) of v[0..n). */
+#define QUANTILES_AT_ONCE 16
+static void quantiles_upto16(double *v, size_t n, const double *p,
+                             size_t n_p, double *out)
+{
+    size_t lo[QUANTILES_AT_ONCE], ranks[2 * QUANTILES_AT_ONCE], m = 0;
+    double g[QUANTILES_AT_ONCE];
+    int depth = 8;
+
+    for (size_t k = 0; k < n_p; k++) {
+        lo[k] = lower_rank(n, p[k], &g[k]);
+        ranks[m++] = lo[k] < n ? lo[k] : n - 1;
+        if (needs_next(n, lo[k], g[k]))
+            ranks[m++] = lo[k] + 1;
+    }
+    /* ascending and distinct (a handful: by insertion) */
+    for (size_t i = 1; i < m; i++)
+        for (size_t j = i; j > 0 && ranks[j] < ranks[j - 1]; j--) {
+            size_t t = ranks[j];
+            ranks[j] = ranks[j - 1];
+            ranks[j - 1] = t;
+        }
+    size_t u = 0;
+    for (size_t i = 0; i < m; i++)
+        if (u == 0 || ranks[i] != ranks[u - 1])
+            ranks[u++] = ranks[i];
+    for (size_t k = n; k > 1; k >>= 1)
+        depth += 2; /* 2 log2 n partitions, as introsort allows */
+    select_ranks(v, 0, n, ranks, u, depth);
+    for (size_t k = 0; k < n_p; k++)
+        out[k] = interpolate(v, n, lo[k], g[k]);
+}
+
+void sw_quantiles(double *v, size_t n, const double *p, size_t n_p,
+                  double *out)
+{
+    if (zeros_of_both_signs(v, n)) {
+        /* which zero stands at a rank is the sort's (stable) choice:
+         * take it from the sort itself */
+        qsort(v, n, sizeof *v, cmp_double);
+        for (size_t k = 0; k < n_p; k++) {
+            double g;
+            size_t lo = lower_rank(n, p[k], &g);
+            out[k] = interpolate(v, n, lo, g);
+        }
+        return;
+    }
+    for (size_t k = 0; k < n_p; k += QUANTILES_AT_ONCE) {
+        size_t c = n_p - k < QUANTILES_AT_ONCE ? n_p - k : QUANTILES_AT_ONCE;
+        quantiles_upto16(v, n, p + k, c, out + k);
+    }
 }
