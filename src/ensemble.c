@@ -139,9 +139,69 @@ cleanup:
     return rc;
 }
 
+/* The expanded site's series by name: an open-addressing hash table of
+ * series index + 1 (0: empty), at most half full, so that finding a
+ * member's series already added costs the same for 10 or 10,000 members
+ * (a search through the list made the expansion quadratic in members). */
+typedef struct name_table {
+    size_t *slot;
+    size_t cap; /* a power of two, or 0 */
+} name_table;
+
+static size_t name_hash(const char *s)
+{
+    /* FNV-1a, 64-bit (Fowler, Noll and Vo; IETF draft
+     * draft-eastlake-fnv) */
+    unsigned long long h = 14695981039346656037ull;
+    for (; *s != '\0'; s++)
+        h = (h ^ (unsigned char)*s) * 1099511628211ull;
+    return (size_t)(h ^ (h >> 32));
+}
+
+/* The index of series `name` among series[0..n), or n when absent. */
+static size_t name_find(const name_table *nt, const sw_site_series *series,
+                        size_t n, const char *name)
+{
+    if (nt->cap == 0)
+        return n;
+    for (size_t i = name_hash(name) & (nt->cap - 1);; i = (i + 1) &
+                                                        (nt->cap - 1)) {
+        if (nt->slot[i] == 0)
+            return n;
+        if (strcmp(series[nt->slot[i] - 1].name, name) == 0)
+            return nt->slot[i] - 1;
+    }
+}
+
+static void name_put(name_table *nt, const sw_site_series *series, size_t k)
+{
+    size_t i = name_hash(series[k].name) & (nt->cap - 1);
+    while (nt->slot[i] != 0)
+        i = (i + 1) & (nt->cap - 1);
+    nt->slot[i] = k + 1;
+}
+
+/* Enter series[n - 1], the one just added; -1 when out of memory. */
+static int name_add(name_table *nt, const sw_site_series *series, size_t n)
+{
+    if (2 * n > nt->cap) {
+        size_t cap = nt->cap ? 2 * nt->cap : 64;
+        size_t *slot = calloc(cap, sizeof *slot);
+        if (slot == NULL)
+            return -1;
+        free(nt->slot);
+        nt->slot = slot;
+        nt->cap = cap;
+        for (size_t k = 0; k + 1 < n; k++)
+            name_put(nt, series, k);
+    }
+    name_put(nt, series, n - 1);
+    return 0;
+}
+
 /* Append a series (a member column of `sr`) to the expanded site and
  * return its name there. */
-static const char *add_series(sw_ensemble *ens, size_t *cap,
+static const char *add_series(sw_ensemble *ens, size_t *cap, name_table *nt,
                               const sw_site_series *sr, const members *m,
                               size_t k)
 {
@@ -152,8 +212,9 @@ static const char *add_series(sw_ensemble *ens, size_t *cap,
         snprintf(name, sizeof name, "%.40s#%.20s", sr->name, m->label[k]);
     else
         snprintf(name, sizeof name, "%s", sr->name);
-    if (sw_site_find_series(s, name) != NULL)
-        return sw_site_find_series(s, name)->name;
+    size_t found = name_find(nt, s->series, s->n_series, name);
+    if (found < s->n_series)
+        return s->series[found].name;
     if (s->n_series == *cap) {
         size_t c = *cap ? 2 * *cap : 16;
         sw_site_series *grown = realloc(s->series, c * sizeof *grown);
@@ -166,9 +227,12 @@ static const char *add_series(sw_ensemble *ens, size_t *cap,
     *out = *sr;
     snprintf(out->name, sizeof out->name, "%s", name);
     snprintf(out->value_column, sizeof out->value_column, "%s", m->column[k]);
+    if (name_add(nt, s->series, s->n_series) != 0)
+        return NULL;
     return out->name;
 }
 
+/* Add a gate of the expanded site; -1 when out of memory. */
 static int add_gate(sw_ensemble *ens, size_t *cap, size_t orig,
                     const sw_site_gate *g, const char *hw, const char *tw,
                     const char *label)
@@ -200,9 +264,94 @@ static int add_gate(sw_ensemble *ens, size_t *cap, size_t orig,
     return 0;
 }
 
+/* The expansion's arrays as they grow: capacities, series by name. */
+typedef struct growth {
+    size_t series, gates;
+    name_table names;
+} growth;
+
+/* Add gate gi for member a of its headwater series h and member b of its
+ * tailwater series t: their series (where new) and the gate.  SW_OK, or
+ * SW_ENOMEM (no message). */
+static int add_pair(sw_ensemble *ens, growth *gr, size_t gi,
+                    const sw_site_gate *g, const sw_site_series *h,
+                    const sw_site_series *t, const members *mh,
+                    const members *mt, size_t a, size_t b)
+{
+    /* copies: adding a series may move the array */
+    char hn[SW_SITE_NAME_MAX], tn[SW_SITE_NAME_MAX], label[SW_MEMBER_MAX];
+    const char *got = add_series(ens, &gr->series, &gr->names, h, mh, a);
+    if (got == NULL)
+        return SW_ENOMEM;
+    snprintf(hn, sizeof hn, "%s", got);
+    if ((got = add_series(ens, &gr->series, &gr->names, t, mt, b)) == NULL)
+        return SW_ENOMEM;
+    snprintf(tn, sizeof tn, "%s", got);
+    if (mh->label[a][0] && mt->label[b][0] &&
+        strcmp(mh->label[a], mt->label[b]) != 0)
+        snprintf(label, sizeof label, "%.30s+%.30s", mh->label[a],
+                 mt->label[b]);
+    else
+        snprintf(label, sizeof label, "%s",
+                 mh->label[a][0] ? mh->label[a] : mt->label[b]);
+    return add_gate(ens, &gr->gates, gi, g, hn, tn, label) != 0 ? SW_ENOMEM
+                                                                 : SW_OK;
+}
+
+/* A member of a tailwater series by its label, and its place. */
+typedef struct by_label {
+    const char *label;
+    size_t k;
+} by_label;
+
+static int cmp_by_label(const void *x, const void *y)
+{
+    const by_label *a = x, *b = y;
+    int c = strcmp(a->label, b->label);
+    return c != 0 ? c : (a->k > b->k) - (a->k < b->k);
+}
+
+/* Pair the members of h and t by label: for each member of h in order,
+ * each member of t with its label, in t's order.  The labels of t are
+ * sorted once and searched (n log n; comparing every pair was quadratic
+ * in members).  SW_OK, or SW_ENOMEM (no message). */
+static int pair_by_label(sw_ensemble *ens, growth *gr, size_t gi,
+                         const sw_site_gate *g, const sw_site_series *h,
+                         const sw_site_series *t, const members *mh,
+                         const members *mt)
+{
+    by_label *sorted = malloc(mt->n * sizeof *sorted);
+    int rc = SW_OK;
+
+    if (sorted == NULL)
+        return SW_ENOMEM;
+    for (size_t b = 0; b < mt->n; b++) {
+        sorted[b].label = mt->label[b];
+        sorted[b].k = b;
+    }
+    qsort(sorted, mt->n, sizeof *sorted, cmp_by_label);
+    for (size_t a = 0; a < mh->n && rc == SW_OK; a++) {
+        size_t lo = 0, hi = mt->n;
+        while (lo < hi) {
+            size_t mid = lo + (hi - lo) / 2;
+            if (strcmp(sorted[mid].label, mh->label[a]) < 0)
+                lo = mid + 1;
+            else
+                hi = mid;
+        }
+        for (; lo < mt->n && rc == SW_OK &&
+               strcmp(sorted[lo].label, mh->label[a]) == 0;
+             lo++)
+            rc = add_pair(ens, gr, gi, g, h, t, mh, mt, a, sorted[lo].k);
+    }
+    free(sorted);
+    return rc;
+}
+
 int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
 {
-    size_t cap_series = 0, cap_gates = 0, cap_hw = 0;
+    size_t cap_hw = 0;
+    growth gr = {0, 0, {NULL, 0}};
     members mh, mt;
     int rc = SW_OK;
 
@@ -268,34 +417,16 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         if ((rc = find_members(site, t, &mt, err)) != SW_OK)
             goto fail;
         int crossed = site->ensemble_crossed;
-        for (size_t a = 0; a < mh.n; a++)
-            for (size_t b = 0; b < mt.n; b++) {
-                int pair = mh.n == 1 || mt.n == 1 || crossed ||
-                           strcmp(mh.label[a], mt.label[b]) == 0;
-                if (!pair)
-                    continue;
-                /* copies: adding a series may move the array */
-                char hn[SW_SITE_NAME_MAX], tn[SW_SITE_NAME_MAX];
-                const char *got = add_series(ens, &cap_series, h, &mh, a);
-                if (got != NULL)
-                    snprintf(hn, sizeof hn, "%s", got);
-                got = got ? add_series(ens, &cap_series, t, &mt, b) : NULL;
-                if (got != NULL)
-                    snprintf(tn, sizeof tn, "%s", got);
-                char label[SW_MEMBER_MAX];
-                if (mh.label[a][0] && mt.label[b][0] &&
-                    strcmp(mh.label[a], mt.label[b]) != 0)
-                    snprintf(label, sizeof label, "%.30s+%.30s", mh.label[a],
-                             mt.label[b]);
-                else
-                    snprintf(label, sizeof label, "%s",
-                             mh.label[a][0] ? mh.label[a] : mt.label[b]);
-                if (got == NULL || add_gate(ens, &cap_gates, gi, g, hn, tn,
-                                            label) != 0) {
-                    rc = nomem(err);
-                    goto fail;
-                }
-            }
+        if (!crossed && mh.n > 1 && mt.n > 1)
+            rc = pair_by_label(ens, &gr, gi, g, h, t, &mh, &mt);
+        else
+            for (size_t a = 0; a < mh.n && rc == SW_OK; a++)
+                for (size_t b = 0; b < mt.n && rc == SW_OK; b++)
+                    rc = add_pair(ens, &gr, gi, g, h, t, &mh, &mt, a, b);
+        if (rc != SW_OK) {
+            rc = nomem(err);
+            goto fail;
+        }
         if (ens->n_members[gi] == 0 || (!crossed && mh.n > 1 && mt.n > 1 &&
                                         ens->n_members[gi] != mh.n)) {
             rc = sw_error_set(err, SW_ESITE, site->path, g->line, 0,
@@ -309,8 +440,10 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         members_free(&mh);
         members_free(&mt);
     }
+    free(gr.names.slot);
     return SW_OK;
 fail:
+    free(gr.names.slot);
     members_free(&mh);
     members_free(&mt);
     sw_ensemble_fini(ens);

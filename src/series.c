@@ -163,6 +163,7 @@ struct sw_reader {
     size_t hdr_len, hdr_cap;
     size_t *hdr_off;
     size_t hdr_n, hdr_n_cap;
+    struct header_name *hdr_sorted; /* [hdr_n]: by name, then field */
 
     /* the previous record handed out */
     int has_prev;
@@ -956,29 +957,72 @@ static void list_header(const sw_reader *r, char *out, size_t n)
     }
 }
 
-/* Find `name` (trimmed) in the header; *idx is its 0-based field index. */
+/* A header name and its 0-based field index. */
+struct header_name {
+    const char *name;
+    size_t field;
+};
+
+static int cmp_header_name(const void *x, const void *y)
+{
+    const struct header_name *a = x, *b = y;
+    int c = strcmp(a->name, b->name);
+    return c != 0 ? c : (a->field > b->field) - (a->field < b->field);
+}
+
+/* Sort the header's names (with their fields), so that each column asked
+ * for is found in log n steps: a search through the header for each of
+ * the columns of a wide file (an ensemble of many members) was quadratic
+ * in them. */
+static int sort_header(sw_reader *r, sw_error *err)
+{
+    r->hdr_sorted = malloc((r->hdr_n ? r->hdr_n : 1) * sizeof *r->hdr_sorted);
+    if (r->hdr_sorted == NULL)
+        return sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+    for (size_t i = 0; i < r->hdr_n; i++) {
+        r->hdr_sorted[i].name = r->hdr + r->hdr_off[i];
+        r->hdr_sorted[i].field = i;
+    }
+    qsort(r->hdr_sorted, r->hdr_n, sizeof *r->hdr_sorted, cmp_header_name);
+    return SW_OK;
+}
+
+/* strcmp's order between the string h and s[0..len). */
+static int cmp_name_text(const char *h, const char *s, size_t len)
+{
+    size_t hl = strlen(h);
+    int c = memcmp(h, s, hl < len ? hl : len);
+    return c != 0 ? c : (hl > len) - (hl < len);
+}
+
+/* Find `name` (trimmed) in the header; *idx is its 0-based field index.
+ * Of a name given twice, the first two fields are named. */
 static int find_column(const sw_reader *r, const char *what,
                        const char *name, size_t *idx, sw_error *err)
 {
     const char *s = name;
-    size_t len = strlen(name), found = 0;
+    size_t len = strlen(name), lo = 0, hi = r->hdr_n;
+    const struct header_name *hs = r->hdr_sorted;
     char list[320];
 
     trim(&s, &len);
-    for (size_t i = 0; i < r->hdr_n; i++) {
-        const char *h = r->hdr + r->hdr_off[i];
-        if (strlen(h) == len && memcmp(h, s, len) == 0) {
-            if (found++ == 0) {
-                *idx = i;
-            } else {
-                return fail_at(r, err, SW_EDATA, r->rec_line, (long)i + 1,
-                               "%s column '%.*s' appears twice in the "
-                               "header (fields %zu and %zu); rename one",
-                               what, quote_len(len), s, *idx + 1, i + 1);
-            }
-        }
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (cmp_name_text(hs[mid].name, s, len) < 0)
+            lo = mid + 1;
+        else
+            hi = mid;
     }
-    if (found == 0) {
+    if (lo < r->hdr_n && cmp_name_text(hs[lo].name, s, len) == 0) {
+        *idx = hs[lo].field;
+        if (lo + 1 < r->hdr_n && cmp_name_text(hs[lo + 1].name, s, len) == 0)
+            return fail_at(r, err, SW_EDATA, r->rec_line,
+                           (long)hs[lo + 1].field + 1,
+                           "%s column '%.*s' appears twice in the header "
+                           "(fields %zu and %zu); rename one",
+                           what, quote_len(len), s, *idx + 1,
+                           hs[lo + 1].field + 1);
+    } else {
         list_header(r, list, sizeof list);
         return fail_at(r, err, SW_EDATA, r->rec_line, 0,
                        "%s column '%.*s' is not in the header (delimiter "
@@ -1142,8 +1186,9 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     }
     r->n_header = r->hdr_n;
 
-    if ((rc = find_column(r, "time", cfg->time_column, &r->time_idx, err))
-        != SW_OK)
+    if ((rc = sort_header(r, err)) != SW_OK ||
+        (rc = find_column(r, "time", cfg->time_column, &r->time_idx, err)) !=
+            SW_OK)
         goto cleanup;
     last = r->time_idx;
     if ((r->first_col = malloc(r->n_header * sizeof *r->first_col)) == NULL) {
@@ -1182,8 +1227,10 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     /* The names are no longer needed. */
     free(r->hdr);
     free(r->hdr_off);
+    free(r->hdr_sorted);
     r->hdr = NULL;
     r->hdr_off = NULL;
+    r->hdr_sorted = NULL;
     *reader = r;
     return SW_OK;
 
@@ -1385,6 +1432,7 @@ void sw_reader_free(sw_reader *reader)
     free(reader->first_col);
     free(reader->hdr);
     free(reader->hdr_off);
+    free(reader->hdr_sorted);
     free(reader->buf);
     free(reader->q_t);
     free(reader->q_line);

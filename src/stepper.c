@@ -243,17 +243,52 @@ static int same_file(const sw_site_series *a, const sw_site_series *b)
            strcmp(a->member_dim, b->member_dim) == 0;
 }
 
-/* The index of series `name` in use, adding it (and its reader) if new.
- * Every series of one file shares one reader, whatever their number (the
- * reader sizes its columns when it opens), so a file is parsed once.
- * Returns 0, or -1 when out of memory. */
-static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
+/* The site's series sorted by name (then place): each gate finds its
+ * series in log n steps (a search through the list for every gate was
+ * quadratic in the gates of an expanded ensemble). */
+typedef struct named {
+    const char *name;
+    size_t i;
+} named;
+
+static int cmp_named(const void *x, const void *y)
 {
-    for (size_t i = 0; i < st->n_series; i++)
-        if (st->series[i].def == def) {
-            *index = i;
-            return 0;
-        }
+    const named *a = x, *b = y;
+    int c = strcmp(a->name, b->name);
+    return c != 0 ? c : (a->i > b->i) - (a->i < b->i);
+}
+
+/* As sw_site_find_series(): the first series called `name`, or NULL. */
+static const sw_site_series *find_series(const sw_site *site,
+                                         const named *sorted,
+                                         const char *name)
+{
+    size_t lo = 0, hi = site->n_series;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (strcmp(sorted[mid].name, name) < 0)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    if (lo < site->n_series && strcmp(sorted[lo].name, name) == 0)
+        return &site->series[sorted[lo].i];
+    return NULL;
+}
+
+/* The index of series `def` (one of the site's) in use, adding it (and
+ * its reader) if new; in_use[i] is the index + 1 of the site's series i,
+ * 0 while unused.  Every series of one file shares one reader, whatever
+ * their number (the reader sizes its columns when it opens), so a file is
+ * parsed once.  Returns 0, or -1 when out of memory. */
+static int use_series(sw_stepper *st, const sw_site_series *def,
+                      size_t *in_use, size_t *index)
+{
+    size_t *slot = &in_use[def - st->site->series];
+    if (*slot != 0) {
+        *index = *slot - 1;
+        return 0;
+    }
     size_t r;
     for (r = 0; r < st->n_readers; r++)
         if (same_file(st->readers[r].first, def))
@@ -277,6 +312,7 @@ static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
     s->column = rs->n_cols;
     rs->series_of[rs->n_cols++] = st->n_series;
     *index = st->n_series++;
+    *slot = st->n_series;
     return 0;
 }
 
@@ -480,11 +516,23 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
                      const sw_stepper_options *opt, sw_error *err)
 {
     sw_stepper *st = calloc(1, sizeof *st);
+    size_t n_site = site->n_series ? site->n_series : 1;
+    named *sorted = malloc(n_site * sizeof *sorted);
+    size_t *in_use = calloc(n_site, sizeof *in_use);
     int rc = SW_OK;
 
     *out = NULL;
-    if (st == NULL)
+    if (st == NULL || sorted == NULL || in_use == NULL) {
+        free(st);
+        free(sorted);
+        free(in_use);
         return nomem(err);
+    }
+    for (size_t i = 0; i < site->n_series; i++) {
+        sorted[i].name = site->series[i].name;
+        sorted[i].i = i;
+    }
+    qsort(sorted, site->n_series, sizeof *sorted, cmp_named);
     st->site = site;
     if (opt != NULL)
         st->opt = *opt;
@@ -499,8 +547,8 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
     for (size_t i = 0; i < site->n_gates; i++) {
         const sw_site_gate *sg = &site->gates[i];
         gate_state *g = &st->gates[i];
-        const sw_site_series *h = sw_site_find_series(site, sg->headwater);
-        const sw_site_series *t = sw_site_find_series(site, sg->tailwater);
+        const sw_site_series *h = find_series(site, sorted, sg->headwater);
+        const sw_site_series *t = find_series(site, sorted, sg->tailwater);
         if (h == NULL || t == NULL) {
             rc = sw_error_set(err, SW_ESITE, site->path, sg->line, 0,
                               "gate '%s' has no %s series: give it "
@@ -511,7 +559,8 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
             goto cleanup;
         }
         g->gate = &sg->gate;
-        if (use_series(st, h, &g->hw) != 0 || use_series(st, t, &g->tw) != 0) {
+        if (use_series(st, h, in_use, &g->hw) != 0 ||
+            use_series(st, t, in_use, &g->tw) != 0) {
             rc = nomem(err);
             goto cleanup;
         }
@@ -539,9 +588,13 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
     }
     if ((rc = open_readers(st, err)) != SW_OK)
         goto cleanup;
+    free(sorted);
+    free(in_use);
     *out = st;
     return SW_OK;
 cleanup:
+    free(sorted);
+    free(in_use);
     sw_stepper_free(st);
     return rc;
 }

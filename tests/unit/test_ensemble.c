@@ -169,6 +169,61 @@ static void test_many_members(void **state)
     sw_site_fini(&site);
 }
 
+/* Members paired by label whatever their order in each file: 600 members,
+ * the tailwater's in another order (a stride through them); the gates
+ * follow the headwater's order, each with the tailwater of its label, and
+ * each member's series is added once. */
+static void test_paired_out_of_order(void **state)
+{
+    (void)state;
+    enum { N = 600 };
+    size_t cap = 16 * N + 16;
+    char *up = malloc(cap), *down = malloc(cap), path[128];
+    sw_site site;
+    sw_ensemble ens;
+    sw_error err;
+    size_t u, d;
+
+    assert_non_null(up);
+    assert_non_null(down);
+    u = (size_t)snprintf(up, cap, "time");
+    d = (size_t)snprintf(down, cap, "time");
+    for (int m = 0; m < N; m++) {
+        u += (size_t)snprintf(up + u, cap - u, ",hw_%d", m);
+        /* 7 and 600 have no common factor: every label once */
+        d += (size_t)snprintf(down + d, cap - d, ",tw_%d", (7 * m + 3) % N);
+    }
+    snprintf(up + u, cap - u, "\n");
+    snprintf(down + d, cap - d, "\n");
+    sw_test_write("site.ini", BASE GATE("A", "up", "tailwater = down\n"));
+    sw_test_write("up.csv", up);
+    sw_test_write("down.csv", down);
+    free(up);
+    free(down);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    assert_int_equal(sw_ensemble_expand(&ens, &site, &err), SW_OK);
+    assert_int_equal(ens.site.n_gates, N);
+    assert_int_equal(ens.site.n_series, 2 * N);
+    for (size_t i = 0; i < N; i++) {
+        char label[16], hw[16], tw[16];
+        snprintf(label, sizeof label, "%zu", i);
+        snprintf(hw, sizeof hw, "hw_%zu", i);
+        snprintf(tw, sizeof tw, "tw_%zu", i);
+        assert_string_equal(ens.member[i], label);
+        const sw_site_series *h =
+            sw_site_find_series(&ens.site, ens.site.gates[i].headwater);
+        const sw_site_series *t =
+            sw_site_find_series(&ens.site, ens.site.gates[i].tailwater);
+        assert_non_null(h);
+        assert_non_null(t);
+        assert_string_equal(h->value_column, hw);
+        assert_string_equal(t->value_column, tw);
+    }
+    sw_ensemble_fini(&ens);
+    sw_site_fini(&site);
+}
+
 /* Sample quantiles, definition 7 of Hyndman and Fan (1996), The American
  * Statistician 50(4), 361-365: Q(p) = x[j] + g (x[j+1] - x[j]) with
  * h = (n - 1) p, j = floor(h) (0-based), g = h - j.  Expected values
@@ -335,6 +390,7 @@ int main(void)
         cmocka_unit_test(test_crossed),
         cmocka_unit_test(test_unpaired_members),
         cmocka_unit_test(test_many_members),
+        cmocka_unit_test(test_paired_out_of_order),
         cmocka_unit_test(test_quantile_definition_7),
         cmocka_unit_test(test_quantiles_equal_sorted),
         cmocka_unit_test(test_quantiles_match_gsl),

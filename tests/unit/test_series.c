@@ -1005,6 +1005,23 @@ static void test_error_missing_column(void **state)
     expect_open_error(&o, SW_EDATA, 1, 3,
                       "value column 'level' appears twice in the header "
                       "(fields 2 and 3)");
+    /* three times among names that sort before and after it, and
+     * prefixes of it: the first two are named */
+    read_all("levels,level,lev,time,level,a,level,z\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 5,
+                      "value column 'level' appears twice in the header "
+                      "(fields 2 and 5)");
+    /* the time column twice, after the value */
+    read_all("level,time,x,time\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 4,
+                      "time column 'time' appears twice in the header "
+                      "(fields 2 and 4)");
+    /* a prefix of a name, and a name the value is a prefix of, are other
+     * names */
+    set_column(&cols[0], "leve");
+    read_all("time,level,lev\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 0,
+                      "value column 'leve' is not in the header");
 }
 
 static void test_error_quotes(void **state)
