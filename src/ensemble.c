@@ -348,6 +348,34 @@ static int pair_by_label(sw_ensemble *ens, growth *gr, size_t gi,
     return rc;
 }
 
+/* The members of headwater series h of headwater-only gate gi, listed
+ * apart (ens->hw_series).  SW_OK, or SW_ENOMEM (no message). */
+static int add_hw_only(sw_ensemble *ens, size_t *cap, size_t gi,
+                       const sw_site_series *h, const members *mh)
+{
+    for (size_t k = 0; k < mh->n; k++) {
+        if (ens->n_hw_series == *cap) {
+            size_t c = *cap ? 2 * *cap : 8;
+            sw_site_series *s2 = realloc(ens->hw_series, c * sizeof *s2);
+            if (s2 != NULL)
+                ens->hw_series = s2;
+            size_t *g2 = realloc(ens->hw_series_gate, c * sizeof *g2);
+            if (g2 != NULL)
+                ens->hw_series_gate = g2;
+            if (s2 == NULL || g2 == NULL)
+                return SW_ENOMEM;
+            *cap = c;
+        }
+        sw_site_series *out = &ens->hw_series[ens->n_hw_series];
+        *out = *h;
+        snprintf(out->value_column, sizeof out->value_column, "%s",
+                 mh->column[k]);
+        snprintf(out->name, sizeof out->name, "%.63s", mh->label[k]);
+        ens->hw_series_gate[ens->n_hw_series++] = gi;
+    }
+    return SW_OK;
+}
+
 int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
 {
     size_t cap_hw = 0;
@@ -388,28 +416,9 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         if (t == NULL) {
             /* headwater only: the tailwater it needs, member by member */
             ens->hw_only[ens->n_hw_only++] = gi;
-            for (size_t k = 0; k < mh.n; k++) {
-                if (ens->n_hw_series == cap_hw) {
-                    size_t c = cap_hw ? 2 * cap_hw : 8;
-                    sw_site_series *s2 =
-                        realloc(ens->hw_series, c * sizeof *s2);
-                    if (s2 != NULL)
-                        ens->hw_series = s2;
-                    size_t *g2 = realloc(ens->hw_series_gate, c * sizeof *g2);
-                    if (g2 != NULL)
-                        ens->hw_series_gate = g2;
-                    if (s2 == NULL || g2 == NULL) {
-                        rc = nomem(err);
-                        goto fail;
-                    }
-                    cap_hw = c;
-                }
-                sw_site_series *out = &ens->hw_series[ens->n_hw_series];
-                *out = *h;
-                snprintf(out->value_column, sizeof out->value_column, "%s",
-                         mh.column[k]);
-                snprintf(out->name, sizeof out->name, "%.63s", mh.label[k]);
-                ens->hw_series_gate[ens->n_hw_series++] = gi;
+            if (add_hw_only(ens, &cap_hw, gi, h, &mh) != SW_OK) {
+                rc = nomem(err);
+                goto fail;
             }
             members_free(&mh);
             continue;

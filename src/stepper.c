@@ -258,6 +258,21 @@ static int cmp_named(const void *x, const void *y)
     return c != 0 ? c : (a->i > b->i) - (a->i < b->i);
 }
 
+/* The site's series sorted by name; NULL when out of memory. */
+static named *sort_names(const sw_site *site)
+{
+    named *sorted = malloc((site->n_series ? site->n_series : 1) *
+                           sizeof *sorted);
+    if (sorted == NULL)
+        return NULL;
+    for (size_t i = 0; i < site->n_series; i++) {
+        sorted[i].name = site->series[i].name;
+        sorted[i].i = i;
+    }
+    qsort(sorted, site->n_series, sizeof *sorted, cmp_named);
+    return sorted;
+}
+
 /* As sw_site_find_series(): the first series called `name`, or NULL. */
 static const sw_site_series *find_series(const sw_site *site,
                                          const named *sorted,
@@ -512,13 +527,28 @@ static int open_readers(sw_stepper *st, sw_error *err)
     return SW_OK;
 }
 
+/* A gate's state before its first interval. */
+static void init_gate(gate_state *g, const sw_gate *gate)
+{
+    g->gate = gate;
+    sw_gate_get_bounds(g->gate, &g->bounds);
+    g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
+                 g->gate->first_moment_m3;
+    g->rate_tw = g->gate->fs_basis == SW_FS_NET
+                     ? g->gate->rho_kgm3[SW_DOWNSTREAM] * g->gate->g_ms2 *
+                           g->gate->first_moment_m3
+                     : 0.0;
+    g->run.min_fs = INFINITY;
+    g->month.min_fs = INFINITY;
+}
+
 int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
                      const sw_stepper_options *opt, sw_error *err)
 {
     sw_stepper *st = calloc(1, sizeof *st);
-    size_t n_site = site->n_series ? site->n_series : 1;
-    named *sorted = malloc(n_site * sizeof *sorted);
-    size_t *in_use = calloc(n_site, sizeof *in_use);
+    named *sorted = sort_names(site);
+    size_t *in_use = calloc(site->n_series ? site->n_series : 1,
+                            sizeof *in_use);
     int rc = SW_OK;
 
     *out = NULL;
@@ -528,11 +558,6 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
         free(in_use);
         return nomem(err);
     }
-    for (size_t i = 0; i < site->n_series; i++) {
-        sorted[i].name = site->series[i].name;
-        sorted[i].i = i;
-    }
-    qsort(sorted, site->n_series, sizeof *sorted, cmp_named);
     st->site = site;
     if (opt != NULL)
         st->opt = *opt;
@@ -558,21 +583,12 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
                               h == NULL ? "headwater" : "tailwater");
             goto cleanup;
         }
-        g->gate = &sg->gate;
         if (use_series(st, h, in_use, &g->hw) != 0 ||
             use_series(st, t, in_use, &g->tw) != 0) {
             rc = nomem(err);
             goto cleanup;
         }
-        sw_gate_get_bounds(g->gate, &g->bounds);
-        g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
-                     g->gate->first_moment_m3;
-        g->rate_tw = g->gate->fs_basis == SW_FS_NET
-                         ? g->gate->rho_kgm3[SW_DOWNSTREAM] *
-                               g->gate->g_ms2 * g->gate->first_moment_m3
-                         : 0.0;
-        g->run.min_fs = INFINITY;
-        g->month.min_fs = INFINITY;
+        init_gate(g, &sg->gate);
     }
     for (size_t i = 0; i < st->n_series; i++) {
         series_state *s = &st->series[i];
