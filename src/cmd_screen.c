@@ -245,14 +245,18 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
             sw_csv_put_field(fp, site->gates[g].gate.name);
             fprintf(fp, ",%zu,%.4f,%.4f", k,
                     (double)low / (double)k, (double)open / (double)k);
+            /* one selection per quantity for all three percentiles */
             const double p[3] = {0.1, 0.5, 0.9};
+            double q_fs[3], q_sr[3];
+            sw_quantiles(fs, k, p, 3, q_fs);
+            sw_quantiles(sr, k, p, 3, q_sr);
             for (int i = 0; i < 3; i++) {
                 fputc(',', fp);
-                put_number(fp, sw_quantile(fs, k, p[i]), 4);
+                put_number(fp, q_fs[i], 4);
             }
             for (int i = 0; i < 3; i++) {
                 fputc(',', fp);
-                put_number(fp, sw_quantile(sr, k, p[i]), 2);
+                put_number(fp, q_sr[i], 2);
             }
             fputc('\n', fp);
         }

@@ -139,9 +139,69 @@ cleanup:
     return rc;
 }
 
+/* The expanded site's series by name: an open-addressing hash table of
+ * series index + 1 (0: empty), at most half full, so that finding a
+ * member's series already added costs the same for 10 or 10,000 members
+ * (a search through the list made the expansion quadratic in members). */
+typedef struct name_table {
+    size_t *slot;
+    size_t cap; /* a power of two, or 0 */
+} name_table;
+
+static size_t name_hash(const char *s)
+{
+    /* FNV-1a, 64-bit (Fowler, Noll and Vo; IETF draft
+     * draft-eastlake-fnv) */
+    unsigned long long h = 14695981039346656037ull;
+    for (; *s != '\0'; s++)
+        h = (h ^ (unsigned char)*s) * 1099511628211ull;
+    return (size_t)(h ^ (h >> 32));
+}
+
+/* The index of series `name` among series[0..n), or n when absent. */
+static size_t name_find(const name_table *nt, const sw_site_series *series,
+                        size_t n, const char *name)
+{
+    if (nt->cap == 0)
+        return n;
+    for (size_t i = name_hash(name) & (nt->cap - 1);; i = (i + 1) &
+                                                        (nt->cap - 1)) {
+        if (nt->slot[i] == 0)
+            return n;
+        if (strcmp(series[nt->slot[i] - 1].name, name) == 0)
+            return nt->slot[i] - 1;
+    }
+}
+
+static void name_put(name_table *nt, const sw_site_series *series, size_t k)
+{
+    size_t i = name_hash(series[k].name) & (nt->cap - 1);
+    while (nt->slot[i] != 0)
+        i = (i + 1) & (nt->cap - 1);
+    nt->slot[i] = k + 1;
+}
+
+/* Enter series[n - 1], the one just added; -1 when out of memory. */
+static int name_add(name_table *nt, const sw_site_series *series, size_t n)
+{
+    if (2 * n > nt->cap) {
+        size_t cap = nt->cap ? 2 * nt->cap : 64;
+        size_t *slot = calloc(cap, sizeof *slot);
+        if (slot == NULL)
+            return -1;
+        free(nt->slot);
+        nt->slot = slot;
+        nt->cap = cap;
+        for (size_t k = 0; k + 1 < n; k++)
+            name_put(nt, series, k);
+    }
+    name_put(nt, series, n - 1);
+    return 0;
+}
+
 /* Append a series (a member column of `sr`) to the expanded site and
  * return its name there. */
-static const char *add_series(sw_ensemble *ens, size_t *cap,
+static const char *add_series(sw_ensemble *ens, size_t *cap, name_table *nt,
                               const sw_site_series *sr, const members *m,
                               size_t k)
 {
@@ -152,8 +212,9 @@ static const char *add_series(sw_ensemble *ens, size_t *cap,
         snprintf(name, sizeof name, "%.40s#%.20s", sr->name, m->label[k]);
     else
         snprintf(name, sizeof name, "%s", sr->name);
-    if (sw_site_find_series(s, name) != NULL)
-        return sw_site_find_series(s, name)->name;
+    size_t found = name_find(nt, s->series, s->n_series, name);
+    if (found < s->n_series)
+        return s->series[found].name;
     if (s->n_series == *cap) {
         size_t c = *cap ? 2 * *cap : 16;
         sw_site_series *grown = realloc(s->series, c * sizeof *grown);
@@ -166,9 +227,12 @@ static const char *add_series(sw_ensemble *ens, size_t *cap,
     *out = *sr;
     snprintf(out->name, sizeof out->name, "%s", name);
     snprintf(out->value_column, sizeof out->value_column, "%s", m->column[k]);
+    if (name_add(nt, s->series, s->n_series) != 0)
+        return NULL;
     return out->name;
 }
 
+/* Add a gate of the expanded site; -1 when out of memory. */
 static int add_gate(sw_ensemble *ens, size_t *cap, size_t orig,
                     const sw_site_gate *g, const char *hw, const char *tw,
                     const char *label)
@@ -200,9 +264,122 @@ static int add_gate(sw_ensemble *ens, size_t *cap, size_t orig,
     return 0;
 }
 
+/* The expansion's arrays as they grow: capacities, series by name. */
+typedef struct growth {
+    size_t series, gates;
+    name_table names;
+} growth;
+
+/* Add gate gi for member a of its headwater series h and member b of its
+ * tailwater series t: their series (where new) and the gate.  SW_OK, or
+ * SW_ENOMEM (no message). */
+static int add_pair(sw_ensemble *ens, growth *gr, size_t gi,
+                    const sw_site_gate *g, const sw_site_series *h,
+                    const sw_site_series *t, const members *mh,
+                    const members *mt, size_t a, size_t b)
+{
+    /* copies: adding a series may move the array */
+    char hn[SW_SITE_NAME_MAX], tn[SW_SITE_NAME_MAX], label[SW_MEMBER_MAX];
+    const char *got = add_series(ens, &gr->series, &gr->names, h, mh, a);
+    if (got == NULL)
+        return SW_ENOMEM;
+    snprintf(hn, sizeof hn, "%s", got);
+    if ((got = add_series(ens, &gr->series, &gr->names, t, mt, b)) == NULL)
+        return SW_ENOMEM;
+    snprintf(tn, sizeof tn, "%s", got);
+    if (mh->label[a][0] && mt->label[b][0] &&
+        strcmp(mh->label[a], mt->label[b]) != 0)
+        snprintf(label, sizeof label, "%.30s+%.30s", mh->label[a],
+                 mt->label[b]);
+    else
+        snprintf(label, sizeof label, "%s",
+                 mh->label[a][0] ? mh->label[a] : mt->label[b]);
+    return add_gate(ens, &gr->gates, gi, g, hn, tn, label) != 0 ? SW_ENOMEM
+                                                                 : SW_OK;
+}
+
+/* A member of a tailwater series by its label, and its place. */
+typedef struct by_label {
+    const char *label;
+    size_t k;
+} by_label;
+
+static int cmp_by_label(const void *x, const void *y)
+{
+    const by_label *a = x, *b = y;
+    int c = strcmp(a->label, b->label);
+    return c != 0 ? c : (a->k > b->k) - (a->k < b->k);
+}
+
+/* Pair the members of h and t by label: for each member of h in order,
+ * each member of t with its label, in t's order.  The labels of t are
+ * sorted once and searched (n log n; comparing every pair was quadratic
+ * in members).  SW_OK, or SW_ENOMEM (no message). */
+static int pair_by_label(sw_ensemble *ens, growth *gr, size_t gi,
+                         const sw_site_gate *g, const sw_site_series *h,
+                         const sw_site_series *t, const members *mh,
+                         const members *mt)
+{
+    by_label *sorted = malloc(mt->n * sizeof *sorted);
+    int rc = SW_OK;
+
+    if (sorted == NULL)
+        return SW_ENOMEM;
+    for (size_t b = 0; b < mt->n; b++) {
+        sorted[b].label = mt->label[b];
+        sorted[b].k = b;
+    }
+    qsort(sorted, mt->n, sizeof *sorted, cmp_by_label);
+    for (size_t a = 0; a < mh->n && rc == SW_OK; a++) {
+        size_t lo = 0, hi = mt->n;
+        while (lo < hi) {
+            size_t mid = lo + (hi - lo) / 2;
+            if (strcmp(sorted[mid].label, mh->label[a]) < 0)
+                lo = mid + 1;
+            else
+                hi = mid;
+        }
+        for (; lo < mt->n && rc == SW_OK &&
+               strcmp(sorted[lo].label, mh->label[a]) == 0;
+             lo++)
+            rc = add_pair(ens, gr, gi, g, h, t, mh, mt, a, sorted[lo].k);
+    }
+    free(sorted);
+    return rc;
+}
+
+/* The members of headwater series h of headwater-only gate gi, listed
+ * apart (ens->hw_series).  SW_OK, or SW_ENOMEM (no message). */
+static int add_hw_only(sw_ensemble *ens, size_t *cap, size_t gi,
+                       const sw_site_series *h, const members *mh)
+{
+    for (size_t k = 0; k < mh->n; k++) {
+        if (ens->n_hw_series == *cap) {
+            size_t c = *cap ? 2 * *cap : 8;
+            sw_site_series *s2 = realloc(ens->hw_series, c * sizeof *s2);
+            if (s2 != NULL)
+                ens->hw_series = s2;
+            size_t *g2 = realloc(ens->hw_series_gate, c * sizeof *g2);
+            if (g2 != NULL)
+                ens->hw_series_gate = g2;
+            if (s2 == NULL || g2 == NULL)
+                return SW_ENOMEM;
+            *cap = c;
+        }
+        sw_site_series *out = &ens->hw_series[ens->n_hw_series];
+        *out = *h;
+        snprintf(out->value_column, sizeof out->value_column, "%s",
+                 mh->column[k]);
+        snprintf(out->name, sizeof out->name, "%.63s", mh->label[k]);
+        ens->hw_series_gate[ens->n_hw_series++] = gi;
+    }
+    return SW_OK;
+}
+
 int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
 {
-    size_t cap_series = 0, cap_gates = 0, cap_hw = 0;
+    size_t cap_hw = 0;
+    growth gr = {0, 0, {NULL, 0}};
     members mh, mt;
     int rc = SW_OK;
 
@@ -239,28 +416,9 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         if (t == NULL) {
             /* headwater only: the tailwater it needs, member by member */
             ens->hw_only[ens->n_hw_only++] = gi;
-            for (size_t k = 0; k < mh.n; k++) {
-                if (ens->n_hw_series == cap_hw) {
-                    size_t c = cap_hw ? 2 * cap_hw : 8;
-                    sw_site_series *s2 =
-                        realloc(ens->hw_series, c * sizeof *s2);
-                    if (s2 != NULL)
-                        ens->hw_series = s2;
-                    size_t *g2 = realloc(ens->hw_series_gate, c * sizeof *g2);
-                    if (g2 != NULL)
-                        ens->hw_series_gate = g2;
-                    if (s2 == NULL || g2 == NULL) {
-                        rc = nomem(err);
-                        goto fail;
-                    }
-                    cap_hw = c;
-                }
-                sw_site_series *out = &ens->hw_series[ens->n_hw_series];
-                *out = *h;
-                snprintf(out->value_column, sizeof out->value_column, "%s",
-                         mh.column[k]);
-                snprintf(out->name, sizeof out->name, "%.63s", mh.label[k]);
-                ens->hw_series_gate[ens->n_hw_series++] = gi;
+            if (add_hw_only(ens, &cap_hw, gi, h, &mh) != SW_OK) {
+                rc = nomem(err);
+                goto fail;
             }
             members_free(&mh);
             continue;
@@ -268,34 +426,16 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         if ((rc = find_members(site, t, &mt, err)) != SW_OK)
             goto fail;
         int crossed = site->ensemble_crossed;
-        for (size_t a = 0; a < mh.n; a++)
-            for (size_t b = 0; b < mt.n; b++) {
-                int pair = mh.n == 1 || mt.n == 1 || crossed ||
-                           strcmp(mh.label[a], mt.label[b]) == 0;
-                if (!pair)
-                    continue;
-                /* copies: adding a series may move the array */
-                char hn[SW_SITE_NAME_MAX], tn[SW_SITE_NAME_MAX];
-                const char *got = add_series(ens, &cap_series, h, &mh, a);
-                if (got != NULL)
-                    snprintf(hn, sizeof hn, "%s", got);
-                got = got ? add_series(ens, &cap_series, t, &mt, b) : NULL;
-                if (got != NULL)
-                    snprintf(tn, sizeof tn, "%s", got);
-                char label[SW_MEMBER_MAX];
-                if (mh.label[a][0] && mt.label[b][0] &&
-                    strcmp(mh.label[a], mt.label[b]) != 0)
-                    snprintf(label, sizeof label, "%.30s+%.30s", mh.label[a],
-                             mt.label[b]);
-                else
-                    snprintf(label, sizeof label, "%s",
-                             mh.label[a][0] ? mh.label[a] : mt.label[b]);
-                if (got == NULL || add_gate(ens, &cap_gates, gi, g, hn, tn,
-                                            label) != 0) {
-                    rc = nomem(err);
-                    goto fail;
-                }
-            }
+        if (!crossed && mh.n > 1 && mt.n > 1)
+            rc = pair_by_label(ens, &gr, gi, g, h, t, &mh, &mt);
+        else
+            for (size_t a = 0; a < mh.n && rc == SW_OK; a++)
+                for (size_t b = 0; b < mt.n && rc == SW_OK; b++)
+                    rc = add_pair(ens, &gr, gi, g, h, t, &mh, &mt, a, b);
+        if (rc != SW_OK) {
+            rc = nomem(err);
+            goto fail;
+        }
         if (ens->n_members[gi] == 0 || (!crossed && mh.n > 1 && mt.n > 1 &&
                                         ens->n_members[gi] != mh.n)) {
             rc = sw_error_set(err, SW_ESITE, site->path, g->line, 0,
@@ -309,8 +449,10 @@ int sw_ensemble_expand(sw_ensemble *ens, const sw_site *site, sw_error *err)
         members_free(&mh);
         members_free(&mt);
     }
+    free(gr.names.slot);
     return SW_OK;
 fail:
+    free(gr.names.slot);
     members_free(&mh);
     members_free(&mt);
     sw_ensemble_fini(ens);
@@ -339,16 +481,176 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-double sw_quantile(double *v, size_t n, double p)
+/* Hyndman and Fan (1996) definition 7: h = (n - 1) p, the lower order
+ * statistic j = floor(h) (0-based) and the weight g = h - j of the next
+ * one.  (Shared by both quantile functions, so that they read the same
+ * order statistics.) */
+static size_t lower_rank(size_t n, double p, double *g)
 {
-    qsort(v, n, sizeof *v, cmp_double);
-    /* Hyndman and Fan (1996) definition 7: h = (n - 1) p */
     double h = (double)(n - 1) * p;
     size_t lo = (size_t)floor(h);
-    double w = h - (double)lo;
-    if (lo + 1 >= n || w == 0.0)
+    *g = h - (double)lo;
+    return lo;
+}
+
+/* Whether the quantile needs order statistic lo + 1 as well as lo. */
+static int needs_next(size_t n, size_t lo, double g)
+{
+    return !(lo + 1 >= n || g == 0.0);
+}
+
+/* The quantile from order statistics v[lo] and v[lo + 1] (in place). */
+static double interpolate(const double *v, size_t n, size_t lo, double g)
+{
+    if (!needs_next(n, lo, g))
         return v[lo < n ? lo : n - 1];
     if (isinf(v[lo]) || isinf(v[lo + 1]))
         return isinf(v[lo + 1]) && v[lo + 1] > 0 ? INFINITY : v[lo];
-    return v[lo] + w * (v[lo + 1] - v[lo]);
+    return v[lo] + g * (v[lo + 1] - v[lo]);
+}
+
+double sw_quantile(double *v, size_t n, double p)
+{
+    double g;
+    size_t lo;
+
+    qsort(v, n, sizeof *v, cmp_double);
+    lo = lower_rank(n, p, &g);
+    return interpolate(v, n, lo, g);
+}
+
+/* Sort v[0..n) (short ranges) by insertion. */
+static void insertion_sort(double *v, size_t n)
+{
+    for (size_t i = 1; i < n; i++) {
+        double x = v[i];
+        size_t j = i;
+        for (; j > 0 && v[j - 1] > x; j--)
+            v[j] = v[j - 1];
+        v[j] = x;
+    }
+}
+
+static double median_of_3(double a, double b, double c)
+{
+    if (a < b)
+        return b < c ? b : (a < c ? c : a);
+    return a < c ? a : (b < c ? c : b);
+}
+
+/* Put each order statistic r[0..m) (ascending, distinct, within [lo, hi))
+ * of v[lo..hi) at its own index, as a sort would: quickselect for several
+ * ranks at once (Hoare's FIND, 1961, with a three-way partition around
+ * the median of three, Dijkstra's "Dutch national flag", so that runs of
+ * equal values cost no more than distinct ones).  Ranks on both sides of
+ * a partition are followed on both sides.  After `depth` partitions a
+ * range is sorted instead (qsort), which bounds the time by n log n and
+ * the recursion by `depth` however the values fall. */
+static void select_ranks(double *v, size_t lo, size_t hi, const size_t *r,
+                         size_t m, int depth)
+{
+    while (m > 0) {
+        if (hi - lo <= 16) {
+            insertion_sort(v + lo, hi - lo);
+            return;
+        }
+        if (depth-- == 0) {
+            qsort(v + lo, hi - lo, sizeof *v, cmp_double);
+            return;
+        }
+        double pivot = median_of_3(v[lo], v[lo + (hi - lo) / 2], v[hi - 1]);
+        size_t lt = lo, i = lo, gt = hi;
+        while (i < gt) {
+            double x = v[i];
+            if (x < pivot) {
+                v[i++] = v[lt];
+                v[lt++] = x;
+            } else if (x > pivot) {
+                v[i] = v[--gt];
+                v[gt] = x;
+            } else {
+                i++;
+            }
+        }
+        /* [lo, lt) < pivot, [lt, gt) == pivot (in place), [gt, hi) > */
+        size_t a = 0, b;
+        while (a < m && r[a] < lt)
+            a++;
+        for (b = a; b < m && r[b] < gt; b++)
+            ;
+        if (a > 0)
+            select_ranks(v, lo, lt, r, a, depth);
+        r += b;
+        m -= b;
+        lo = gt;
+    }
+}
+
+/* Whether v holds a zero of each sign: the one case where equal values
+ * differ in their bits, so that which of them a sort puts at a rank
+ * shows in the result. */
+static int zeros_of_both_signs(const double *v, size_t n)
+{
+    int pos = 0, neg = 0;
+    for (size_t i = 0; i < n; i++)
+        if (v[i] == 0.0) {
+            if (signbit(v[i]))
+                neg = 1;
+            else
+                pos = 1;
+        }
+    return pos && neg;
+}
+
+/* Quantiles p[0..n_p) (n_p <= QUANTILES_AT_ONCE) of v[0..n). */
+#define QUANTILES_AT_ONCE 16
+static void quantiles_upto16(double *v, size_t n, const double *p,
+                             size_t n_p, double *out)
+{
+    size_t lo[QUANTILES_AT_ONCE], ranks[2 * QUANTILES_AT_ONCE], m = 0;
+    double g[QUANTILES_AT_ONCE];
+    int depth = 8;
+
+    for (size_t k = 0; k < n_p; k++) {
+        lo[k] = lower_rank(n, p[k], &g[k]);
+        ranks[m++] = lo[k] < n ? lo[k] : n - 1;
+        if (needs_next(n, lo[k], g[k]))
+            ranks[m++] = lo[k] + 1;
+    }
+    /* ascending and distinct (a handful: by insertion) */
+    for (size_t i = 1; i < m; i++)
+        for (size_t j = i; j > 0 && ranks[j] < ranks[j - 1]; j--) {
+            size_t t = ranks[j];
+            ranks[j] = ranks[j - 1];
+            ranks[j - 1] = t;
+        }
+    size_t u = 0;
+    for (size_t i = 0; i < m; i++)
+        if (u == 0 || ranks[i] != ranks[u - 1])
+            ranks[u++] = ranks[i];
+    for (size_t k = n; k > 1; k >>= 1)
+        depth += 2; /* 2 log2 n partitions, as introsort allows */
+    select_ranks(v, 0, n, ranks, u, depth);
+    for (size_t k = 0; k < n_p; k++)
+        out[k] = interpolate(v, n, lo[k], g[k]);
+}
+
+void sw_quantiles(double *v, size_t n, const double *p, size_t n_p,
+                  double *out)
+{
+    if (zeros_of_both_signs(v, n)) {
+        /* which zero stands at a rank is the sort's (stable) choice:
+         * take it from the sort itself */
+        qsort(v, n, sizeof *v, cmp_double);
+        for (size_t k = 0; k < n_p; k++) {
+            double g;
+            size_t lo = lower_rank(n, p[k], &g);
+            out[k] = interpolate(v, n, lo, g);
+        }
+        return;
+    }
+    for (size_t k = 0; k < n_p; k += QUANTILES_AT_ONCE) {
+        size_t c = n_p - k < QUANTILES_AT_ONCE ? n_p - k : QUANTILES_AT_ONCE;
+        quantiles_upto16(v, n, p + k, c, out + k);
+    }
 }

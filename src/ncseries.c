@@ -44,13 +44,13 @@ struct sw_nc {
     sw_time_ms ref_ms;
     double unit_ms;
     size_t n_columns;
-    nc_column col[SW_SERIES_MAX_COLUMNS];
+    nc_column *col;               /* [n_columns] */
     sw_reader_stats *stats;
     int failed;
     sw_error saved;
     int has_prev;
     sw_time_ms prev_t;
-    double prev_val[SW_SERIES_MAX_COLUMNS];
+    double *prev_val;             /* [n_columns] */
 };
 
 static int nc_fail(const char *path, int status, sw_error *err,
@@ -477,6 +477,12 @@ int sw_nc_open(sw_nc **out, const sw_reader_config *cfg,
     strcpy(nc->path, cfg->path);
     nc->stats = stats;
     nc->n_columns = n_columns;
+    nc->col = calloc(n_columns ? n_columns : 1, sizeof *nc->col);
+    nc->prev_val = calloc(n_columns ? n_columns : 1, sizeof *nc->prev_val);
+    if (nc->col == NULL || nc->prev_val == NULL) {
+        rc = sw_error_set(err, SW_ENOMEM, cfg->path, 0, 0, "out of memory");
+        goto fail;
+    }
     if ((rc = nc_open(cfg->path, NC_NOWRITE, &nc->ncid)) != NC_NOERR) {
         rc = nc_fail(cfg->path, rc, err, "cannot open");
         goto fail;
@@ -650,6 +656,8 @@ void sw_nc_free(sw_nc *nc)
         return;
     if (nc->open)
         nc_close(nc->ncid);
+    free(nc->col);
+    free(nc->prev_val);
     free(nc->path);
     free(nc);
 }

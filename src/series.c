@@ -40,8 +40,9 @@
  * the queue of a plain run (PLAIN_VALUES doubles and times),
  * libcsv's field buffer (bounded through the 4 MiB record limit: below
  * 2 x 4 MiB + 1 MiB, see grow_geometrically()), the header's
- * names while the reader opens, and fixed-size per-column state.  Nothing
- * grows with the length of the file.
+ * names while the reader opens, and per-column state sized when it opens
+ * (a few hundred bytes a column).  Nothing grows with the length of the
+ * file.
  */
 #include "sillwatch/series.h"
 #include "sillwatch/ncseries.h"
@@ -122,9 +123,9 @@ struct sw_reader {
     sw_time_encoding time_format;
     const sw_zone *zone;
 
-    /* columns */
+    /* columns: the arrays below marked [n_columns] are sized at open */
     size_t n_columns;
-    value_column col[SW_SERIES_MAX_COLUMNS];
+    value_column *col; /* [n_columns] */
     size_t time_idx;   /* 0-based field index of the time column */
     size_t n_header;   /* fields in the header */
     size_t n_needed;   /* fields a record must have: last needed + 1 */
@@ -153,21 +154,22 @@ struct sw_reader {
     sw_time_ms rec_t, rec_wall;
     sw_stamp_memo stamp_memo; /* the date of the last stamp read */
     sw_error time_err;
-    double val[SW_SERIES_MAX_COLUMNS];
-    unsigned char outcome[SW_SERIES_MAX_COLUMNS];
-    sw_reject rej[SW_SERIES_MAX_COLUMNS];
+    double *val;            /* [n_columns] */
+    unsigned char *outcome; /* [n_columns] */
+    sw_reject *rej;         /* [n_columns] */
 
     /* the header, while it is read */
     char *hdr;         /* names, each NUL-terminated, trimmed */
     size_t hdr_len, hdr_cap;
     size_t *hdr_off;
     size_t hdr_n, hdr_n_cap;
+    struct header_name *hdr_sorted; /* [hdr_n]: by name, then field */
 
     /* the previous record handed out */
     int has_prev;
     sw_time_ms prev_t;
     long prev_line;
-    double prev_val[SW_SERIES_MAX_COLUMNS];
+    double *prev_val;  /* [n_columns] */
 
     /* plain runs: records finished ahead, handed out from the queue */
     int plain;         /* the header is read: runs may be fed whole */
@@ -955,35 +957,107 @@ static void list_header(const sw_reader *r, char *out, size_t n)
     }
 }
 
-/* Find `name` (trimmed) in the header; *idx is its 0-based field index. */
+/* A header name and its 0-based field index. */
+struct header_name {
+    const char *name;
+    size_t field;
+};
+
+static int cmp_header_name(const void *x, const void *y)
+{
+    const struct header_name *a = x, *b = y;
+    int c = strcmp(a->name, b->name);
+    return c != 0 ? c : (a->field > b->field) - (a->field < b->field);
+}
+
+/* Sort the header's names (with their fields), so that each column asked
+ * for is found in log n steps: a search through the header for each of
+ * the columns of a wide file (an ensemble of many members) was quadratic
+ * in them. */
+static int sort_header(sw_reader *r, sw_error *err)
+{
+    r->hdr_sorted = malloc((r->hdr_n ? r->hdr_n : 1) * sizeof *r->hdr_sorted);
+    if (r->hdr_sorted == NULL)
+        return sw_error_set(err, SW_ENOMEM, r->path, 0, 0, "out of memory");
+    for (size_t i = 0; i < r->hdr_n; i++) {
+        r->hdr_sorted[i].name = r->hdr + r->hdr_off[i];
+        r->hdr_sorted[i].field = i;
+    }
+    qsort(r->hdr_sorted, r->hdr_n, sizeof *r->hdr_sorted, cmp_header_name);
+    return SW_OK;
+}
+
+/* strcmp's order between the string h and s[0..len). */
+static int cmp_name_text(const char *h, const char *s, size_t len)
+{
+    size_t hl = strlen(h);
+    int c = memcmp(h, s, hl < len ? hl : len);
+    return c != 0 ? c : (hl > len) - (hl < len);
+}
+
+/* Find `name` (trimmed) in the header; *idx is its 0-based field index.
+ * Of a name given twice, the first two fields are named. */
 static int find_column(const sw_reader *r, const char *what,
                        const char *name, size_t *idx, sw_error *err)
 {
     const char *s = name;
-    size_t len = strlen(name), found = 0;
+    size_t len = strlen(name), lo = 0, hi = r->hdr_n;
+    const struct header_name *hs = r->hdr_sorted;
     char list[320];
 
     trim(&s, &len);
-    for (size_t i = 0; i < r->hdr_n; i++) {
-        const char *h = r->hdr + r->hdr_off[i];
-        if (strlen(h) == len && memcmp(h, s, len) == 0) {
-            if (found++ == 0) {
-                *idx = i;
-            } else {
-                return fail_at(r, err, SW_EDATA, r->rec_line, (long)i + 1,
-                               "%s column '%.*s' appears twice in the "
-                               "header (fields %zu and %zu); rename one",
-                               what, quote_len(len), s, *idx + 1, i + 1);
-            }
-        }
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (cmp_name_text(hs[mid].name, s, len) < 0)
+            lo = mid + 1;
+        else
+            hi = mid;
     }
-    if (found == 0) {
+    if (lo < r->hdr_n && cmp_name_text(hs[lo].name, s, len) == 0) {
+        *idx = hs[lo].field;
+        if (lo + 1 < r->hdr_n && cmp_name_text(hs[lo + 1].name, s, len) == 0)
+            return fail_at(r, err, SW_EDATA, r->rec_line,
+                           (long)hs[lo + 1].field + 1,
+                           "%s column '%.*s' appears twice in the header "
+                           "(fields %zu and %zu); rename one",
+                           what, quote_len(len), s, *idx + 1,
+                           hs[lo + 1].field + 1);
+    } else {
         list_header(r, list, sizeof list);
         return fail_at(r, err, SW_EDATA, r->rec_line, 0,
                        "%s column '%.*s' is not in the header (delimiter "
                        "%s); the header has: %s", what, quote_len(len), s,
                        delim_name(r->delim), list);
     }
+    return SW_OK;
+}
+
+/* Size the per-column state for `n_columns` value columns (at most
+ * SW_SERIES_MAX_COLUMNS: each costs a few hundred bytes here and in the
+ * statistics, and its share of every batch of records read ahead). */
+static int alloc_columns(sw_reader *r, const char *path, size_t n_columns,
+                         sw_error *err)
+{
+    size_t n = n_columns ? n_columns : 1;
+
+    if (n_columns > SW_SERIES_MAX_COLUMNS)
+        return sw_error_set(err, SW_EDATA, path, 0, 0,
+                            "%zu value columns asked of this file (ensemble "
+                            "members and series together); at most %d are "
+                            "read from one file", n_columns,
+                            SW_SERIES_MAX_COLUMNS);
+    r->col = calloc(n, sizeof *r->col);
+    r->val = calloc(n, sizeof *r->val);
+    r->outcome = calloc(n, sizeof *r->outcome);
+    r->rej = calloc(n, sizeof *r->rej);
+    r->prev_val = calloc(n, sizeof *r->prev_val);
+    r->stats.column = calloc(n, sizeof *r->stats.column);
+    if (r->col == NULL || r->val == NULL || r->outcome == NULL ||
+        r->rej == NULL || r->prev_val == NULL || r->stats.column == NULL)
+        return sw_error_set(err, SW_ENOMEM, path, 0, 0,
+                            "out of memory for %zu value columns",
+                            n_columns);
+    r->n_columns = n_columns;
     return SW_OK;
 }
 
@@ -997,11 +1071,6 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
         return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
                             "sw_reader_open: path, time column or columns "
                             "not given");
-    if (n_columns > SW_SERIES_MAX_COLUMNS)
-        return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
-                            "%zu value columns asked of one file; a reader "
-                            "serves at most %d", n_columns,
-                            SW_SERIES_MAX_COLUMNS);
     if (cfg->delimiter != 0 && cfg->delimiter != ',' &&
         cfg->delimiter != ';' && cfg->delimiter != '\t')
         return sw_error_set(err, SW_EINTERNAL, cfg->path, 0, 0,
@@ -1011,7 +1080,6 @@ static int copy_config(sw_reader *r, const sw_reader_config *cfg,
     r->time_format = cfg->time_format;
     r->zone = cfg->zone;
     r->delim = cfg->delimiter;
-    r->n_columns = n_columns;
     for (size_t c = 0; c < n_columns; c++) {
         const sw_column_config *cc = &columns[c];
         value_column *vc = &r->col[c];
@@ -1091,20 +1159,19 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     if ((r = calloc(1, sizeof *r)) == NULL)
         return sw_error_set(err, SW_ENOMEM, cfg ? cfg->path : NULL, 0, 0,
                             "out of memory");
-    if (cfg != NULL && cfg->netcdf) {
-        if ((rc = sw_nc_open(&r->nc, cfg, columns, n_columns, &r->stats,
-                             err)) != SW_OK) {
-            free(r);
-            return rc;
-        }
-        r->n_columns = n_columns;
-        *reader = r;
-        return SW_OK;
-    }
     if (cfg == NULL) {
         rc = sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
                           "sw_reader_open: no configuration");
         goto cleanup;
+    }
+    if ((rc = alloc_columns(r, cfg->path, n_columns, err)) != SW_OK)
+        goto cleanup;
+    if (cfg->netcdf) {
+        if ((rc = sw_nc_open(&r->nc, cfg, columns, n_columns, &r->stats,
+                             err)) != SW_OK)
+            goto cleanup;
+        *reader = r;
+        return SW_OK;
     }
     if ((rc = copy_config(r, cfg, columns, n_columns, err)) != SW_OK ||
         (rc = read_header(r, &got, err)) != SW_OK)
@@ -1119,8 +1186,9 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     }
     r->n_header = r->hdr_n;
 
-    if ((rc = find_column(r, "time", cfg->time_column, &r->time_idx, err))
-        != SW_OK)
+    if ((rc = sort_header(r, err)) != SW_OK ||
+        (rc = find_column(r, "time", cfg->time_column, &r->time_idx, err)) !=
+            SW_OK)
         goto cleanup;
     last = r->time_idx;
     if ((r->first_col = malloc(r->n_header * sizeof *r->first_col)) == NULL) {
@@ -1159,8 +1227,10 @@ int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
     /* The names are no longer needed. */
     free(r->hdr);
     free(r->hdr_off);
+    free(r->hdr_sorted);
     r->hdr = NULL;
     r->hdr_off = NULL;
+    r->hdr_sorted = NULL;
     *reader = r;
     return SW_OK;
 
@@ -1348,14 +1418,21 @@ void sw_reader_free(sw_reader *reader)
         fclose(reader->fp);
     if (reader->csv_ready)
         csv_free(&reader->csv);
-    for (size_t c = 0; c < SW_SERIES_MAX_COLUMNS; c++) {
+    for (size_t c = 0; reader->col != NULL && c < reader->n_columns; c++) {
         free(reader->col[c].name);
         for (size_t k = 0; k < reader->col[c].n_missing; k++)
             free(reader->col[c].missing[k]);
     }
+    free(reader->col);
+    free(reader->val);
+    free(reader->outcome);
+    free(reader->rej);
+    free(reader->prev_val);
+    free(reader->stats.column);
     free(reader->first_col);
     free(reader->hdr);
     free(reader->hdr_off);
+    free(reader->hdr_sorted);
     free(reader->buf);
     free(reader->q_t);
     free(reader->q_line);

@@ -88,7 +88,8 @@ typedef struct reader_state {
     sw_reader *rd;
     const sw_site_series *first; /* the series that opened it */
     size_t n_cols;
-    size_t series_of[SW_SERIES_MAX_COLUMNS];
+    size_t *series_of;          /* [n_cols]: the series of each column */
+    size_t cap_cols;
     int pending;                /* a record is held in t and v */
     sw_time_ms t;
     long line;
@@ -242,29 +243,91 @@ static int same_file(const sw_site_series *a, const sw_site_series *b)
            strcmp(a->member_dim, b->member_dim) == 0;
 }
 
-/* The index of series `name` in use, adding it (and its reader) if new. */
-static int use_series(sw_stepper *st, const sw_site_series *def, size_t *index)
+/* The site's series sorted by name (then place): each gate finds its
+ * series in log n steps (a search through the list for every gate was
+ * quadratic in the gates of an expanded ensemble). */
+typedef struct named {
+    const char *name;
+    size_t i;
+} named;
+
+static int cmp_named(const void *x, const void *y)
 {
-    for (size_t i = 0; i < st->n_series; i++)
-        if (st->series[i].def == def) {
-            *index = i;
-            return 0;
-        }
+    const named *a = x, *b = y;
+    int c = strcmp(a->name, b->name);
+    return c != 0 ? c : (a->i > b->i) - (a->i < b->i);
+}
+
+/* The site's series sorted by name; NULL when out of memory. */
+static named *sort_names(const sw_site *site)
+{
+    named *sorted = malloc((site->n_series ? site->n_series : 1) *
+                           sizeof *sorted);
+    if (sorted == NULL)
+        return NULL;
+    for (size_t i = 0; i < site->n_series; i++) {
+        sorted[i].name = site->series[i].name;
+        sorted[i].i = i;
+    }
+    qsort(sorted, site->n_series, sizeof *sorted, cmp_named);
+    return sorted;
+}
+
+/* As sw_site_find_series(): the first series called `name`, or NULL. */
+static const sw_site_series *find_series(const sw_site *site,
+                                         const named *sorted,
+                                         const char *name)
+{
+    size_t lo = 0, hi = site->n_series;
+    while (lo < hi) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (strcmp(sorted[mid].name, name) < 0)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    if (lo < site->n_series && strcmp(sorted[lo].name, name) == 0)
+        return &site->series[sorted[lo].i];
+    return NULL;
+}
+
+/* The index of series `def` (one of the site's) in use, adding it (and
+ * its reader) if new; in_use[i] is the index + 1 of the site's series i,
+ * 0 while unused.  Every series of one file shares one reader, whatever
+ * their number (the reader sizes its columns when it opens), so a file is
+ * parsed once.  Returns 0, or -1 when out of memory. */
+static int use_series(sw_stepper *st, const sw_site_series *def,
+                      size_t *in_use, size_t *index)
+{
+    size_t *slot = &in_use[def - st->site->series];
+    if (*slot != 0) {
+        *index = *slot - 1;
+        return 0;
+    }
     size_t r;
     for (r = 0; r < st->n_readers; r++)
-        if (same_file(st->readers[r].first, def) &&
-            st->readers[r].n_cols < SW_SERIES_MAX_COLUMNS)
+        if (same_file(st->readers[r].first, def))
             break;
+    reader_state *rs = &st->readers[r];
+    if (rs->n_cols == rs->cap_cols) {
+        size_t cap = rs->cap_cols ? 2 * rs->cap_cols : 4;
+        size_t *grown = realloc(rs->series_of, cap * sizeof *grown);
+        if (grown == NULL)
+            return -1;
+        rs->series_of = grown;
+        rs->cap_cols = cap;
+    }
     if (r == st->n_readers) {
-        st->readers[r].first = def;
+        rs->first = def;
         st->n_readers++;
     }
     series_state *s = &st->series[st->n_series];
     s->def = def;
     s->reader = r;
-    s->column = st->readers[r].n_cols;
-    st->readers[r].series_of[st->readers[r].n_cols++] = st->n_series;
+    s->column = rs->n_cols;
+    rs->series_of[rs->n_cols++] = st->n_series;
     *index = st->n_series++;
+    *slot = st->n_series;
     return 0;
 }
 
@@ -367,9 +430,11 @@ static int start_read_ahead(reader_state *rs, sw_error *err)
 {
     size_t row_bytes =
         sizeof(sw_time_ms) + sizeof(long) + rs->n_cols * sizeof(double);
+    /* a wide file (an ensemble of many members) gets fewer rows a batch,
+     * so that the ring stays about RING_BYTES whatever the columns */
     rs->batch_rows = RING_BYTES / N_BATCHES / row_bytes;
-    if (rs->batch_rows < 64)
-        rs->batch_rows = 64;
+    if (rs->batch_rows < 1)
+        rs->batch_rows = 1;
     for (int i = 0; i < N_BATCHES; i++) {
         rs->b[i].t = malloc(rs->batch_rows * sizeof *rs->b[i].t);
         rs->b[i].line = malloc(rs->batch_rows * sizeof *rs->b[i].line);
@@ -428,9 +493,11 @@ static int open_readers(sw_stepper *st, sw_error *err)
 {
     for (size_t r = 0; r < st->n_readers; r++) {
         reader_state *rs = &st->readers[r];
-        sw_column_config cols[SW_SERIES_MAX_COLUMNS];
+        sw_column_config *cols =
+            calloc(rs->n_cols ? rs->n_cols : 1, sizeof *cols);
         sw_reader_config cfg;
-        memset(cols, 0, sizeof cols);
+        if (cols == NULL)
+            return nomem(err);
         cfg.path = rs->first->path;
         cfg.time_column = rs->first->time_column;
         cfg.time_format = rs->first->time_format;
@@ -449,6 +516,7 @@ static int open_readers(sw_stepper *st, sw_error *err)
                 cols[c].missing[k] = d->missing[k];
         }
         int rc = sw_reader_open(&rs->rd, &cfg, cols, rs->n_cols, err);
+        free(cols);
         if (rc != SW_OK)
             return rc;
         if ((rc = start_read_ahead(rs, err)) != SW_OK)
@@ -459,15 +527,37 @@ static int open_readers(sw_stepper *st, sw_error *err)
     return SW_OK;
 }
 
+/* A gate's state before its first interval. */
+static void init_gate(gate_state *g, const sw_gate *gate)
+{
+    g->gate = gate;
+    sw_gate_get_bounds(g->gate, &g->bounds);
+    g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
+                 g->gate->first_moment_m3;
+    g->rate_tw = g->gate->fs_basis == SW_FS_NET
+                     ? g->gate->rho_kgm3[SW_DOWNSTREAM] * g->gate->g_ms2 *
+                           g->gate->first_moment_m3
+                     : 0.0;
+    g->run.min_fs = INFINITY;
+    g->month.min_fs = INFINITY;
+}
+
 int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
                      const sw_stepper_options *opt, sw_error *err)
 {
     sw_stepper *st = calloc(1, sizeof *st);
+    named *sorted = sort_names(site);
+    size_t *in_use = calloc(site->n_series ? site->n_series : 1,
+                            sizeof *in_use);
     int rc = SW_OK;
 
     *out = NULL;
-    if (st == NULL)
+    if (st == NULL || sorted == NULL || in_use == NULL) {
+        free(st);
+        free(sorted);
+        free(in_use);
         return nomem(err);
+    }
     st->site = site;
     if (opt != NULL)
         st->opt = *opt;
@@ -482,8 +572,8 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
     for (size_t i = 0; i < site->n_gates; i++) {
         const sw_site_gate *sg = &site->gates[i];
         gate_state *g = &st->gates[i];
-        const sw_site_series *h = sw_site_find_series(site, sg->headwater);
-        const sw_site_series *t = sw_site_find_series(site, sg->tailwater);
+        const sw_site_series *h = find_series(site, sorted, sg->headwater);
+        const sw_site_series *t = find_series(site, sorted, sg->tailwater);
         if (h == NULL || t == NULL) {
             rc = sw_error_set(err, SW_ESITE, site->path, sg->line, 0,
                               "gate '%s' has no %s series: give it "
@@ -493,18 +583,12 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
                               h == NULL ? "headwater" : "tailwater");
             goto cleanup;
         }
-        g->gate = &sg->gate;
-        use_series(st, h, &g->hw);
-        use_series(st, t, &g->tw);
-        sw_gate_get_bounds(g->gate, &g->bounds);
-        g->rate_hw = g->gate->rho_kgm3[SW_UPSTREAM] * g->gate->g_ms2 *
-                     g->gate->first_moment_m3;
-        g->rate_tw = g->gate->fs_basis == SW_FS_NET
-                         ? g->gate->rho_kgm3[SW_DOWNSTREAM] *
-                               g->gate->g_ms2 * g->gate->first_moment_m3
-                         : 0.0;
-        g->run.min_fs = INFINITY;
-        g->month.min_fs = INFINITY;
+        if (use_series(st, h, in_use, &g->hw) != 0 ||
+            use_series(st, t, in_use, &g->tw) != 0) {
+            rc = nomem(err);
+            goto cleanup;
+        }
+        init_gate(g, &sg->gate);
     }
     for (size_t i = 0; i < st->n_series; i++) {
         series_state *s = &st->series[i];
@@ -520,9 +604,13 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
     }
     if ((rc = open_readers(st, err)) != SW_OK)
         goto cleanup;
+    free(sorted);
+    free(in_use);
     *out = st;
     return SW_OK;
 cleanup:
+    free(sorted);
+    free(in_use);
     sw_stepper_free(st);
     return rc;
 }
@@ -534,6 +622,7 @@ void sw_stepper_free(sw_stepper *st)
     for (size_t r = 0; r < st->n_readers; r++) {
         stop_read_ahead(&st->readers[r]);
         sw_reader_free(st->readers[r].rd);
+        free(st->readers[r].series_of);
     }
     for (size_t i = 0; i < st->n_series; i++) {
         free(st->series[i].fifo.items);

@@ -54,4 +54,13 @@ void sw_ensemble_fini(sw_ensemble *ens);
  * that touches one is +inf. */
 double sw_quantile(double *values, size_t n, double p);
 
+/* The quantiles p[0..n_p) (each 0 <= p <= 1) of values[0..n), n >= 1, into
+ * out[0..n_p): for each p the very number sw_quantile() gives (same
+ * definition, same order statistics, same arithmetic), found by one
+ * selection over the values for all of them, which it reorders (expected
+ * time linear in n; at most n log n).  No value may be NaN (the replay
+ * gives none). */
+void sw_quantiles(double *values, size_t n, const double *p, size_t n_p,
+                  double *out);
+
 #endif

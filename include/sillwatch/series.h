@@ -23,8 +23,10 @@
 #include "sillwatch/error.h"
 #include "sillwatch/timeutil.h"
 
-#define SW_SERIES_MAX_COLUMNS 128 /* value columns one reader can serve
-                                     (ensemble members in one file) */
+#define SW_SERIES_MAX_COLUMNS 100000 /* value columns one reader serves
+                                        (ensemble members and series of
+                                        one file, all read in one pass);
+                                        its arrays are sized per reader */
 #define SW_SERIES_MAX_MISSING 8   /* extra missing tokens per column */
 #define SW_SERIES_TOKEN_MAX 32
 #define SW_SERIES_REJECTS_KEPT 10 /* positions kept of rejected fields */
@@ -94,7 +96,7 @@ typedef struct sw_reader_stats {
     long partial_line;        /* a last line without a line end, left out
                                  because the file changed while it was
                                  read (a writer was still at it); 0 none */
-    sw_column_stats column[SW_SERIES_MAX_COLUMNS];
+    sw_column_stats *column;  /* [n_columns]: owned by the reader */
 } sw_reader_stats;
 
 typedef struct sw_reader sw_reader; /* opaque */
@@ -105,7 +107,8 @@ typedef struct sw_reader sw_reader; /* opaque */
  * releases with sw_reader_free().  Errors (SW_EDATA, with file, line and
  * column where they apply): unreadable file, empty file, no header, a
  * column not in the header (the message lists the header's columns), a
- * column named twice; SW_ENOMEM. */
+ * column named twice, more than SW_SERIES_MAX_COLUMNS columns asked of
+ * the file (the message names the file and the count); SW_ENOMEM. */
 int sw_reader_open(sw_reader **reader, const sw_reader_config *cfg,
                    const sw_column_config *columns, size_t n_columns,
                    sw_error *err);

@@ -310,6 +310,83 @@ static void test_stations_and_members(void **state)
     sw_csv_header_free(cols2, n2);
 }
 
+/* 300 members (more than the 128 columns a reader once served) read by
+ * one reader: member e at time i is 10 i + e / 1000 m, with member 7's
+ * second value missing (_FillValue). */
+#define NC_WIDE 300
+static void test_many_members(void **state)
+{
+    (void)state;
+    int nc, d_t, d_e, v_t, v_h;
+    snprintf(path, sizeof path, "%s/wide.nc", sw_test_dir());
+    ok(nc_create(path, NC_CLOBBER, &nc));
+    ok(nc_def_dim(nc, "time", 3, &d_t));
+    ok(nc_def_dim(nc, "realization", NC_WIDE, &d_e));
+    ok(nc_def_var(nc, "time", NC_DOUBLE, 1, &d_t, &v_t));
+    att(nc, v_t, "units", "hours since 2025-04-01");
+    int dims[2] = {d_t, d_e};
+    ok(nc_def_var(nc, "h", NC_DOUBLE, 2, dims, &v_h));
+    att(nc, v_h, "units", "m");
+    double fill = -1.0;
+    ok(nc_put_att_double(nc, v_h, "_FillValue", NC_DOUBLE, 1, &fill));
+    ok(nc_enddef(nc));
+    for (size_t i = 0; i < 3; i++) {
+        double t = (double)i;
+        ok(nc_put_var1_double(nc, v_t, &i, &t));
+        for (size_t e = 0; e < NC_WIDE; e++) {
+            size_t ix[2] = {i, e};
+            double v = i == 1 && e == 7 ? -1.0
+                                        : 10.0 * (double)i + (double)e / 1000;
+            ok(nc_put_var1_double(nc, v_h, ix, &v));
+        }
+    }
+    ok(nc_close(nc));
+
+    char **lab, **cols;
+    size_t n;
+    sw_error err;
+    assert_int_equal(sw_nc_members(path, "h", NULL, &lab, &cols, &n, &err),
+                     SW_OK);
+    assert_int_equal(n, NC_WIDE);
+    sw_reader_config cfg;
+    sw_column_config col[NC_WIDE];
+    sw_reader *r = NULL;
+    memset(&cfg, 0, sizeof cfg);
+    memset(col, 0, sizeof col);
+    cfg.path = path;
+    cfg.netcdf = 1;
+    for (size_t e = 0; e < NC_WIDE; e++) {
+        col[e].name = cols[e];
+        col[e].scale = 1.0;
+    }
+    assert_int_equal(sw_reader_open(&r, &cfg, col, NC_WIDE, &err), SW_OK);
+    double x[NC_WIDE];
+    sw_time_ms t;
+    int has;
+    for (size_t i = 0; i < 3; i++) {
+        assert_int_equal(sw_reader_next(r, &has, &t, x, &err), SW_OK);
+        assert_true(has);
+        for (size_t e = 0; e < NC_WIDE; e++) {
+            if (i == 1 && e == 7)
+                assert_true(isnan(x[e]));
+            else
+                assert_close(x[e], 10.0 * (double)i + (double)e / 1000,
+                             1e-15);
+        }
+    }
+    assert_int_equal(sw_reader_next(r, &has, &t, x, &err), SW_OK);
+    assert_false(has);
+    const sw_reader_stats *st = sw_reader_get_stats(r);
+    assert_int_equal(st->records, 3);
+    for (size_t e = 0; e < NC_WIDE; e++) {
+        assert_int_equal(st->column[e].missing, e == 7);
+        assert_int_equal(st->column[e].valid, e == 7 ? 2 : 3);
+    }
+    sw_reader_free(r);
+    sw_csv_header_free(lab, n);
+    sw_csv_header_free(cols, n);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -317,6 +394,7 @@ int main(void)
         cmocka_unit_test(test_open_errors),
         cmocka_unit_test(test_long_file),
         cmocka_unit_test(test_stations_and_members),
+        cmocka_unit_test(test_many_members),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }

@@ -61,7 +61,8 @@ typedef struct outcome {
     size_t n;                  /* rows handed out */
     sw_time_ms t[ROWS_MAX];
     double v[ROWS_MAX][COLS_MAX];
-    sw_reader_stats stats;
+    sw_reader_stats stats;     /* its column points at columns */
+    sw_column_stats columns[COLS_MAX];
     char delim;
     char path[64];
 } outcome;
@@ -118,7 +119,10 @@ static void read_all_n(const char *text, size_t len, sw_reader_config *cfg,
             out->n++;
         }
     }
+    /* the reader owns its column counts: copy them before it goes */
     out->stats = *sw_reader_get_stats(rd);
+    memcpy(out->columns, out->stats.column, n_cols * sizeof out->columns[0]);
+    out->stats.column = out->columns;
     sw_reader_free(rd);
     unlink(f.path);
 }
@@ -1001,6 +1005,23 @@ static void test_error_missing_column(void **state)
     expect_open_error(&o, SW_EDATA, 1, 3,
                       "value column 'level' appears twice in the header "
                       "(fields 2 and 3)");
+    /* three times among names that sort before and after it, and
+     * prefixes of it: the first two are named */
+    read_all("levels,level,lev,time,level,a,level,z\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 5,
+                      "value column 'level' appears twice in the header "
+                      "(fields 2 and 5)");
+    /* the time column twice, after the value */
+    read_all("level,time,x,time\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 4,
+                      "time column 'time' appears twice in the header "
+                      "(fields 2 and 4)");
+    /* a prefix of a name, and a name the value is a prefix of, are other
+     * names */
+    set_column(&cols[0], "leve");
+    read_all("time,level,lev\n", &cfg, cols, 1, &o);
+    expect_open_error(&o, SW_EDATA, 1, 0,
+                      "value column 'leve' is not in the header");
 }
 
 static void test_error_quotes(void **state)
@@ -1148,6 +1169,117 @@ static void test_error_nonexistent_file(void **state)
     assert_int_equal(err.column, 0);
     assert_non_null(strstr(err.message, "cannot open the level file"));
     sw_reader_free(NULL);
+}
+
+/* A file of 1500 value columns (more than the 128 a reader once served)
+ * is read by one reader: each column's values and counts are its own.
+ * Column c holds (row + 1) * 10 + c / 10000 m; it is blank on row 1 when
+ * c % 7 == 0 and not a number on row 2 when c % 11 == 0. */
+#define WIDE 1500
+static void test_wide_file(void **state)
+{
+    size_t cap = (size_t)WIDE * 40 + 256, used;
+    char *text = malloc(cap), (*names)[16] = calloc(WIDE, sizeof *names);
+    sw_column_config *cols = calloc(WIDE, sizeof *cols);
+    double *v = calloc(WIDE, sizeof *v);
+    sw_reader_config cfg;
+    sw_reader *rd;
+    sw_error err;
+    fixture f;
+    int has_row;
+    sw_time_ms t;
+    (void)state;
+
+    assert_true(text && names && cols && v);
+    used = (size_t)snprintf(text, cap, "time");
+    for (int c = 0; c < WIDE; c++) {
+        snprintf(names[c], sizeof names[c], "m%04d", c);
+        used += (size_t)snprintf(text + used, cap - used, ",%s", names[c]);
+    }
+    text[used++] = '\n';
+    for (int r = 0; r < 3; r++) {
+        used += (size_t)snprintf(text + used, cap - used,
+                                 "2025-01-01T00:%02d:00Z", 15 * (r + 1));
+        for (int c = 0; c < WIDE; c++) {
+            if (r == 1 && c % 7 == 0)
+                used += (size_t)snprintf(text + used, cap - used, ",");
+            else if (r == 2 && c % 11 == 0)
+                used += (size_t)snprintf(text + used, cap - used, ",x");
+            else
+                used += (size_t)snprintf(text + used, cap - used, ",%d.%04d",
+                                         (r + 1) * 10, c);
+        }
+        text[used++] = '\n';
+    }
+    assert_true(used < cap);
+    fixture_write(&f, text, used);
+    default_config(&cfg);
+    cfg.path = f.path;
+    /* asked in reverse order: value index i is column WIDE - 1 - i */
+    for (int i = 0; i < WIDE; i++)
+        set_column(&cols[i], names[WIDE - 1 - i]);
+    assert_int_equal(sw_reader_open(&rd, &cfg, cols, WIDE, &err), SW_OK);
+    for (int r = 0; r < 3; r++) {
+        assert_int_equal(sw_reader_next(rd, &has_row, &t, v, &err), SW_OK);
+        assert_true(has_row);
+        assert_true(t == t_2025 + (sw_time_ms)(r + 1) * MIN15);
+        for (int i = 0; i < WIDE; i++) {
+            int c = WIDE - 1 - i;
+            if ((r == 1 && c % 7 == 0) || (r == 2 && c % 11 == 0))
+                assert_true(isnan(v[i]));
+            else
+                assert_close(v[i], (r + 1) * 10 + c / 10000.0, 1e-15);
+        }
+    }
+    assert_int_equal(sw_reader_next(rd, &has_row, &t, v, &err), SW_OK);
+    assert_false(has_row);
+    const sw_reader_stats *st = sw_reader_get_stats(rd);
+    assert_int_equal(st->records, 3);
+    for (int i = 0; i < WIDE; i++) {
+        int c = WIDE - 1 - i;
+        long missing = c % 7 == 0, rejected = c % 11 == 0;
+        assert_int_equal(st->column[i].missing, missing);
+        assert_int_equal(st->column[i].rejected, rejected);
+        assert_int_equal(st->column[i].valid, 3 - missing - rejected);
+        assert_int_equal(sw_reader_field(rd, (size_t)i), c + 2);
+        if (rejected)
+            expect_reject(&st->column[i], 0, 4, c + 2, "x", "not a number");
+    }
+    sw_reader_free(rd);
+    unlink(f.path);
+    free(text);
+    free(names);
+    free(cols);
+    free(v);
+}
+
+/* More columns than SW_SERIES_MAX_COLUMNS asked of one file: an error
+ * naming the file and the count, before the file is read. */
+static void test_error_too_many_columns(void **state)
+{
+    size_t n = (size_t)SW_SERIES_MAX_COLUMNS + 1;
+    sw_column_config *cols = calloc(n, sizeof *cols);
+    sw_reader_config cfg;
+    sw_reader *rd = (sw_reader *)&cfg; /* must be set to NULL */
+    sw_error err;
+    char count[32];
+    (void)state;
+
+    assert_non_null(cols);
+    for (size_t i = 0; i < n; i++)
+        set_column(&cols[i], "headwater");
+    default_config(&cfg);
+    cfg.path = "/nonexistent-sillwatch-dir/wide.csv";
+    assert_int_equal(sw_reader_open(&rd, &cfg, cols, n, &err), SW_EDATA);
+    assert_null(rd);
+    assert_string_equal(err.file, cfg.path);
+    snprintf(count, sizeof count, "%zu value columns", n);
+    assert_non_null(strstr(err.message, count));
+    assert_non_null(strstr(err.message, "at most 100000"));
+    /* at the bound itself, the reader goes on to open the file */
+    assert_int_equal(sw_reader_open(&rd, &cfg, cols, n - 1, &err), SW_EDATA);
+    assert_non_null(strstr(err.message, "cannot open the level file"));
+    free(cols);
 }
 
 /* Runs of plain lines are parsed in one piece: blank lines inside them
@@ -1426,6 +1558,8 @@ int main(void)
         cmocka_unit_test(test_plain_runs_count_lines),
         cmocka_unit_test(test_next_rows_same_as_next),
         cmocka_unit_test(test_record_lines),
+        cmocka_unit_test(test_wide_file),
+        cmocka_unit_test(test_error_too_many_columns),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

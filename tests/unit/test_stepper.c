@@ -637,6 +637,93 @@ static void test_qc_flags_in_batches(void **state)
     sw_site_fini(&site);
 }
 
+/* 300 series in one file (more than the 128 columns one reader once
+ * served): one reader parses the file once for all of them, and each gate
+ * gets its own column's levels and counts.  Member k's tailwater is
+ * 7 + k/1000 m (below the sill: gate V only sees its headwater), and its
+ * column has k % 5 readings blank. */
+#define WIDE_MEMBERS 300
+#define WIDE_ROWS 12
+static void test_wide_file_one_reader(void **state)
+{
+    (void)state;
+    size_t cap = 400 * WIDE_MEMBERS + 256, used;
+    char *text = malloc(cap), path[128];
+    sw_site site;
+    sw_stepper *st;
+    sw_error err;
+    sw_stepper_options opt = {0, 1};
+    int done = 0, steps = 0;
+
+    assert_non_null(text);
+    used = (size_t)snprintf(text, cap, "[site]\nrequired_fs = 1.5\n"
+                                       "gravity = 9.81\n" WATERS
+                                       "[series hw]\nfile = wide.csv\n"
+                                       "value_column = hw\n");
+    for (int k = 0; k < WIDE_MEMBERS; k++)
+        used += (size_t)snprintf(
+            text + used, cap - used,
+            "[series m%d]\nfile = wide.csv\nvalue_column = tw_%d\n"
+            "[gate V%d]\nshape = rectangle\nhinge_level = 10\n"
+            "inclination = 90\nseal_top = 0\nseal_height = 2\n"
+            "seal_width = 1.5\nmass = 800\ncg_along = 1\n"
+            "cg_offset = 0.05\nheadwater = hw\ntailwater = m%d\n",
+            k, k, k, k);
+    assert_true(used < cap);
+    sw_test_write("site.ini", text);
+    used = (size_t)snprintf(text, cap, "time,hw");
+    for (int k = 0; k < WIDE_MEMBERS; k++)
+        used += (size_t)snprintf(text + used, cap - used, ",tw_%d", k);
+    used += (size_t)snprintf(text + used, cap - used, "\n");
+    for (int r = 0; r < WIDE_ROWS; r++) {
+        used += (size_t)snprintf(text + used, cap - used,
+                                 "2025-06-01T%02d:00:00Z,9.000", r);
+        for (int k = 0; k < WIDE_MEMBERS; k++) {
+            if (r >= 1 && r <= k % 5) /* k % 5 blanks, inside the file */
+                used += (size_t)snprintf(text + used, cap - used, ",");
+            else
+                used += (size_t)snprintf(text + used, cap - used, ",%.3f",
+                                         7.0 + 0.001 * k);
+        }
+        used += (size_t)snprintf(text + used, cap - used, "\n");
+    }
+    assert_true(used < cap);
+    sw_test_write("wide.csv", text);
+    free(text);
+
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    assert_int_equal(sw_stepper_alloc(&st, &site, &opt, &err), SW_OK);
+    assert_int_equal(sw_stepper_n_series(st), WIDE_MEMBERS + 1);
+    while (!done) {
+        assert_int_equal(sw_stepper_advance(st, &done, &err), SW_OK);
+        if (!sw_stepper_passed(st))
+            continue;
+        steps++;
+        for (size_t g = 0; g < site.n_gates; g++) {
+            const sw_step_gate *sg = sw_stepper_gate_at(st, g);
+            if (sg->known) /* the level its own column holds */
+                assert_close(sg->result.tailwater_m, 7.0 + 0.001 * (double)g,
+                             1e-12);
+        }
+    }
+    assert_int_equal(sw_stepper_finish(st, &err), SW_OK);
+    assert_int_equal(steps, WIDE_ROWS - 1);
+    const sw_reader_stats *one = sw_stepper_reader_stats(st, 0);
+    assert_int_equal(one->records, WIDE_ROWS);
+    for (size_t i = 0; i < sw_stepper_n_series(st); i++) {
+        const sw_site_series *sr = sw_stepper_series(st, i);
+        const sw_column_stats *cs = sw_stepper_column_stats(st, i);
+        long blanks = sr->name[0] == 'm' ? atol(sr->name + 1) % 5 : 0;
+        /* the same reader (so the same counts) for every series */
+        assert_ptr_equal(sw_stepper_reader_stats(st, i), one);
+        assert_int_equal(cs->missing, blanks);
+        assert_int_equal(cs->valid, WIDE_ROWS - blanks);
+    }
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -655,6 +742,7 @@ int main(void)
         cmocka_unit_test(test_qc_removes_only_flagged),
         cmocka_unit_test(test_qc_account_adds_up),
         cmocka_unit_test(test_qc_flags_in_batches),
+        cmocka_unit_test(test_wide_file_one_reader),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }
