@@ -111,6 +111,17 @@ typedef struct sw_cli_sites {
 int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
                       int *status, int *stopped);
 
+/* After getopt_long, with more than one operand left: the site files
+ * (argv[optind..argc)) into *sites, *n; a usage error (its exit code,
+ * after printing why) without -o, with --series (n_series > 0) or with
+ * '-' among them. */
+int sw_cli_sites_operands(const char *command, int argc, char **argv,
+                          const char *outdir, size_t n_series,
+                          char *const **sites, size_t *n);
+
+/* -j/--jobs N: 1 to 1024 workers.  Returns 0 or the usage exit code. */
+int sw_cli_parse_jobs(const char *command, const char *arg, unsigned *jobs);
+
 /* Apply --series NAME=FILE options (already checked to hold an '=') to
  * the site.  Returns 0, or the usage exit code after printing why. */
 int sw_cli_apply_series(sw_site *site, const char *const *specs, size_t n,

@@ -75,26 +75,6 @@ typedef struct run_opts {
     size_t n_series;
 } run_opts;
 
-/* Several site files: no --series (whose site would it be?), no
- * standard input, an output folder. */
-static int fleet_operands(int argc, char **argv, run_opts *o)
-{
-    if (o->outdir == NULL)
-        return sw_cli_usage_error("run", "give the output folder with -o "
-                                         "OUTDIR");
-    if (o->n_series > 0)
-        return sw_cli_usage_error("run", "--series names a series of one "
-                                         "site: give one site file with it");
-    o->sites = argv + optind;
-    o->n_sites = (size_t)(argc - optind);
-    for (size_t i = 0; i < o->n_sites; i++)
-        if (strcmp(o->sites[i], "-") == 0)
-            return sw_cli_usage_error("run", "several site files: '-' "
-                                             "(standard input) is not one "
-                                             "of them");
-    return 0;
-}
-
 static int parse_args(int argc, char **argv, run_opts *o)
 {
     static const struct option opts[] = {
@@ -144,18 +124,10 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'q':
             o->quiet = 1;
             break;
-        case 'j': {
-            char *end;
-            errno = 0;
-            long j = strtol(optarg, &end, 10);
-            if (end == optarg || *end != '\0' || errno != 0 || j < 1 ||
-                j > 1024)
-                return sw_cli_usage_error("run", "--jobs: '%s' is not a "
-                                                 "number of workers from 1 "
-                                                 "to 1024", optarg);
-            o->jobs = (unsigned)j;
+        case 'j':
+            if ((rc = sw_cli_parse_jobs("run", optarg, &o->jobs)) != 0)
+                return rc;
             break;
-        }
         case 'V':
             sw_cli_version();
             return -1;
@@ -168,7 +140,8 @@ static int parse_args(int argc, char **argv, run_opts *o)
         }
     }
     if (argc - optind > 1)
-        return fleet_operands(argc, argv, o);
+        return sw_cli_sites_operands("run", argc, argv, o->outdir,
+                                     o->n_series, &o->sites, &o->n_sites);
     rc = sw_cli_site_operand("run", argc, argv, o->outdir,
                              &o->site_path);
     if (rc == 0 && o->report && strcmp(o->site_path, "-") == 0)

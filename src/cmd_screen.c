@@ -12,6 +12,7 @@
 #include "cli.h"
 #include "sillwatch/cancel.h"
 #include "sillwatch/csvout.h"
+#include "sillwatch/jobs.h"
 #include "sillwatch/ensemble.h"
 #include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
@@ -23,6 +24,7 @@
 static const char screen_help[] =
     "Usage: sillwatch screen SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
     "                        [--issued TIME] [--json] [--quiet]\n"
+    "       sillwatch screen SITE.ini SITE.ini... -o OUTDIR [-j N] [options]\n"
     "Screen forecast levels through every gate with the model and stepping\n"
     "of 'run'.  A series whose value_column holds a '*' (tw_*) is an\n"
     "ensemble: each matching column is a member, and each gate is replayed\n"
@@ -48,12 +50,17 @@ static const char screen_help[] =
     "  --issued TIME          ISO 8601 time the forecast was issued (lead\n"
     "                         times count from it; default: its first time)\n"
     "  --json                 write screen.json\n"
+    "  -j, --jobs N           several sites: N at a time (default: the\n"
+    "                         number of processors)\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
     "\n"
     "  manifest.csv   written last: each file's size and SHA-256; the\n"
     "                 files are put in place as one set, or not at all\n"
+    "With several site files, each site is screened exactly as alone, into\n"
+    "OUTDIR/<site file name without .ini>/, on N worker processes; a failed\n"
+    "site does not stop the others; the exit status is the worst.\n"
     "\n"
     "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
     "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
@@ -70,6 +77,9 @@ static const char *const out_names[N_OUT] = {
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
+    char *const *sites; /* several site files: each in OUTDIR/<stem>/ */
+    size_t n_sites;
+    unsigned jobs;
     int quiet, json;
     const char *series[64];
     size_t n_series;
@@ -83,6 +93,7 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"issued", required_argument, NULL, 'i'},
         {"quiet", no_argument, NULL, 'q'},
         {"json", no_argument, NULL, 'J'},
+        {"jobs", required_argument, NULL, 'j'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -91,10 +102,15 @@ static int parse_args(int argc, char **argv, screen_opts *o)
 
     memset(o, 0, sizeof *o);
     opterr = 0;
-    while ((opt = getopt_long(argc, argv, ":o:qh", opts, NULL)) != -1) {
+    o->jobs = sw_jobs_default_workers();
+    while ((opt = getopt_long(argc, argv, ":o:j:qh", opts, NULL)) != -1) {
         switch (opt) {
         case 'o':
             o->outdir = optarg;
+            break;
+        case 'j':
+            if ((rc = sw_cli_parse_jobs("screen", optarg, &o->jobs)) != 0)
+                return rc;
             break;
         case 's':
             if ((rc = sw_cli_take_series("screen", optarg, o->series,
@@ -122,6 +138,9 @@ static int parse_args(int argc, char **argv, screen_opts *o)
             return sw_cli_option_error("screen", opt, argv);
         }
     }
+    if (argc - optind > 1)
+        return sw_cli_sites_operands("screen", argc, argv, o->outdir,
+                                     o->n_series, &o->sites, &o->n_sites);
     return sw_cli_site_operand("screen", argc, argv, o->outdir,
                                &o->site_path);
 }
@@ -532,9 +551,12 @@ static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
     return rc;
 }
 
-int sw_cmd_screen(int argc, char **argv)
+/* Screen one site into `outdir`; print its tables unless `brief` or
+ * quiet.  Returns the exit status. */
+static int screen_site(const screen_opts *op, const char *site_path,
+                       const char *outdir, int brief)
 {
-    screen_opts o;
+    screen_opts o = *op;
     sw_site site;
     sw_ensemble ens;
     sw_outfile out[N_OUT];
@@ -545,9 +567,9 @@ int sw_cmd_screen(int argc, char **argv)
 
     memset(out, 0, sizeof out);
     memset(&ens, 0, sizeof ens);
-    if ((rc = parse_args(argc, argv, &o)) != 0)
-        return rc < 0 ? SW_EXIT_OK : rc;
-    if (sw_site_load(&site, o.site_path, &err) != SW_OK)
+    o.outdir = outdir;
+    o.quiet = o.quiet || brief;
+    if (sw_site_load(&site, site_path, &err) != SW_OK)
         return sw_cli_report(&err);
     if ((rc = sw_cli_apply_series(&site, o.series, o.n_series, "screen")) != 0) {
         sw_site_fini(&site);
@@ -716,4 +738,52 @@ fail:
         return sw_cli_interrupted("screen", what);
     }
     return sw_cli_report(&err);
+}
+
+typedef struct fleet_ctx {
+    const screen_opts *o;
+} fleet_ctx;
+
+static int fleet_one(size_t i, const char *site, const char *dir, void *ctx)
+{
+    const fleet_ctx *f = ctx;
+    (void)i;
+    return screen_site(f->o, site, dir, 1);
+}
+
+/* Several sites, each screened in OUTDIR/<stem>/ exactly as alone. */
+static int screen_fleet(const screen_opts *o)
+{
+    fleet_ctx f = {o};
+    sw_cli_sites m = {"screen",  "screening", o->sites, o->n_sites,
+                      o->outdir, o->jobs,     o->quiet, fleet_one,
+                      &f};
+    char (*dir)[SW_ERROR_PATH_MAX] = calloc(o->n_sites, sizeof *dir);
+    int *status = calloc(o->n_sites, sizeof *status);
+    int stopped, worst;
+
+    if (dir == NULL || status == NULL) {
+        free(dir);
+        free(status);
+        fprintf(stderr, "sillwatch: screen: out of memory\n");
+        return SW_EXIT_NOMEM;
+    }
+    worst = sw_cli_many_sites(&m, dir, status, &stopped);
+    if (!o->quiet && stopped >= 0)
+        fputs(sw_cli_caution, stdout);
+    free(dir);
+    free(status);
+    return worst;
+}
+
+int sw_cmd_screen(int argc, char **argv)
+{
+    screen_opts o;
+    int rc;
+
+    if ((rc = parse_args(argc, argv, &o)) != 0)
+        return rc < 0 ? SW_EXIT_OK : rc;
+    if (o.n_sites > 1)
+        return screen_fleet(&o);
+    return screen_site(&o, o.site_path, o.outdir, 0);
 }

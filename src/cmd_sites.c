@@ -1,5 +1,7 @@
 /* sillwatch: several site files in one command (run, screen): each site
  * in OUTDIR/<stem>/, on worker processes (jobs.h), the outcomes listed. */
+#include <errno.h>
+#include <getopt.h>
 #include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -139,4 +141,37 @@ int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
         worst = e > worst ? e : worst;
     }
     return worst;
+}
+
+int sw_cli_sites_operands(const char *command, int argc, char **argv,
+                          const char *outdir, size_t n_series,
+                          char *const **sites, size_t *n)
+{
+    if (outdir == NULL)
+        return sw_cli_usage_error(command, "give the output folder with -o "
+                                           "OUTDIR");
+    if (n_series > 0)
+        return sw_cli_usage_error(command, "--series names a series of one "
+                                           "site: give one site file with "
+                                           "it");
+    *sites = argv + optind;
+    *n = (size_t)(argc - optind);
+    for (size_t i = 0; i < *n; i++)
+        if (strcmp((*sites)[i], "-") == 0)
+            return sw_cli_usage_error(command, "several site files: '-' "
+                                               "(standard input) is not one "
+                                               "of them");
+    return 0;
+}
+
+int sw_cli_parse_jobs(const char *command, const char *arg, unsigned *jobs)
+{
+    char *end;
+    errno = 0;
+    long j = strtol(arg, &end, 10);
+    if (end == arg || *end != '\0' || errno != 0 || j < 1 || j > 1024)
+        return sw_cli_usage_error(command, "--jobs: '%s' is not a number of "
+                                           "workers from 1 to 1024", arg);
+    *jobs = (unsigned)j;
+    return 0;
 }
