@@ -98,18 +98,20 @@ typedef struct sw_cli_sites {
     unsigned jobs;
     int quiet;
     int (*one)(size_t i, const char *site, const char *dir, void *ctx);
+    /* NULL, or called when every site ran (not after a stop) with each
+     * site's folder and exit status; returns an exit status that counts
+     * towards the worst (after printing why) */
+    int (*after)(char (*dir)[SW_ERROR_PATH_MAX], const int *status,
+                 void *ctx);
     void *ctx;
 } sw_cli_sites;
 
 /* Run the sites as above, with progress on a terminal; list each site
- * with its exit status (unless quiet) and name the failed ones on
- * standard error.  dir[i] receives site i's folder, status[i] its exit
- * status (-1: not started).  Returns the worst exit status; after SIGINT
- * or SIGTERM (passed on to the workers) *stopped is 1 and the return is
- * the signal's exit status; when nothing could start (two sites of one
- * stem, no output folder) *stopped is -1. */
-int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
-                      int *status, int *stopped);
+ * with its exit status and the caution (unless quiet), name the failed
+ * ones on standard error, then call `after`.  Returns the worst exit
+ * status; after SIGINT or SIGTERM (passed on to the workers) the signal's
+ * exit status. */
+int sw_cli_many_sites(const sw_cli_sites *m);
 
 /* After getopt_long, with more than one operand left: the site files
  * (argv[optind..argc)) into *sites, *n; a usage error (its exit code,

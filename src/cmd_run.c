@@ -526,37 +526,26 @@ static int fleet_one(size_t i, const char *site, const char *dir, void *ctx)
     return run_site(f->o, site, dir, f->cmd, 1);
 }
 
+/* After the sites ran: fleet.csv. */
+static int fleet_after(char (*dir)[SW_ERROR_PATH_MAX], const int *status,
+                       void *ctx)
+{
+    const fleet_ctx *f = ctx;
+    sw_error err;
+    if (fleet_table(f->o, dir, status, &err) != SW_OK)
+        return sw_cli_report(&err);
+    if (!f->o->quiet)
+        printf("every site's summary in %s/fleet.csv\n", f->o->outdir);
+    return SW_EXIT_OK;
+}
+
 static int run_fleet(const run_opts *o, const char *cmd)
 {
     fleet_ctx f = {o, cmd};
-    sw_cli_sites m = {"run",   "replaying", o->sites, o->n_sites,
-                      o->outdir, o->jobs,   o->quiet, fleet_one,
-                      &f};
-    char (*dir)[SW_ERROR_PATH_MAX] = calloc(o->n_sites, sizeof *dir);
-    int *status = calloc(o->n_sites, sizeof *status);
-    sw_error err;
-    int stopped = 0, worst;
-
-    if (dir == NULL || status == NULL) {
-        free(dir);
-        free(status);
-        fprintf(stderr, "sillwatch: run: out of memory\n");
-        return SW_EXIT_NOMEM;
-    }
-    worst = sw_cli_many_sites(&m, dir, status, &stopped);
-    if (stopped == 0) {
-        if (fleet_table(o, dir, status, &err) != SW_OK) {
-            int e = sw_cli_report(&err);
-            worst = e > worst ? e : worst;
-        } else if (!o->quiet) {
-            printf("every site's summary in %s/fleet.csv\n", o->outdir);
-        }
-    }
-    if (!o->quiet && stopped >= 0)
-        fputs(sw_cli_caution, stdout);
-    free(dir);
-    free(status);
-    return worst;
+    sw_cli_sites m = {"run",     "replaying", o->sites,  o->n_sites,
+                      o->outdir, o->jobs,     o->quiet,  fleet_one,
+                      fleet_after, &f};
+    return sw_cli_many_sites(&m);
 }
 
 int sw_cmd_run(int argc, char **argv)

@@ -757,23 +757,8 @@ static int screen_fleet(const screen_opts *o)
     fleet_ctx f = {o};
     sw_cli_sites m = {"screen",  "screening", o->sites, o->n_sites,
                       o->outdir, o->jobs,     o->quiet, fleet_one,
-                      &f};
-    char (*dir)[SW_ERROR_PATH_MAX] = calloc(o->n_sites, sizeof *dir);
-    int *status = calloc(o->n_sites, sizeof *status);
-    int stopped, worst;
-
-    if (dir == NULL || status == NULL) {
-        free(dir);
-        free(status);
-        fprintf(stderr, "sillwatch: screen: out of memory\n");
-        return SW_EXIT_NOMEM;
-    }
-    worst = sw_cli_many_sites(&m, dir, status, &stopped);
-    if (!o->quiet && stopped >= 0)
-        fputs(sw_cli_caution, stdout);
-    free(dir);
-    free(status);
-    return worst;
+                      NULL,      &f};
+    return sw_cli_many_sites(&m);
 }
 
 int sw_cmd_screen(int argc, char **argv)

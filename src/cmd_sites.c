@@ -108,19 +108,14 @@ static int list_sites(const sw_cli_sites *m,
     return worst;
 }
 
-int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
-                      int *status, int *stopped)
+/* The sites run: the worst exit status; *stopped after a signal. */
+static int run_all(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
+                   int *status, int *stopped)
 {
     pool_ctx p = {m, dir, !m->quiet && isatty(STDERR_FILENO)};
     sw_error err;
     int rc;
 
-    *stopped = -1; /* nothing ran */
-    if ((rc = site_folders(m, dir)) != 0)
-        return rc;
-    if (sw_cli_make_outdir(m->outdir, &err) != SW_OK)
-        return sw_cli_report(&err);
-    *stopped = 0;
     if (!m->quiet)
         printf("%s %zu sites on %u worker%s, each in %s/<site file "
                "name>/:\n", m->doing, m->n_sites, m->jobs,
@@ -140,6 +135,34 @@ int sw_cli_many_sites(const sw_cli_sites *m, char (*dir)[SW_ERROR_PATH_MAX],
         int e = sw_cli_report(&err); /* a worker could not be started */
         worst = e > worst ? e : worst;
     }
+    return worst;
+}
+
+int sw_cli_many_sites(const sw_cli_sites *m)
+{
+    char (*dir)[SW_ERROR_PATH_MAX] = calloc(m->n_sites, sizeof *dir);
+    int *status = calloc(m->n_sites, sizeof *status);
+    sw_error err;
+    int worst, stopped = 0;
+
+    if (dir == NULL || status == NULL) {
+        fprintf(stderr, "sillwatch: %s: out of memory\n", m->command);
+        worst = SW_EXIT_NOMEM;
+    } else if ((worst = site_folders(m, dir)) != 0) {
+        ; /* nothing ran */
+    } else if (sw_cli_make_outdir(m->outdir, &err) != SW_OK) {
+        worst = sw_cli_report(&err);
+    } else {
+        worst = run_all(m, dir, status, &stopped);
+        if (!stopped && m->after != NULL) {
+            int e = m->after(dir, status, m->ctx);
+            worst = e > worst ? e : worst;
+        }
+        if (!m->quiet)
+            fputs(sw_cli_caution, stdout);
+    }
+    free(dir);
+    free(status);
     return worst;
 }
 
