@@ -76,6 +76,19 @@ static json_t *water(const sw_site_water *w)
                 w->from_temperature ? sw_json_number(w->salinity)
                                     : json_null(),
                 &bad);
+    /* standard uncertainties (X_sd): 0 where not given */
+    sw_json_set(o, "density_sd_kgm3",
+                w->from_temperature ? json_null()
+                                    : sw_json_number(w->density_sd_kgm3),
+                &bad);
+    sw_json_set(o, "temperature_sd_C",
+                w->from_temperature ? sw_json_number(w->temperature_sd_C)
+                                    : json_null(),
+                &bad);
+    sw_json_set(o, "salinity_sd",
+                w->from_temperature ? sw_json_number(w->salinity_sd)
+                                    : json_null(),
+                &bad);
     return done(o, bad);
 }
 
@@ -131,6 +144,7 @@ static json_t *series(const sw_site_series *sr)
                                       : json_null(),
                     &bad);
         sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+        sw_json_set(o, "offset_sd_m", sw_json_number(sr->offset_sd_m), &bad);
         sw_json_set(o, "quality_tests", quality_tests(&sr->qc), &bad);
         json_decref(missing); /* CSV only */
         return done(o, bad);
@@ -144,6 +158,7 @@ static json_t *series(const sw_site_series *sr)
     sw_json_set(o, "unit", json_string(sr->scale == 1.0 ? "m" : "ft"), &bad);
     sw_json_set(o, "metres_per_unit", sw_json_number(sr->scale), &bad);
     sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+    sw_json_set(o, "offset_sd_m", sw_json_number(sr->offset_sd_m), &bad);
     sw_json_set(o, "delimiter",
                 sr->delimiter == 0     ? json_null()
                 : sr->delimiter == ';' ? json_string("semicolon")
@@ -185,6 +200,22 @@ static json_t *gate_params(const sw_site_gate *sg)
                 &bad);
     sw_json_set(o, "min_sill_reaction_N",
                 sw_json_number(g->min_sill_reaction_N), &bad);
+    /* the standard uncertainties (X_sd) under the same keys as the
+     * values; 0 where not given, null for the other shape's keys */
+    json_t *u = json_object();
+    static const char *const with_unit[SW_GATE_N_PARAMS] = {
+        "hinge_level_m", "inclination_deg", "seal_top_m", "seal_height_m",
+        "seal_width_m", "diameter_m", "leaf_length_m", "mass_kg",
+        "cg_along_m", "cg_offset_m", "volume_m3", "extra_moment_Nm"};
+    for (int p = 0; p < SW_GATE_N_PARAMS; p++) {
+        int other_shape = rect ? p == SW_GP_DIAMETER
+                               : p == SW_GP_SEAL_HEIGHT ||
+                                     p == SW_GP_SEAL_WIDTH;
+        sw_json_set(u, with_unit[p],
+                    other_shape ? json_null() : sw_json_number(sg->sd[p]),
+                    &bad);
+    }
+    sw_json_set(o, "standard_uncertainty", u, &bad);
     sw_json_set(o, "headwater_series",
                 sg->headwater[0] ? json_string(sg->headwater) : json_null(),
                 &bad);
