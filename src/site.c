@@ -251,7 +251,8 @@ static const key_def series_keys[RK_COUNT] = {
                          NO_RANGE, NULL, NULL, NULL},
     [RK_TIME_FORMAT] = {"time_format", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
-    [RK_OFFSET] = {"offset", KIND_NUMBER, NEED_OPTIONAL, "m", -1.0e4, 1.0e4,
+    [RK_OFFSET] = {"offset", KIND_NUMBER, NEED_OPTIONAL, "m",
+                   -SW_SITE_OFFSET_MAX_M, SW_SITE_OFFSET_MAX_M,
                    NULL, NULL,
                    "give the gauge zero's elevation above the site datum, "
                    "in m"},

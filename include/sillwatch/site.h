@@ -41,6 +41,8 @@
 #include "sillwatch/timeutil.h"
 
 #define SW_SITE_NAME_MAX 64
+/* The range of a series' offset, m (its key's check). */
+#define SW_SITE_OFFSET_MAX_M 1.0e4
 
 /* How a water's density was given. */
 typedef struct sw_site_water {
