@@ -767,3 +767,16 @@ void sw_uncert_point_fini(sw_uncert_point *out, size_t n_gates)
         memset(&out[g], 0, sizeof out[g]);
     }
 }
+
+void sw_uncert_point_order(const sw_uncert_point *pt, size_t *order)
+{
+    /* insertion sort: a handful of parameters, and stable */
+    for (size_t i = 0; i < pt->n_shares; i++) {
+        size_t j = i;
+        while (j > 0 && pt->share[order[j - 1]] < pt->share[i]) {
+            order[j] = order[j - 1];
+            j--;
+        }
+        order[j] = i;
+    }
+}

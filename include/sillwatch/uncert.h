@@ -225,6 +225,11 @@ int sw_uncert_point_run(const sw_uncert *u, double hw_m, double tw_m,
                         sw_uncert_point *out, sw_error *err);
 void sw_uncert_point_fini(sw_uncert_point *out, size_t n_gates);
 
+/* The order in which to list pt's sensitivity shares: order[0 ..
+ * pt->n_shares) indexes pt->param/r2/share, largest share first (what to
+ * measure first), ties in parameter order. */
+void sw_uncert_point_order(const sw_uncert_point *pt, size_t *order);
+
 /* ---- workers -------------------------------------------------------------- */
 
 /* Work split over threads: items [0, n) in `workers` contiguous chunks,
