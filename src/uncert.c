@@ -780,3 +780,45 @@ void sw_uncert_point_order(const sw_uncert_point *pt, size_t *order)
         order[j] = i;
     }
 }
+
+/* ---- many samples' gates ------------------------------------------------------ */
+
+typedef struct gates_job {
+    const sw_uncert *u;
+    const size_t *gates;
+    size_t n_gates;
+    sw_gate *out;
+    double *dhw, *dtw;
+} gates_job;
+
+static int gates_chunk(size_t begin, size_t end, unsigned worker, void *ctx,
+                       sw_error *err)
+{
+    gates_job *j = ctx;
+    sw_uncert_sample *s = NULL;
+    int rc;
+    (void)worker;
+
+    if ((rc = sw_uncert_sample_alloc(&s, j->u, err)) != SW_OK)
+        return rc;
+    for (size_t k = begin; k < end; k++) {
+        if ((rc = sw_uncert_draw(j->u, k, s, err)) != SW_OK)
+            break;
+        for (size_t i = 0; i < j->n_gates; i++) {
+            size_t at = k * j->n_gates + i;
+            j->out[at] = s->gates[j->gates[i]];
+            sw_uncert_gate_shifts(j->u, s, j->gates[i], &j->dhw[at],
+                                  &j->dtw[at]);
+        }
+    }
+    sw_uncert_sample_free(s);
+    return rc;
+}
+
+int sw_uncert_draw_gates(const sw_uncert *u, size_t n, const size_t *gates,
+                         size_t n_gates, unsigned workers, sw_gate *out,
+                         double *dhw_m, double *dtw_m, sw_error *err)
+{
+    gates_job j = {u, gates, n_gates, out, dhw_m, dtw_m};
+    return sw_uncert_parallel(n, workers, gates_chunk, &j, err);
+}

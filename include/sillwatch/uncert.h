@@ -122,6 +122,15 @@ void sw_uncert_sample_free(sw_uncert_sample *s);
 int sw_uncert_draw(const sw_uncert *u, size_t k, sw_uncert_sample *s,
                    sw_error *err);
 
+/* Draw samples 0 .. n - 1 on `workers` threads and keep of each the
+ * gates gates[0 .. n_gates) (indices into site->gates), in that order:
+ * out[s * n_gates + j] with the datum shifts of its headwater and tailwater
+ * series dhw_m[s * n_gates + j], dtw_m[...] (sw_uncert_gate_shifts).  The
+ * arrays hold n * n_gates each.  Errors as sw_uncert_draw(), SW_ENOMEM. */
+int sw_uncert_draw_gates(const sw_uncert *u, size_t n, const size_t *gates,
+                         size_t n_gates, unsigned workers, sw_gate *out,
+                         double *dhw_m, double *dtw_m, sw_error *err);
+
 /* The datum shifts of gate g's headwater and tailwater series in sample
  * `s` (0 for a gate without such a series): a level a gauge shows (after
  * its unit and given offset) lies this much higher in the sample. */

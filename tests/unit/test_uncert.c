@@ -437,7 +437,8 @@ static void test_waters_and_datums(void **state)
          "[water downstream]\ndensity = 1010\ndensity_sd = 3\n"
          "[series up]\nfile = x.csv\nvalue_column = a\noffset = 1.25\n"
          "offset_sd = 0.02\nvalid_range = 5, 15\n"
-         "[series down]\nfile = x.csv\nvalue_column = b\n"
+         "[series down]\nfile = x.csv\nvalue_column = b\noffset = 0\n"
+         "offset_sd = 0.03\n"
          "[gate V]\nshape = rectangle\nhinge_level = 10.0\ninclination = 90\n"
          "seal_top = 0.2\nseal_height = 2.0\nseal_width = 1.5\n"
          "cg_along = 1.0\nmass = 900\nheadwater = up\ntailwater = down\n"
@@ -445,7 +446,7 @@ static void test_waters_and_datums(void **state)
          "seal_top = 0.1\ndiameter = 0.8\ncg_along = 0.4\nmass = 300\n",
          &site);
     assert_int_equal(sw_uncert_init(&u, &site, 11, &err), SW_OK);
-    assert_int_equal(u.n_params, 3);
+    assert_int_equal(u.n_params, 4);
     assert_int_equal(u.params[0].kind, SW_UNCERT_TEMPERATURE);
     assert_int_equal(u.params[1].kind, SW_UNCERT_DENSITY);
     assert_int_equal(u.params[2].kind, SW_UNCERT_OFFSET);
@@ -463,7 +464,7 @@ static void test_waters_and_datums(void **state)
     double dhw, dtw;
     sw_uncert_gate_shifts(&u, s, 0, &dhw, &dtw);
     assert_true(dhw == s->value[2] - 1.25);
-    assert_true(dtw == 0.0);
+    assert_true(dtw == s->value[3] - 0.0);
     sw_uncert_gate_shifts(&u, s, 1, &dhw, &dtw);
     assert_true(dhw == 0.0 && dtw == 0.0);
     assert_int_equal(sw_uncert_site(&u, s, &copy, &err), SW_OK);
@@ -475,6 +476,28 @@ static void test_waters_and_datums(void **state)
     assert_true(copy.gates[1].gate.mass_kg == 300.0);
     assert_true(copy.zone == site.zone);
     sw_uncert_site_fini(&copy);
+
+    /* point with one sample is that sample: the headwater gauge's reading
+     * 9.3 is the true level 9.3 + dhw, and the critical tailwater comes
+     * back as the tailwater gauge shows it: less dtw */
+    sw_uncert_point pt[2];
+    sw_gate_result gr;
+    sw_crit alarm;
+    assert_int_equal(sw_uncert_draw(&u, 0, s, &err), SW_OK);
+    sw_uncert_gate_shifts(&u, s, 0, &dhw, &dtw);
+    assert_true(dhw != 0.0 && dtw != 0.0);
+    sw_gate_evaluate(&s->gates[0], 9.3 + dhw, 8.5 + dtw, &gr);
+    assert_int_equal(sw_gate_critical_tailwater(&s->gates[0], 9.3 + dhw,
+                                                SW_LIMIT_ALARM, &alarm, &err),
+                     SW_OK);
+    int only_v[2] = {1, 0};
+    assert_int_equal(sw_uncert_point_run(&u, 9.3, 8.5, 1, only_v, 1, pt, &err),
+                     SW_OK);
+    assert_true(pt[0].net_moment_Nm[1] == gr.net_moment_Nm);
+    assert_int_equal(alarm.kind, SW_CRIT_LEVEL);
+    assert_true(pt[0].tw_alarm_m[1] == alarm.level_m - dtw);
+    assert_int_equal(pt[1].n, 0); /* not wanted */
+    sw_uncert_point_fini(pt, 2);
     sw_uncert_sample_free(s);
     sw_uncert_fini(&u);
     sw_site_fini(&site);
