@@ -3,11 +3,13 @@
 #ifndef SILLWATCH_CLI_H
 #define SILLWATCH_CLI_H
 
+#include <stdint.h>
 #include <stdio.h>
 
 #include "sillwatch/error.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
+#include "sillwatch/uncert.h"
 
 /* Exit codes, documented in the README, the man page and --help. */
 enum sw_exit {
@@ -177,6 +179,18 @@ void sw_cli_print_fs_basis(const struct sw_site *site);
  * band band_lo..band_hi of its gates (README: Quality control). */
 void sw_cli_warn_implausible(const sw_site_series *s, double lo, double hi,
                              double band_lo, double band_hi);
+
+/* The options of the commands that sample (src/cmd_samples.c): each
+ * returns 0, or the usage exit code after printing why.  --samples N (1 to
+ * SW_UNCERT_MAX_SAMPLES), --seed S (a whole number below 2^63), -j N (1 to
+ * 1024). */
+int sw_cli_take_samples(const char *command, const char *arg, size_t *n);
+int sw_cli_take_seed(const char *command, const char *arg, uint64_t *seed);
+int sw_cli_take_jobs(const char *command, const char *arg, unsigned *jobs);
+/* The samples, the seed and each uncertain key with its value and X_sd,
+ * each line starting with `prefix` ("" or "# "). */
+void sw_cli_print_uncert(FILE *fp, const char *prefix, const sw_uncert *u,
+                         size_t n_samples);
 
 int sw_cmd_check(int argc, char **argv);
 int sw_cmd_point(int argc, char **argv);

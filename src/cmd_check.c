@@ -34,6 +34,16 @@ static void print_water(const char *label, const sw_site_water *w)
                label, w->rho_kgm3, w->temperature_C, w->salinity);
     else
         printf("  %-11s %9.4f kg/m^3  (given)\n", label, w->rho_kgm3);
+    /* standard uncertainties (X_sd), where given */
+    if (w->density_sd_kgm3 > 0.0)
+        printf("  %-11s %9.4f kg/m^3  (density_sd: standard uncertainty)\n",
+               "", w->density_sd_kgm3);
+    if (w->temperature_sd_C > 0.0)
+        printf("  %-11s %9.4f degC    (temperature_sd: standard "
+               "uncertainty)\n", "", w->temperature_sd_C);
+    if (w->salinity_sd > 0.0)
+        printf("  %-11s %9.4f         (salinity_sd: standard uncertainty)\n",
+               "", w->salinity_sd);
 }
 
 static void print_series(const sw_site_series *sr)
@@ -51,6 +61,9 @@ static void print_series(const sw_site_series *sr)
                                  : "realization, else member");
         printf("    %-20s %+.4f m (gauge zero above datum)\n", "offset",
                sr->offset_m);
+        if (sr->offset_sd_m > 0.0)
+            printf("    %-20s %.4f m (standard uncertainty of the datum)\n",
+                   "offset_sd", sr->offset_sd_m);
         return;
     }
     printf("    %-20s %s (%s)\n", "time_column", sr->time_column,
@@ -58,6 +71,9 @@ static void print_series(const sw_site_series *sr)
     printf("    %-20s %s\n", "value_column", sr->value_column);
     printf("    %-20s %s, offset %+.4f m (gauge zero above datum)\n", "unit",
            sr->scale == 1.0 ? "m" : "ft", sr->offset_m);
+    if (sr->offset_sd_m > 0.0)
+        printf("    %-20s %.4f m (standard uncertainty of the datum)\n",
+               "offset_sd", sr->offset_sd_m);
     printf("    %-20s %s\n", "delimiter",
            sr->delimiter == 0 ? "detected from the header"
            : sr->delimiter == ';' ? "semicolon (decimal comma allowed)"
@@ -73,27 +89,41 @@ static void row(const char *key, double v, const char *unit)
     printf("    %-20s %14.4f  %s\n", key, sw_cli_unsigned_zero(v, 4), unit);
 }
 
+/* A key of the leaf and, where given, its standard uncertainty X_sd. */
+static void param_row(const sw_site_gate *sg, sw_gate_param p,
+                      const char *unit)
+{
+    sw_gate g = sg->gate;
+    char sd_key[40];
+    row(sw_gate_param_key(p), *sw_gate_param_ref(&g, p), unit);
+    if (sg->sd[p] > 0.0) {
+        snprintf(sd_key, sizeof sd_key, "%s_sd", sw_gate_param_key(p));
+        printf("    %-20s %14.4f  %s (standard uncertainty)\n", sd_key,
+               sg->sd[p], sw_gate_param_unit(p));
+    }
+}
+
 static void print_gate(const sw_site_gate *sg)
 {
     const sw_gate *g = &sg->gate;
 
     printf("\n  [gate %s]  (line %ld)\n", g->name, sg->line);
     printf("    %-20s %14s\n", "shape", sw_shape_name(g->shape));
-    row("hinge_level", g->hinge_level_m, "m");
-    row("inclination", g->inclination_deg, "deg from horizontal");
-    row("seal_top", g->seal_top_m, "m along the leaf");
+    param_row(sg, SW_GP_HINGE_LEVEL, "m");
+    param_row(sg, SW_GP_INCLINATION, "deg from horizontal");
+    param_row(sg, SW_GP_SEAL_TOP, "m along the leaf");
     if (g->shape == SW_SHAPE_RECTANGLE) {
-        row("seal_height", g->seal_height_m, "m along the leaf");
-        row("seal_width", g->seal_width_m, "m");
+        param_row(sg, SW_GP_SEAL_HEIGHT, "m along the leaf");
+        param_row(sg, SW_GP_SEAL_WIDTH, "m");
     } else {
-        row("diameter", g->diameter_m, "m");
+        param_row(sg, SW_GP_DIAMETER, "m");
     }
-    row("leaf_length", g->leaf_length_m, "m");
-    row("mass", g->mass_kg, "kg");
-    row("cg_along", g->cg_along_m, "m along the leaf");
-    row("cg_offset", g->cg_offset_m, "m normal, + downstream");
-    row("volume", g->volume_m3, "m^3");
-    row("extra_moment", g->extra_moment_Nm, "N*m, + holds shut");
+    param_row(sg, SW_GP_LEAF_LENGTH, "m");
+    param_row(sg, SW_GP_MASS, "kg");
+    param_row(sg, SW_GP_CG_ALONG, "m along the leaf");
+    param_row(sg, SW_GP_CG_OFFSET, "m normal, + downstream");
+    param_row(sg, SW_GP_VOLUME, "m^3");
+    param_row(sg, SW_GP_EXTRA_MOMENT, "N*m, + holds shut");
     row("required_fs", g->required_fs, "-");
     printf("    %-20s %14s  %s\n", "fs_basis", sw_fs_basis_name(g->fs_basis),
            sw_fs_basis_phrase(g->fs_basis));

@@ -3,18 +3,23 @@
 #define _DEFAULT_SOURCE /* getopt_long */
 #include <getopt.h>
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "cli.h"
 #include "sillwatch/csvout.h"
 #include "sillwatch/gate.h"
+#include "sillwatch/jobs.h"
 #include "sillwatch/jsonout.h"
 #include "sillwatch/site.h"
+#include "sillwatch/uncert.h"
 
 static const char point_help[] =
     "Usage: sillwatch point SITE.ini --headwater LEVEL --tailwater LEVEL\n"
     "                       [--gate NAME]... [--format text|csv|json]\n"
+    "                       [--samples N [--seed S] [-j N]]\n"
     "Evaluate the hydrostatic hinge moments of the site's gates at one pair\n"
     "of water levels (elevations in m above the site datum).\n"
     "\n"
@@ -24,6 +29,16 @@ static const char point_help[] =
     "  --format FORMAT     text (default): the full hand-check;\n"
     "                      csv: one row per gate (units m, N, N*m);\n"
     "                      json: every load and value, units in the keys\n"
+    "  --samples N         propagate the site file's standard uncertainties\n"
+    "                      (X_sd keys) by N Monte Carlo samples: per gate,\n"
+    "                      P(open), P(low) with standard errors, 5/50/95 %\n"
+    "                      percentiles of fs, net moment, tw_alarm, tw_open,\n"
+    "                      and each key's share of the net moment's\n"
+    "                      variance; the levels are read as the gates'\n"
+    "                      gauges show them\n"
+    "  --seed S            the seed of the draws (default: a fixed one,\n"
+    "                      printed, so that results repeat)\n"
+    "  -j, --jobs N        threads for the samples (default: processors)\n"
     "  -h, --help          show this help and exit\n"
     "      --version       show the version and exit\n"
     "\n"
@@ -32,8 +47,9 @@ static const char point_help[] =
     "over the net water moment D = headwater - tailwater moment;\n"
     "overturning is the classical Mr / hw_moment.\n"
     "\n"
-    "Exit status: 0 every gate ok, 1 some gate low or open, 2 usage,\n"
-    "3 site file, 6 numerical failure; see 'sillwatch --help'.\n"
+    "Exit status: 0 every gate ok, 1 some gate low or open (with\n"
+    "--samples: in some sample), 2 usage, 3 site file, 6 numerical failure;\n"
+    "see 'sillwatch --help'.\n"
     "\n";
 
 /* Where a load acts: s along the leaf, elevation, and lever arm. */
@@ -208,6 +224,227 @@ static void print_csv_row(const sw_gate *g, const sw_gate_result *r,
     putchar('\n');
 }
 
+/* ---- --samples ------------------------------------------------------------ */
+
+static void text_pctl_row(const char *what, const double *v, int crit,
+                          int decimals)
+{
+    printf("  %-22s", what);
+    for (int p = 0; p < SW_UNCERT_N_PCTL; p++) {
+        if (crit && isinf(v[p]))
+            printf(" %14s", "not needed");
+        else if (isinf(v[p]))
+            printf(" %14s", v[p] > 0 ? "infinite" : "-infinite");
+        else
+            printf(" %14.*f", decimals, sw_cli_unsigned_zero(v[p], decimals));
+    }
+    putchar('\n');
+}
+
+static void print_sampled_text(const sw_uncert *u, const sw_uncert_point *pt)
+{
+    const sw_gate *g = &u->site->gates[pt->gate].gate;
+    size_t *order;
+
+    printf("gate %s (factor of safety: %s; required %.2f)\n", g->name,
+           sw_fs_basis_phrase(g->fs_basis), g->required_fs);
+    printf("  P(open)                %8.4f +- %.4f  %6zu of %zu samples\n",
+           pt->p_open, pt->p_open_se, pt->n_open, pt->n);
+    printf("  P(low)                 %8.4f +- %.4f  %6zu (shut, below the "
+           "required margin)\n", pt->p_low, pt->p_low_se, pt->n_low);
+    printf("  P(below margin)        %8.4f +- %.4f  %6zu (low or open)\n",
+           pt->p_below, pt->p_below_se, pt->n_low + pt->n_open);
+    printf("  %-22s %14s %14s %14s\n", "percentile", "5 %", "50 %", "95 %");
+    text_pctl_row("factor of safety", pt->fs, 0, 3);
+    text_pctl_row("net moment (N*m)", pt->net_moment_Nm, 0, 1);
+    text_pctl_row("tw_alarm (m)", pt->tw_alarm_m, 1, 3);
+    text_pctl_row("tw_open (m)", pt->tw_open_m, 1, 3);
+    if (pt->n_shares == 0) {
+        printf("  (no uncertain key acts on this gate)\n\n");
+        return;
+    }
+    order = malloc(pt->n_shares * sizeof *order);
+    printf("  shares of the net moment's variance (first order: squared "
+           "correlation\n  of each key with the net moment, normalised), "
+           "largest first:\n");
+    if (order != NULL) {
+        sw_uncert_point_order(pt, order);
+        for (size_t i = 0; i < pt->n_shares; i++)
+            printf("    %-34s %6.3f  (r^2 %.3f)\n",
+                   u->params[pt->param[order[i]]].name,
+                   pt->share[order[i]], pt->r2[order[i]]);
+        free(order);
+    }
+    printf("    the r^2 add up to %.3f (1 where the net moment is linear "
+           "in the keys)\n\n", pt->r2_sum);
+}
+
+static void csv_pctl(const double *v, int crit)
+{
+    for (int p = 0; p < SW_UNCERT_N_PCTL; p++) {
+        putchar(',');
+        if (crit && isinf(v[p]))
+            continue; /* not needed: empty, as in the plain csv */
+        csv_number(v[p]);
+    }
+}
+
+static void print_sampled_csv_header(const sw_uncert *u)
+{
+    static const char *const q[] = {"fs", "net_moment", "tw_alarm",
+                                    "tw_open"};
+    fputs("gate,samples,seed,headwater,tailwater,p_open,p_open_se,p_low,"
+          "p_low_se,p_below,p_below_se", stdout);
+    for (int k = 0; k < 4; k++)
+        printf(",%s_p05,%s_p50,%s_p95", q[k], q[k], q[k]);
+    fputs(",r2_sum", stdout);
+    for (size_t i = 0; i < u->n_params; i++) {
+        char name[128];
+        snprintf(name, sizeof name, "share[%s]", u->params[i].name);
+        putchar(',');
+        sw_csv_put_field(stdout, name);
+    }
+    putchar('\n');
+}
+
+static void print_sampled_csv_row(const sw_uncert *u,
+                                  const sw_uncert_point *pt, double hw,
+                                  double tw)
+{
+    sw_csv_put_field(stdout, u->site->gates[pt->gate].gate.name);
+    printf(",%zu,%llu,", pt->n, (unsigned long long)u->seed);
+    csv_number(hw);
+    putchar(',');
+    csv_number(tw);
+    const double p[] = {pt->p_open, pt->p_open_se, pt->p_low,
+                        pt->p_low_se, pt->p_below, pt->p_below_se};
+    for (size_t i = 0; i < sizeof p / sizeof p[0]; i++) {
+        putchar(',');
+        csv_number(p[i]);
+    }
+    csv_pctl(pt->fs, 0);
+    csv_pctl(pt->net_moment_Nm, 0);
+    csv_pctl(pt->tw_alarm_m, 1);
+    csv_pctl(pt->tw_open_m, 1);
+    putchar(',');
+    csv_number(pt->r2_sum);
+    /* a share for every uncertain key of the site; empty where the key
+     * does not act on this gate */
+    for (size_t i = 0, m = 0; i < u->n_params; i++) {
+        putchar(',');
+        if (m < pt->n_shares && pt->param[m] == i)
+            csv_number(pt->share[m++]);
+    }
+    putchar('\n');
+}
+
+typedef struct sample_opts {
+    size_t n;
+    uint64_t seed;
+    unsigned workers;
+} sample_opts;
+
+/* point --samples: every wanted gate over the samples; prints as asked
+ * and returns the exit status. */
+static int point_sampled(const sw_site *site, const int *wanted, double hw,
+                         double tw, const sample_opts *so, int csv, int json)
+{
+    sw_uncert u;
+    sw_uncert_point *pt = calloc(site->n_gates + 1, sizeof *pt);
+    sw_error err;
+    int rc, below = 0, bad = 0;
+
+    if (pt == NULL) {
+        fprintf(stderr, "sillwatch: point: out of memory\n");
+        return SW_EXIT_NOMEM;
+    }
+    if ((rc = sw_uncert_init(&u, site, so->seed, &err)) != SW_OK ||
+        (rc = sw_uncert_point_run(&u, hw, tw, so->n, wanted, so->workers, pt,
+                                  &err)) != SW_OK) {
+        free(pt);
+        sw_uncert_fini(&u);
+        return sw_cli_report(&err);
+    }
+    if (u.n_params == 0)
+        fprintf(stderr, "sillwatch: point: warning: no key of %s has a "
+                        "standard uncertainty (X_sd): every sample is the "
+                        "site as given\n",
+                site->path);
+    json_t *doc = NULL, *jgates = NULL;
+    if (json) {
+        doc = json_object();
+        jgates = json_array();
+        sw_json_set(doc, "sillwatch_version", json_string(SW_VERSION), &bad);
+        sw_json_set(doc, "site", json_string(site->name), &bad);
+        sw_json_set(doc, "site_file", json_string(site->path), &bad);
+        sw_json_set(doc, "headwater_m", sw_json_number(hw), &bad);
+        sw_json_set(doc, "tailwater_m", sw_json_number(tw), &bad);
+        sw_json_set(doc, "levels_as", json_string("gauge"), &bad);
+        sw_json_set(doc, "samples", json_integer((json_int_t)so->n), &bad);
+        sw_json_set(doc, "seed", json_integer((json_int_t)so->seed), &bad);
+        sw_json_set(doc, "generator", json_string("gsl mt19937"), &bad);
+        sw_json_set(doc, "percentiles",
+                    json_string("Hyndman and Fan (1996) definition 7"),
+                    &bad);
+        sw_json_set(doc, "sensitivity",
+                    json_string("squared correlation with the net moment, "
+                                "normalised to shares"),
+                    &bad);
+        sw_json_set(doc, "uncertain_keys", sw_json_uncert_keys(&u), &bad);
+        if (jgates != NULL)
+            json_incref(jgates);
+        sw_json_set(doc, "gates", jgates, &bad);
+    } else if (csv) {
+        print_sampled_csv_header(&u);
+    } else {
+        printf("sillwatch %s sampled hand-check: site '%s' (%s)\n", SW_VERSION,
+               site->name, site->path);
+        printf("levels as the gates' gauges show them: headwater %.3f m, "
+               "tailwater %.3f m\n", hw, tw);
+        sw_cli_print_uncert(stdout, "", &u, so->n);
+        printf("probabilities +- their Monte Carlo standard error; "
+               "percentiles: Hyndman and\nFan (1996) definition 7\n\n");
+    }
+    for (size_t g = 0; g < site->n_gates; g++) {
+        if (!wanted[g])
+            continue;
+        below |= pt[g].p_below > 0.0;
+        if (json) {
+            if (jgates == NULL ||
+                json_array_append_new(jgates,
+                                      sw_json_uncert_point(&u, &pt[g])) != 0)
+                bad = 1;
+        } else if (csv) {
+            print_sampled_csv_row(&u, &pt[g], hw, tw);
+        } else {
+            print_sampled_text(&u, &pt[g]);
+        }
+    }
+    rc = SW_OK;
+    if (json) {
+        sw_json_set(doc, "caution", json_string(sw_cli_caution), &bad);
+        rc = sw_json_write(bad ? NULL : doc, stdout, &err);
+        json_decref(jgates);
+        json_decref(doc);
+    } else if (!csv) {
+        fputs("A probability of opening covers the keys' stated uncertainties "
+              "only, not the\nmodel's own error (hydrostatic loads, a rigid "
+              "leaf, no friction).\n",
+              stdout);
+        fputs(sw_cli_caution, stdout);
+    }
+    sw_uncert_point_fini(pt, site->n_gates);
+    free(pt);
+    sw_uncert_fini(&u);
+    if (rc != SW_OK)
+        return sw_cli_report(&err);
+    if (fflush(stdout) != 0 || ferror(stdout)) {
+        fprintf(stderr, "sillwatch: point: could not write the output\n");
+        return SW_EXIT_OUTPUT;
+    }
+    return below ? SW_EXIT_BELOW : SW_EXIT_OK;
+}
+
 int sw_cmd_point(int argc, char **argv)
 {
     static const struct option opts[] = {
@@ -215,6 +452,9 @@ int sw_cmd_point(int argc, char **argv)
         {"tailwater", required_argument, NULL, 'd'},
         {"gate", required_argument, NULL, 'g'},
         {"format", required_argument, NULL, 'f'},
+        {"samples", required_argument, NULL, 'n'},
+        {"seed", required_argument, NULL, 'e'},
+        {"jobs", required_argument, NULL, 'j'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -224,13 +464,28 @@ int sw_cmd_point(int argc, char **argv)
     double hw = NAN, tw = NAN;
     int csv = 0, json = 0, opt, worst = SW_STATE_OK, rc;
     json_t *doc = NULL, *jgates = NULL;
-    int bad = 0;
+    int bad = 0, seed_given = 0, jobs_given = 0;
+    sample_opts so = {0, SW_UNCERT_DEFAULT_SEED, sw_jobs_default_workers()};
     sw_site site;
     sw_error err;
 
     opterr = 0;
-    while ((opt = getopt_long(argc, argv, ":h", opts, NULL)) != -1) {
+    while ((opt = getopt_long(argc, argv, ":hj:", opts, NULL)) != -1) {
         switch (opt) {
+        case 'n':
+            if ((rc = sw_cli_take_samples("point", optarg, &so.n)) != 0)
+                return rc;
+            break;
+        case 'e':
+            if ((rc = sw_cli_take_seed("point", optarg, &so.seed)) != 0)
+                return rc;
+            seed_given = 1;
+            break;
+        case 'j':
+            if ((rc = sw_cli_take_jobs("point", optarg, &so.workers)) != 0)
+                return rc;
+            jobs_given = 1;
+            break;
         case 'u':
         case 'd':
             if (sw_cli_parse_number(optarg, opt == 'u' ? &hw : &tw) != 0)
@@ -277,6 +532,10 @@ int sw_cmd_point(int argc, char **argv)
     if (isnan(hw) || isnan(tw))
         return sw_cli_usage_error("point", "give both --headwater and "
                                            "--tailwater");
+    if (so.n == 0 && (seed_given || jobs_given))
+        return sw_cli_usage_error("point", "%s is for --samples: give "
+                                           "--samples N too",
+                                  seed_given ? "--seed" : "--jobs");
 
     if ((rc = sw_site_load(&site, argv[optind], &err)) != SW_OK)
         return sw_cli_report(&err);
@@ -290,6 +549,24 @@ int sw_cmd_point(int argc, char **argv)
             sw_site_fini(&site);
             return SW_EXIT_USAGE;
         }
+
+    if (so.n > 0) {
+        int *wanted = calloc(site.n_gates + 1, sizeof *wanted);
+        if (wanted == NULL) {
+            sw_site_fini(&site);
+            fprintf(stderr, "sillwatch: point: out of memory\n");
+            return SW_EXIT_NOMEM;
+        }
+        for (size_t i = 0; i < site.n_gates; i++) {
+            wanted[i] = n_named == 0;
+            for (size_t j = 0; j < n_named; j++)
+                wanted[i] |= strcmp(gates[j], site.gates[i].gate.name) == 0;
+        }
+        rc = point_sampled(&site, wanted, hw, tw, &so, csv, json);
+        free(wanted);
+        sw_site_fini(&site);
+        return rc;
+    }
 
     if (json) {
         doc = json_object();

@@ -17,13 +17,15 @@
 #include "sillwatch/jobs.h"
 #include "sillwatch/replay.h"
 #include "sillwatch/report.h"
+#include "sillwatch/samplerun.h"
 #include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
+#include "sillwatch/uncert.h"
 
 static const char run_help[] =
     "Usage: sillwatch run SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
     "                     [--steps] [--by month] [--report] [--json]\n"
-    "                     [--quiet]\n"
+    "                     [--quiet] [--samples N [--seed S] [-j N]]\n"
     "       sillwatch run SITE.ini SITE.ini... -o OUTDIR [-j N] [options]\n"
     "Replay the level series named in the site file through every gate and\n"
     "write, in OUTDIR (created if missing):\n"
@@ -39,6 +41,12 @@ static const char run_help[] =
     "                charts and tables, to open, print or attach\n"
     "  summary.json  with --json: summary.csv for scripts (numbers as\n"
     "                numbers)\n"
+    "  samples.csv   with --samples: per gate, over N replays of samples of\n"
+    "                the site file's uncertain keys (X_sd): hours below\n"
+    "                margin and open (5/50/95 %), how often it fell below\n"
+    "                its margin and opened at all, least fs\n"
+    "  sample_steps.csv  with --samples and --steps: the fraction of\n"
+    "                samples low and open at every time step\n"
     "  manifest.csv  written last: each file's size and SHA-256; a folder\n"
     "                without it holds no complete set\n"
     "The files are put in place as one set: a failed or interrupted run\n"
@@ -54,8 +62,13 @@ static const char run_help[] =
     "  --by month             write months.csv\n"
     "  --report               write report.html\n"
     "  --json                 write summary.json\n"
-    "  -j, --jobs N           several sites: N at a time (default: the\n"
-    "                         number of processors)\n"
+    "  --samples N            also replay N samples of the uncertain keys\n"
+    "                         (1 to 1000000) and write samples.csv\n"
+    "  --seed S               the seed of the draws (default: a fixed one,\n"
+    "                         printed)\n"
+    "  -j, --jobs N           several sites: N at a time; with --samples:\n"
+    "                         worker processes for the samples (default:\n"
+    "                         the number of processors)\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
@@ -73,6 +86,9 @@ typedef struct run_opts {
     int steps, by_month, report, json, quiet;
     const char *series[64];
     size_t n_series;
+    size_t n_samples;   /* --samples; 0: none */
+    uint64_t seed;
+    int seed_given;
 } run_opts;
 
 static int parse_args(int argc, char **argv, run_opts *o)
@@ -86,6 +102,8 @@ static int parse_args(int argc, char **argv, run_opts *o)
         {"report", no_argument, NULL, 'R'},
         {"quiet", no_argument, NULL, 'q'},
         {"jobs", required_argument, NULL, 'j'},
+        {"samples", required_argument, NULL, 'n'},
+        {"seed", required_argument, NULL, 'e'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -95,6 +113,7 @@ static int parse_args(int argc, char **argv, run_opts *o)
     memset(o, 0, sizeof *o);
     opterr = 0;
     o->jobs = sw_jobs_default_workers();
+    o->seed = SW_UNCERT_DEFAULT_SEED;
     while ((opt = getopt_long(argc, argv, ":o:j:qh", opts, NULL)) != -1) {
         switch (opt) {
         case 'o':
@@ -124,6 +143,15 @@ static int parse_args(int argc, char **argv, run_opts *o)
         case 'q':
             o->quiet = 1;
             break;
+        case 'n':
+            if ((rc = sw_cli_take_samples("run", optarg, &o->n_samples)) != 0)
+                return rc;
+            break;
+        case 'e':
+            if ((rc = sw_cli_take_seed("run", optarg, &o->seed)) != 0)
+                return rc;
+            o->seed_given = 1;
+            break;
         case 'j':
             if ((rc = sw_cli_parse_jobs("run", optarg, &o->jobs)) != 0)
                 return rc;
@@ -139,6 +167,12 @@ static int parse_args(int argc, char **argv, run_opts *o)
             return sw_cli_option_error("run", opt, argv);
         }
     }
+    if (o->seed_given && o->n_samples == 0)
+        return sw_cli_usage_error("run", "--seed is for --samples: give "
+                                         "--samples N too");
+    if (argc - optind > 1 && o->n_samples > 0)
+        return sw_cli_usage_error("run", "--samples replays one site: give "
+                                         "one site file with it");
     if (argc - optind > 1)
         return sw_cli_sites_operands("run", argc, argv, o->outdir,
                                      o->n_series, &o->sites, &o->n_sites);
@@ -410,6 +444,73 @@ static int any_below(const sw_site *site, const sw_stepper *st)
     return 0;
 }
 
+static void sample_progress(size_t done, size_t n, void *ctx)
+{
+    (void)ctx;
+    fprintf(stderr, "\rsillwatch: sampled replays: %zu of %zu   ", done, n);
+}
+
+/* The sampled replays' table on standard output. */
+static void print_samples(const sw_site *site, const sw_samplerun *sr)
+{
+    printf("\nsampled replays (samples.csv): ");
+    sw_cli_print_uncert(stdout, "", sr->u, sr->n);
+    printf("%-12s %-29s %-29s %-16s %-16s\n", "gate",
+           "below margin h 5/50/95 %", "open h 5/50/95 %", "P(below once)",
+           "P(open once)");
+    for (size_t g = 0; g < site->n_gates; g++) {
+        sw_samplerun_stats st;
+        sw_error err;
+        char h[6][24], col[2][80];
+        if (sw_samplerun_stats_of(sr, g, &st, &err) != SW_OK)
+            return;
+        for (int p = 0; p < 3; p++) {
+            snprintf(h[p], sizeof h[p], "%lld.%04lld", st.below4[p] / 10000,
+                     st.below4[p] % 10000);
+            snprintf(h[3 + p], sizeof h[3 + p], "%lld.%04lld",
+                     st.open4[p] / 10000, st.open4[p] % 10000);
+        }
+        snprintf(col[0], sizeof col[0], "%s %s %s", h[0], h[1], h[2]);
+        snprintf(col[1], sizeof col[1], "%s %s %s", h[3], h[4], h[5]);
+        printf("%-12s %-29s %-29s %.3f +- %.3f  %.3f +- %.3f\n",
+               site->gates[g].gate.name, col[0], col[1], st.p_below,
+               st.p_below_se, st.p_open, st.p_open_se);
+    }
+    printf("(+-: the Monte Carlo standard error; percentiles: Hyndman and Fan "
+           "(1996)\ndefinition 7; a probability covers the keys' stated "
+           "uncertainties only)\n");
+}
+
+/* 1 when some gate fell below its margin in some sample. */
+static int any_sample_below(const sw_samplerun *sr)
+{
+    for (size_t i = 0; i < sr->n * sr->n_gates; i++)
+        if (sr->tally[i].below_seen)
+            return 1;
+    return 0;
+}
+
+/* --samples: the site's samples replayed on worker processes before the
+ * site's own replay, so that samples.csv joins its set. */
+static int run_samples(const run_opts *o, const sw_site *site,
+                       sw_uncert *u, sw_samplerun *sr, int show_progress,
+                       sw_error *err)
+{
+    int rc;
+    if ((rc = sw_uncert_init(u, site, o->seed, err)) != SW_OK)
+        return rc;
+    if (u->n_params == 0 && !o->quiet)
+        fprintf(stderr, "sillwatch: run: warning: no key of %s has a "
+                        "standard uncertainty (X_sd): every sample is the "
+                        "site as given\n",
+                site->path);
+    rc = sw_samplerun_run(sr, u, o->n_samples, o->jobs, o->steps,
+                          show_progress ? sample_progress : NULL, NULL, err);
+    if (show_progress)
+        fputs(rc == SW_OK ? "\r\033[K" : "\n", stderr);
+    return rc;
+}
+
 /* Replay one site into `outdir` (made if missing); print its summary
  * unless `brief` or quiet.  Returns the exit status. */
 static int run_site(const run_opts *o, const char *site_path,
@@ -418,7 +519,12 @@ static int run_site(const run_opts *o, const char *site_path,
     sw_site site;
     sw_replay *rp = NULL;
     sw_error err;
+    sw_uncert u;
+    sw_samplerun sr;
     int rc;
+
+    memset(&u, 0, sizeof u);
+    memset(&sr, 0, sizeof sr);
     char sha[SW_CLI_SHA256_HEX], when[32];
 
     if (sw_site_load(&site, site_path, &err) != SW_OK)
@@ -432,7 +538,12 @@ static int run_site(const run_opts *o, const char *site_path,
     int show_progress = !o->quiet && !brief && isatty(STDERR_FILENO);
     if ((rc = sw_cli_make_outdir(outdir, &err)) != SW_OK ||
         (rc = sw_cli_recover(outdir, o->quiet, &err)) != SW_OK ||
+        (o->n_samples > 0 &&
+         (rc = run_samples(o, &site, &u, &sr, show_progress, &err)) !=
+             SW_OK) ||
         (rc = sw_replay_open(&rp, &site, outdir, &ropt, &err)) != SW_OK ||
+        (o->n_samples > 0 &&
+         (rc = sw_replay_add_samples(rp, &sr, &err)) != SW_OK) ||
         (rc = replay_all(rp, &site, show_progress, &err)) != SW_OK ||
         (rc = sw_cli_site_sha256(&site, sha, &err)) != SW_OK)
         goto fail;
@@ -443,26 +554,37 @@ static int run_site(const run_opts *o, const char *site_path,
         goto fail;
 
     const sw_stepper *st = sw_replay_stepper(rp);
-    int exit_code = any_below(&site, st) ? SW_EXIT_BELOW : SW_EXIT_OK;
+    int exit_code = any_below(&site, st) ||
+                            (o->n_samples > 0 && any_sample_below(&sr))
+                        ? SW_EXIT_BELOW
+                        : SW_EXIT_OK;
     if (!o->quiet)
         warn_after(&site, st, brief);
     if (!o->quiet && !brief) {
         print_summary(&site, st);
+        if (o->n_samples > 0)
+            print_samples(&site, &sr);
         print_quality(&site, st);
-        printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s%s, "
+        printf("\noutputs in %s: summary.csv, events.csv, flags.csv%s%s%s%s%s%s, "
                "manifest.csv\n", outdir,
                o->steps ? ", steps.csv" : "",
                o->by_month ? ", months.csv" : "",
                o->report ? ", report.html" : "",
-               o->json ? ", summary.json" : "");
+               o->json ? ", summary.json" : "",
+               o->n_samples > 0 ? ", samples.csv" : "",
+               o->n_samples > 0 && o->steps ? ", sample_steps.csv" : "");
         fputs(sw_cli_caution, stdout);
     }
     sw_replay_free(rp);
+    sw_samplerun_fini(&sr);
+    sw_uncert_fini(&u);
     sw_site_fini(&site);
     return exit_code;
 
 fail:
     sw_replay_free(rp);
+    sw_samplerun_fini(&sr);
+    sw_uncert_fini(&u);
     sw_site_fini(&site);
     if (rc == SW_EINTERRUPTED)
         return run_interrupted(outdir);

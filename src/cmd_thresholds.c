@@ -15,12 +15,20 @@
 #include "sillwatch/csvout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/site.h"
+#include "sillwatch/jobs.h"
 #include "sillwatch/thresholds.h"
+#include "sillwatch/uncert.h"
+
+/* Most samples of a table: each keeps a copy of every gate (about 250
+ * bytes) and two shifts. */
+#define THR_MAX_SAMPLES 100000
 
 static const char thresholds_help[] =
     "Usage: sillwatch thresholds SITE.ini (--headwater FROM:TO:STEP |\n"
     "                            --tailwater FROM:TO:STEP) [--gate NAME]...\n"
     "                            [--simplify TOL] -o FILE\n"
+    "                            [--confidence P --samples N [--seed S]\n"
+    "                            [-j N]]\n"
     "Write a table of alarm thresholds for controllers: over a range of one\n"
     "water level, each gate's critical level of the other water for the\n"
     "alarm limit (the required margin) and the open limit (the leaf stays\n"
@@ -42,6 +50,18 @@ static const char thresholds_help[] =
     "                            greedily (not proven minimal) whose linear\n"
     "                            interpolation stays within TOL m (at least\n"
     "                            0.0005) of every exact curve\n"
+    "  --confidence P            with --samples: publish the levels that hold\n"
+    "                            with probability P (0 < P < 1) over N\n"
+    "                            samples of the site file's uncertain keys\n"
+    "                            (X_sd): the upper P-quantile of each\n"
+    "                            critical tailwater, the lower of each\n"
+    "                            critical headwater; levels as the gates'\n"
+    "                            gauges show them\n"
+    "  --samples N               samples for --confidence (1 to 100000)\n"
+    "  --seed S                  the seed of the draws (default: a fixed one,\n"
+    "                            written in the header)\n"
+    "  -j, --jobs N              threads for the samples (default:\n"
+    "                            processors); the table does not depend on it\n"
     "  -o, --output FILE         the CSV file, written whole or not at all;\n"
     "                            '-' for standard output\n"
     "  -h, --help                show this help and exit\n"
@@ -65,6 +85,10 @@ typedef struct thr_opts {
     sw_thresholds_axis axis;
     sw_thresholds_range range;
     double tol_m; /* 0: the regular grid */
+    double confidence;  /* 0: no samples */
+    size_t n_samples;
+    uint64_t seed;
+    unsigned workers;
 } thr_opts;
 
 /* Parse the command line into *o.  Returns 0 to go on, -1 after --help,
@@ -77,18 +101,54 @@ static int parse_args(int argc, char **argv, thr_opts *o)
         {"gate", required_argument, NULL, 'g'},
         {"simplify", required_argument, NULL, 's'},
         {"output", required_argument, NULL, 'o'},
+        {"confidence", required_argument, NULL, 'c'},
+        {"samples", required_argument, NULL, 'n'},
+        {"seed", required_argument, NULL, 'e'},
+        {"jobs", required_argument, NULL, 'j'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
     };
     const char *range_opt = NULL;
-    int opt;
+    int opt, rc, seed_given = 0, jobs_given = 0;
     sw_error err;
 
     memset(o, 0, sizeof *o);
+    o->seed = SW_UNCERT_DEFAULT_SEED;
+    o->workers = sw_jobs_default_workers();
     opterr = 0;
-    while ((opt = getopt_long(argc, argv, ":ho:", opts, NULL)) != -1) {
+    while ((opt = getopt_long(argc, argv, ":ho:j:", opts, NULL)) != -1) {
         switch (opt) {
+        case 'c':
+            if (sw_cli_parse_number(optarg, &o->confidence) != 0 ||
+                !(o->confidence > 0.0 && o->confidence < 1.0))
+                return sw_cli_usage_error(
+                    "thresholds",
+                    "--confidence: '%s' is not a probability between 0 and "
+                    "1 (such as 0.95)",
+                    optarg);
+            break;
+        case 'n':
+            if ((rc = sw_cli_take_samples("thresholds", optarg,
+                                          &o->n_samples)) != 0)
+                return rc;
+            if (o->n_samples > THR_MAX_SAMPLES)
+                return sw_cli_usage_error("thresholds",
+                                          "--samples: at most %d for a "
+                                          "table, not %s",
+                                          THR_MAX_SAMPLES, optarg);
+            break;
+        case 'e':
+            if ((rc = sw_cli_take_seed("thresholds", optarg, &o->seed)) != 0)
+                return rc;
+            seed_given = 1;
+            break;
+        case 'j':
+            if ((rc = sw_cli_take_jobs("thresholds", optarg, &o->workers)) !=
+                0)
+                return rc;
+            jobs_given = 1;
+            break;
         case 'u':
         case 'd': {
             const char *name = opt == 'u' ? "--headwater" : "--tailwater";
@@ -164,6 +224,16 @@ static int parse_args(int argc, char **argv, thr_opts *o)
     if (o->output == NULL)
         return sw_cli_usage_error("thresholds",
                                   "give the output file with -o FILE");
+    if ((o->confidence > 0.0) != (o->n_samples > 0))
+        return sw_cli_usage_error("thresholds",
+                                  o->n_samples > 0
+                                      ? "--samples is for --confidence: "
+                                        "give --confidence P too"
+                                      : "--confidence needs --samples N");
+    if (o->n_samples == 0 && (seed_given || jobs_given))
+        return sw_cli_usage_error("thresholds", "%s is for --confidence "
+                                                "and --samples",
+                                  seed_given ? "--seed" : "--jobs");
     return 0;
 }
 
@@ -237,10 +307,37 @@ static void put_step_value(FILE *fp, const thr_opts *o, double v)
         fprintf(fp, "%.4f", sw_thresholds_round(o->axis, v));
 }
 
+/* What a table with a confidence means (by headwater or tailwater). */
+static void write_confidence(FILE *fp, const thr_opts *o, const sw_uncert *u)
+{
+    double p = o->confidence;
+    if (o->axis == SW_THRESHOLDS_BY_HEADWATER)
+        fprintf(fp,
+                "# confidence: %g: each gate's value is the upper "
+                "%g-quantile of its critical tailwater over the\n#   "
+                "samples (Hyndman and Fan 1996, definition 7): the limit "
+                "holds above it in %g %% of them\n",
+                p, p, 100.0 * p);
+    else
+        fprintf(fp,
+                "# confidence: %g: each gate's value is the lower "
+                "%g-quantile of its critical headwater over the\n#   "
+                "samples (Hyndman and Fan 1996, definition 7): the limit "
+                "holds below it in %g %% of them\n",
+                p, 1.0 - p, 100.0 * p);
+    fputs("#   levels (rows and values) as the gates' gauges show them: a "
+          "gauge's drawn datum moves the\n#   true level; the governing "
+          "value is chosen over the gates' quantiles: it holds for each\n"
+          "#   gate with that probability, not for all of them at once\n",
+          fp);
+    sw_cli_print_uncert(fp, "# ", u, o->n_samples);
+}
+
 static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
                          const char *sha, const char *when,
                          const sw_gate *const *gates, size_t n_gates,
-                         const sw_thresholds *t, const sw_thresholds_fit *fit)
+                         const sw_thresholds *t, const sw_thresholds_fit *fit,
+                         const sw_uncert *u)
 {
     names nm = names_of(o->axis);
     const sw_thresholds_range *r = &o->range;
@@ -279,6 +376,8 @@ static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
               "*_gate names the gate that sets it (the first on a tie or\n#"
               "   among several with none)\n",
               fp);
+    if (u != NULL)
+        write_confidence(fp, o, u);
     if (fit == NULL)
         fputs("# mode: grid (every level of the range)\n", fp);
     else {
@@ -289,10 +388,11 @@ static void write_header(FILE *fp, const thr_opts *o, const sw_site *site,
                 "between such rows)\n"
                 "# tolerance: %.4f m; achieved max error: %.4f m (checked at "
                 "%zu fine levels, spacing %.4f m,\n#   and at %zu midpoints "
-                "between them)\n",
+                "between them%s)\n",
                 sw_thresholds_n_rows(t), r->n_levels, fit->tol_m,
                 fit->max_error_m, fit->n_fine, fit->fine_step_m,
-                fit->n_midpoints);
+                fit->n_midpoints,
+                u != NULL ? ", against the quantile curves" : "");
         for (size_t i = 0; i < fit->n_steps && i < MAX_STEPS_SHOWN; i++) {
             sw_thresholds_step s;
             sw_thresholds_get_step(t, i, &s);
@@ -358,6 +458,50 @@ static void write_row(FILE *fp, const sw_thresholds_row *row,
     fputc('\n', fp);
 }
 
+/* --confidence: the samples of the table's gates, drawn on o->workers
+ * threads, handed to the table. */
+static int draw_samples(const thr_opts *o, const sw_site *site,
+                        const sw_gate *const *gates, size_t n_gates,
+                        sw_thresholds *t, sw_uncert *u, sw_gate **samples,
+                        double **dhw, double **dtw, sw_error *err)
+{
+    size_t idx[SW_THRESHOLDS_MAX_GATES], n = o->n_samples;
+    int rc;
+
+    /* each table gate's index in the site */
+    for (size_t i = 0; i < n_gates; i++)
+        for (size_t g = 0; g < site->n_gates; g++)
+            if (&site->gates[g].gate == gates[i])
+                idx[i] = g;
+    if ((rc = sw_uncert_init(u, site, o->seed, err)) != SW_OK)
+        return rc;
+    if (u->n_params == 0)
+        fprintf(stderr, "sillwatch: thresholds: warning: no key of %s has "
+                        "a standard uncertainty (X_sd): every sample is the "
+                        "site as given\n",
+                site->path);
+    *samples = calloc(n * n_gates, sizeof **samples);
+    *dhw = calloc(n * n_gates, sizeof **dhw);
+    *dtw = calloc(n * n_gates, sizeof **dtw);
+    if (*samples == NULL || *dhw == NULL || *dtw == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                            "out of memory for %zu samples", n);
+    if ((rc = sw_uncert_draw_gates(u, n, idx, n_gates, o->workers, *samples,
+                                   *dhw, *dtw, err)) != SW_OK)
+        return rc;
+    return sw_thresholds_set_samples(t, *samples, *dhw, *dtw, n,
+                                     o->confidence, o->workers, err);
+}
+
+static void free_samples(sw_uncert *u, sw_gate *samples, double *dhw,
+                         double *dtw)
+{
+    sw_uncert_fini(u);
+    free(samples);
+    free(dhw);
+    free(dtw);
+}
+
 int sw_cmd_thresholds(int argc, char **argv)
 {
     thr_opts o;
@@ -371,10 +515,14 @@ int sw_cmd_thresholds(int argc, char **argv)
     char dir[SW_ERROR_PATH_MAX], sha[SW_CLI_SHA256_HEX];
     char sha_after[sizeof sha], when[32];
     const char *name = NULL;
+    sw_uncert u;
+    sw_gate *samples = NULL;
+    double *dhw = NULL, *dtw = NULL;
     int rc;
 
     memset(&out, 0, sizeof out);
     memset(&site, 0, sizeof site);
+    memset(&u, 0, sizeof u);
     if ((rc = parse_args(argc, argv, &o)) != 0)
         return rc < 0 ? SW_EXIT_OK : rc;
     const int to_stdout = strcmp(o.output, "-") == 0;
@@ -425,6 +573,10 @@ int sw_cmd_thresholds(int argc, char **argv)
     if ((rc = sw_thresholds_alloc(&t, gates, n_gates, o.axis, &o.range,
                                   &err)) != SW_OK)
         goto fail;
+    if (o.n_samples > 0 &&
+        (rc = draw_samples(&o, &site, gates, n_gates, t, &u, &samples, &dhw,
+                           &dtw, &err)) != SW_OK)
+        goto fail;
     /* open first: a bad folder shows before the work */
     if (!to_stdout &&
         (rc = sw_cli_open_output_file(&out, o.output, dir, name, 0, &err)) !=
@@ -437,7 +589,7 @@ int sw_cmd_thresholds(int argc, char **argv)
     if (sw_cancel_requested())
         goto stop;
     write_header(fp, &o, &site, sha, when, gates, n_gates, t,
-                 o.tol_m > 0.0 ? &fit : NULL);
+                 o.tol_m > 0.0 ? &fit : NULL, o.n_samples > 0 ? &u : NULL);
     for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
         const sw_thresholds_row *row;
         if ((rc = sw_thresholds_get_row(t, i, &row, &err)) != SW_OK)
@@ -477,8 +629,13 @@ int sw_cmd_thresholds(int argc, char **argv)
                 to_stdout ? "standard output" : o.output, o.range.n_levels,
                 names_of(o.axis).level);
     }
+    if (o.n_samples > 0)
+        fprintf(msg, "values with confidence %g over %zu samples (seed "
+                     "%llu)\n",
+                o.confidence, o.n_samples, (unsigned long long)o.seed);
     fputs(sw_cli_caution, msg);
     sw_thresholds_free(t);
+    free_samples(&u, samples, dhw, dtw);
     sw_site_fini(&site);
     if (fflush(stdout) != 0 || ferror(stdout)) {
         fprintf(stderr, "sillwatch: thresholds: could not write the "
@@ -491,12 +648,14 @@ fail:
     if (rc != SW_EINTERRUPTED) {
         sw_outfile_abort(&out);
         sw_thresholds_free(t);
+        free_samples(&u, samples, dhw, dtw);
         sw_site_fini(&site);
         return sw_cli_report(&err);
     }
 stop:
     sw_outfile_abort(&out);
     sw_thresholds_free(t);
+    free_samples(&u, samples, dhw, dtw);
     sw_site_fini(&site);
     {
         char what[SW_ERROR_PATH_MAX + 32];

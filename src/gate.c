@@ -67,6 +67,105 @@ const char *sw_fs_basis_phrase(sw_fs_basis basis)
                                       : "net water load, R / D";
 }
 
+/* ---- parameters ---------------------------------------------------------- */
+
+static const struct {
+    const char *key, *unit;
+} param_info[SW_GATE_N_PARAMS] = {
+    [SW_GP_HINGE_LEVEL] = {"hinge_level", "m"},
+    [SW_GP_INCLINATION] = {"inclination", "degrees"},
+    [SW_GP_SEAL_TOP] = {"seal_top", "m"},
+    [SW_GP_SEAL_HEIGHT] = {"seal_height", "m"},
+    [SW_GP_SEAL_WIDTH] = {"seal_width", "m"},
+    [SW_GP_DIAMETER] = {"diameter", "m"},
+    [SW_GP_LEAF_LENGTH] = {"leaf_length", "m"},
+    [SW_GP_MASS] = {"mass", "kg"},
+    [SW_GP_CG_ALONG] = {"cg_along", "m"},
+    [SW_GP_CG_OFFSET] = {"cg_offset", "m"},
+    [SW_GP_VOLUME] = {"volume", "m^3"},
+    [SW_GP_EXTRA_MOMENT] = {"extra_moment", "N*m"},
+};
+
+const char *sw_gate_param_key(sw_gate_param p)
+{
+    return p < SW_GATE_N_PARAMS ? param_info[p].key : "?";
+}
+
+const char *sw_gate_param_unit(sw_gate_param p)
+{
+    return p < SW_GATE_N_PARAMS ? param_info[p].unit : "?";
+}
+
+double *sw_gate_param_ref(sw_gate *g, sw_gate_param p)
+{
+    switch (p) {
+    case SW_GP_HINGE_LEVEL: return &g->hinge_level_m;
+    case SW_GP_INCLINATION: return &g->inclination_deg;
+    case SW_GP_SEAL_TOP: return &g->seal_top_m;
+    case SW_GP_SEAL_HEIGHT: return &g->seal_height_m;
+    case SW_GP_SEAL_WIDTH: return &g->seal_width_m;
+    case SW_GP_DIAMETER: return &g->diameter_m;
+    case SW_GP_LEAF_LENGTH: return &g->leaf_length_m;
+    case SW_GP_MASS: return &g->mass_kg;
+    case SW_GP_CG_ALONG: return &g->cg_along_m;
+    case SW_GP_CG_OFFSET: return &g->cg_offset_m;
+    case SW_GP_VOLUME: return &g->volume_m3;
+    case SW_GP_EXTRA_MOMENT:
+    case SW_GATE_N_PARAMS: break;
+    }
+    return &g->extra_moment_Nm;
+}
+
+/* The ranges of sw_gate_validate() below, key by key. */
+void sw_gate_param_range(sw_gate_param p, double *lo, double *hi,
+                         int *lo_open, int *hi_open)
+{
+    *lo_open = 0;
+    *hi_open = 0;
+    switch (p) {
+    case SW_GP_HINGE_LEVEL:
+        *lo = -MAX_LEVEL_M;
+        *hi = MAX_LEVEL_M;
+        return;
+    case SW_GP_INCLINATION:
+        *lo = 0.0;
+        *hi = 180.0;
+        *lo_open = *hi_open = 1;
+        return;
+    case SW_GP_SEAL_TOP:
+    case SW_GP_CG_ALONG:
+        *lo = 0.0;
+        *hi = MAX_SIZE_M;
+        return;
+    case SW_GP_SEAL_HEIGHT:
+    case SW_GP_SEAL_WIDTH:
+    case SW_GP_DIAMETER:
+    case SW_GP_LEAF_LENGTH:
+        *lo = MIN_SIZE_M;
+        *hi = MAX_SIZE_M;
+        return;
+    case SW_GP_MASS:
+        *lo = 0.0;
+        *hi = MAX_MASS_KG;
+        *lo_open = 1;
+        return;
+    case SW_GP_CG_OFFSET:
+        *lo = -MAX_SIZE_M;
+        *hi = MAX_SIZE_M;
+        return;
+    case SW_GP_VOLUME:
+        *lo = 0.0;
+        *hi = MAX_SIZE_M * MAX_SIZE_M * MAX_SIZE_M;
+        return;
+    case SW_GP_EXTRA_MOMENT:
+    case SW_GATE_N_PARAMS:
+        break;
+    }
+    *lo = -INFINITY;
+    *hi = INFINITY;
+    *lo_open = *hi_open = 1;
+}
+
 /* ---- validation --------------------------------------------------------- */
 
 static int bad(sw_error *err, const char **bad_key, const sw_gate *g,

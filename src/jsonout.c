@@ -2,10 +2,12 @@
 #include "sillwatch/jsonout.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "sillwatch/decimal.h"
 #include "sillwatch/report.h"
+#include "sillwatch/uncert.h"
 
 void sw_json_set(json_t *obj, const char *key, json_t *value, int *bad)
 {
@@ -76,6 +78,19 @@ static json_t *water(const sw_site_water *w)
                 w->from_temperature ? sw_json_number(w->salinity)
                                     : json_null(),
                 &bad);
+    /* standard uncertainties (X_sd): 0 where not given */
+    sw_json_set(o, "density_sd_kgm3",
+                w->from_temperature ? json_null()
+                                    : sw_json_number(w->density_sd_kgm3),
+                &bad);
+    sw_json_set(o, "temperature_sd_C",
+                w->from_temperature ? sw_json_number(w->temperature_sd_C)
+                                    : json_null(),
+                &bad);
+    sw_json_set(o, "salinity_sd",
+                w->from_temperature ? sw_json_number(w->salinity_sd)
+                                    : json_null(),
+                &bad);
     return done(o, bad);
 }
 
@@ -131,6 +146,7 @@ static json_t *series(const sw_site_series *sr)
                                       : json_null(),
                     &bad);
         sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+        sw_json_set(o, "offset_sd_m", sw_json_number(sr->offset_sd_m), &bad);
         sw_json_set(o, "quality_tests", quality_tests(&sr->qc), &bad);
         json_decref(missing); /* CSV only */
         return done(o, bad);
@@ -144,6 +160,7 @@ static json_t *series(const sw_site_series *sr)
     sw_json_set(o, "unit", json_string(sr->scale == 1.0 ? "m" : "ft"), &bad);
     sw_json_set(o, "metres_per_unit", sw_json_number(sr->scale), &bad);
     sw_json_set(o, "offset_m", sw_json_number(sr->offset_m), &bad);
+    sw_json_set(o, "offset_sd_m", sw_json_number(sr->offset_sd_m), &bad);
     sw_json_set(o, "delimiter",
                 sr->delimiter == 0     ? json_null()
                 : sr->delimiter == ';' ? json_string("semicolon")
@@ -185,6 +202,22 @@ static json_t *gate_params(const sw_site_gate *sg)
                 &bad);
     sw_json_set(o, "min_sill_reaction_N",
                 sw_json_number(g->min_sill_reaction_N), &bad);
+    /* the standard uncertainties (X_sd) under the same keys as the
+     * values; 0 where not given, null for the other shape's keys */
+    json_t *u = json_object();
+    static const char *const with_unit[SW_GATE_N_PARAMS] = {
+        "hinge_level_m", "inclination_deg", "seal_top_m", "seal_height_m",
+        "seal_width_m", "diameter_m", "leaf_length_m", "mass_kg",
+        "cg_along_m", "cg_offset_m", "volume_m3", "extra_moment_Nm"};
+    for (int p = 0; p < SW_GATE_N_PARAMS; p++) {
+        int other_shape = rect ? p == SW_GP_DIAMETER
+                               : p == SW_GP_SEAL_HEIGHT ||
+                                     p == SW_GP_SEAL_WIDTH;
+        sw_json_set(u, with_unit[p],
+                    other_shape ? json_null() : sw_json_number(sg->sd[p]),
+                    &bad);
+    }
+    sw_json_set(o, "standard_uncertainty", u, &bad);
     sw_json_set(o, "headwater_series",
                 sg->headwater[0] ? json_string(sg->headwater) : json_null(),
                 &bad);
@@ -365,4 +398,81 @@ int sw_json_write(const json_t *doc, FILE *fp, sw_error *err)
         return sw_error_set(err, SW_EOUTPUT, NULL, 0, 0,
                             "cannot write the JSON output");
     return SW_OK;
+}
+
+json_t *sw_json_uncert_keys(const sw_uncert *u)
+{
+    int bad = 0;
+    json_t *a = json_array();
+    for (size_t i = 0; i < u->n_params && a != NULL; i++) {
+        const sw_uncert_param *p = &u->params[i];
+        json_t *o = json_object();
+        sw_json_set(o, "parameter", json_string(p->name), &bad);
+        sw_json_set(o, "value", sw_json_number(p->mean), &bad);
+        sw_json_set(o, "sd", sw_json_number(p->sd), &bad);
+        sw_json_set(o, "unit", json_string(p->unit), &bad);
+        if (o == NULL || json_array_append_new(a, o) != 0)
+            bad = 1;
+    }
+    return done(a, bad);
+}
+
+/* {"p05", "p50", "p95"} of percentiles v; critical levels (crit) with
+ * -inf as not needed. */
+static json_t *pctl(const double *v, int crit)
+{
+    static const char *const key[SW_UNCERT_N_PCTL] = {"p05", "p50", "p95"};
+    int bad = 0;
+    json_t *o = json_object();
+    for (int p = 0; p < SW_UNCERT_N_PCTL; p++) {
+        sw_crit c = {isinf(v[p]) ? SW_CRIT_NOT_NEEDED : SW_CRIT_LEVEL, v[p]};
+        sw_json_set(o, key[p], crit ? sw_json_crit(&c) : sw_json_number(v[p]),
+                    &bad);
+    }
+    return done(o, bad);
+}
+
+json_t *sw_json_uncert_point(const sw_uncert *u, const sw_uncert_point *pt)
+{
+    int bad = 0;
+    json_t *o = json_object(), *sens = json_array();
+    size_t *order = malloc((pt->n_shares + 1) * sizeof *order);
+    const sw_gate *g = &u->site->gates[pt->gate].gate;
+
+    if (order == NULL)
+        bad = 1;
+    else
+        sw_uncert_point_order(pt, order);
+
+    sw_json_set(o, "gate", json_string(g->name), &bad);
+    sw_json_set(o, "fs_basis", json_string(sw_fs_basis_name(g->fs_basis)),
+                &bad);
+    sw_json_set(o, "samples", json_integer((json_int_t)pt->n), &bad);
+    sw_json_set(o, "n_open", json_integer((json_int_t)pt->n_open), &bad);
+    sw_json_set(o, "n_low", json_integer((json_int_t)pt->n_low), &bad);
+    sw_json_set(o, "p_open", sw_json_number(pt->p_open), &bad);
+    sw_json_set(o, "p_open_se", sw_json_number(pt->p_open_se), &bad);
+    sw_json_set(o, "p_low", sw_json_number(pt->p_low), &bad);
+    sw_json_set(o, "p_low_se", sw_json_number(pt->p_low_se), &bad);
+    sw_json_set(o, "p_below", sw_json_number(pt->p_below), &bad);
+    sw_json_set(o, "p_below_se", sw_json_number(pt->p_below_se), &bad);
+    sw_json_set(o, "fs", pctl(pt->fs, 0), &bad);
+    sw_json_set(o, "net_moment_Nm", pctl(pt->net_moment_Nm, 0), &bad);
+    sw_json_set(o, "tw_alarm_m", pctl(pt->tw_alarm_m, 1), &bad);
+    sw_json_set(o, "tw_open_m", pctl(pt->tw_open_m, 1), &bad);
+    for (size_t i = 0; i < pt->n_shares && sens != NULL && order != NULL;
+         i++) {
+        size_t m = order[i];
+        json_t *e = json_object();
+        sw_json_set(e, "parameter",
+                    json_string(u->params[pt->param[m]].name), &bad);
+        sw_json_set(e, "share", sw_json_number(pt->share[m]), &bad);
+        sw_json_set(e, "r2", sw_json_number(pt->r2[m]), &bad);
+        if (e == NULL || json_array_append_new(sens, e) != 0)
+            bad = 1;
+    }
+    sw_json_set(o, "sensitivity", sens, &bad);
+    sw_json_set(o, "r2_sum", sw_json_number(pt->r2_sum), &bad);
+    free(order);
+    return done(o, bad);
 }

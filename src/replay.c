@@ -17,7 +17,8 @@
 
 static const char *const out_names[SW_REPLAY_N_OUT] = {
     "summary.csv", "events.csv",  "flags.csv",   "steps.csv",
-    "months.csv",  "report.html", "summary.json"};
+    "months.csv",  "report.html", "summary.json", "samples.csv",
+    "sample_steps.csv"};
 
 struct sw_replay {
     const sw_site *site;
@@ -27,6 +28,7 @@ struct sw_replay {
     sw_html_report *rep;
     sw_event_log *log;
     sw_crit_cache **crit; /* per gate, with opt.steps */
+    const sw_samplerun *samples; /* run --samples, or NULL */
     sw_outfile out[SW_REPLAY_N_OUT];
     long points;
     int done, finished;
@@ -53,6 +55,9 @@ static int wanted(const sw_replay_options *o, int k)
         return o->report;
     case SW_REPLAY_JSON:
         return o->json;
+    case SW_REPLAY_SAMPLES:
+    case SW_REPLAY_SAMPLE_STEPS:
+        return 0; /* sw_replay_add_samples() */
     default:
         return 1;
     }
@@ -99,6 +104,25 @@ static int open_outputs(sw_replay *r, sw_error *err)
         sw_report_steps_header(r->out[SW_REPLAY_STEPS].fp);
     if (r->opt.by_month)
         sw_report_months_header(r->out[SW_REPLAY_MONTHS].fp);
+    return SW_OK;
+}
+
+int sw_replay_add_samples(sw_replay *r, const sw_samplerun *samples,
+                          sw_error *err)
+{
+    int rc;
+    r->samples = samples;
+    if ((rc = sw_outfile_open(&r->out[SW_REPLAY_SAMPLES], r->outdir,
+                              out_names[SW_REPLAY_SAMPLES], err)) != SW_OK)
+        return rc;
+    sw_samplerun_header(r->out[SW_REPLAY_SAMPLES].fp);
+    if (!r->opt.steps || samples->gates == NULL)
+        return SW_OK;
+    if ((rc = sw_outfile_open(&r->out[SW_REPLAY_SAMPLE_STEPS], r->outdir,
+                              out_names[SW_REPLAY_SAMPLE_STEPS], err)) !=
+        SW_OK)
+        return rc;
+    sw_samplerun_steps_header(r->out[SW_REPLAY_SAMPLE_STEPS].fp);
     return SW_OK;
 }
 
@@ -158,6 +182,9 @@ static void write_steps(sw_replay *r)
                            site->gates[g].gate.name, &sg->result,
                            ok ? &alarm : NULL, ok ? &open : NULL);
     }
+    if (r->out[SW_REPLAY_SAMPLE_STEPS].fp != NULL)
+        sw_samplerun_step_rows(r->out[SW_REPLAY_SAMPLE_STEPS].fp, r->samples,
+                               when, r->st);
 }
 
 /* Write what the last advance or finish exposed, and hand it to the
@@ -295,6 +322,10 @@ static int write_closing(sw_replay *r, const sw_replay_meta *meta,
     if (r->opt.json && (rc = write_json(r, meta, t0, t1, err)) != SW_OK)
         return rc;
     if (r->opt.report && (rc = write_report(r, meta, err)) != SW_OK)
+        return rc;
+    if (r->samples != NULL &&
+        (rc = sw_samplerun_write(r->out[SW_REPLAY_SAMPLES].fp, r->samples,
+                                 err)) != SW_OK)
         return rc;
     return SW_OK;
 }

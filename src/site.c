@@ -30,6 +30,7 @@
 #include <sys/stat.h>
 #include <sys/types.h>
 
+#include <gsl/gsl_cdf.h>
 #include <ini.h>
 
 /* The longest physical line read from a site file: far beyond the 200
@@ -60,7 +61,9 @@ typedef enum key_need {
     NEED_OPTIONAL,
     NEED_REQUIRED,
     NEED_RECTANGLE, /* required for shape = rectangle, refused for circle */
-    NEED_CIRCLE     /* required for shape = circle, refused for rectangle */
+    NEED_CIRCLE,    /* required for shape = circle, refused for rectangle */
+    NEED_IF_RECTANGLE, /* optional for a rectangle, refused for a circle */
+    NEED_IF_CIRCLE  /* optional for a circle, refused for a rectangle */
 } key_need;
 
 typedef struct key_def {
@@ -127,7 +130,16 @@ static const key_def site_keys[SK_COUNT] = {
                      NULL, NULL, NULL},
 };
 
-enum water_key { WK_DENSITY, WK_TEMPERATURE, WK_SALINITY, WK_COUNT };
+enum water_key {
+    WK_DENSITY, WK_TEMPERATURE, WK_SALINITY, WK_DENSITY_SD,
+    WK_TEMPERATURE_SD, WK_SALINITY_SD, WK_COUNT
+};
+
+/* A standard uncertainty X_sd (JCGM 100:2008, 2.3.1): of key X, in its
+ * unit, at least 0; it needs X in the same section. */
+#define SD_KEY(name, base, unit, need)                                     \
+    {name, KIND_NUMBER, need, unit, 0.0, INFINITY, NULL, base,             \
+     "a standard uncertainty is 0 (known exactly) or more"}
 
 static const key_def water_keys[WK_COUNT] = {
     [WK_DENSITY] = {"density", KIND_NUMBER, NEED_OPTIONAL, "kg/m^3",
@@ -142,13 +154,23 @@ static const key_def water_keys[WK_COUNT] = {
     [WK_SALINITY] = {"salinity", KIND_NUMBER, NEED_OPTIONAL, "",
                      SW_WATER_S_MIN, SW_WATER_S_MAX, NULL, "temperature",
                      "give practical salinity (sea water is about 35)"},
+    [WK_DENSITY_SD] = SD_KEY("density_sd", "density", "kg/m^3",
+                             NEED_OPTIONAL),
+    [WK_TEMPERATURE_SD] = SD_KEY("temperature_sd", "temperature",
+                                 "degrees C", NEED_OPTIONAL),
+    [WK_SALINITY_SD] = SD_KEY("salinity_sd", "salinity", "", NEED_OPTIONAL),
 };
 
 enum gate_key {
     GK_SHAPE, GK_HINGE_LEVEL, GK_INCLINATION, GK_SEAL_TOP, GK_SEAL_HEIGHT,
     GK_SEAL_WIDTH, GK_DIAMETER, GK_LEAF_LENGTH, GK_MASS, GK_CG_ALONG,
     GK_CG_OFFSET, GK_VOLUME, GK_EXTRA_MOMENT, GK_REQUIRED_FS, GK_FS_BASIS,
-    GK_MIN_SILL_REACTION, GK_HEADWATER, GK_TAILWATER, GK_COUNT
+    GK_MIN_SILL_REACTION, GK_HEADWATER, GK_TAILWATER,
+    /* standard uncertainties of the leaf's keys (sw_gate_param) */
+    GK_HINGE_LEVEL_SD, GK_INCLINATION_SD, GK_SEAL_TOP_SD, GK_SEAL_HEIGHT_SD,
+    GK_SEAL_WIDTH_SD, GK_DIAMETER_SD, GK_LEAF_LENGTH_SD, GK_MASS_SD,
+    GK_CG_ALONG_SD, GK_CG_OFFSET_SD, GK_VOLUME_SD, GK_EXTRA_MOMENT_SD,
+    GK_COUNT
 };
 
 /* Ranges of gate keys are left to sw_gate_validate(), which knows how the
@@ -191,13 +213,32 @@ static const key_def gate_keys[GK_COUNT] = {
                       NULL, NULL, NULL},
     [GK_TAILWATER] = {"tailwater", KIND_NAME, NEED_OPTIONAL, "", NO_RANGE,
                       NULL, NULL, NULL},
+    [GK_HINGE_LEVEL_SD] = SD_KEY("hinge_level_sd", "hinge_level", "m",
+                                 NEED_OPTIONAL),
+    [GK_INCLINATION_SD] = SD_KEY("inclination_sd", "inclination", "degrees",
+                                 NEED_OPTIONAL),
+    [GK_SEAL_TOP_SD] = SD_KEY("seal_top_sd", "seal_top", "m", NEED_OPTIONAL),
+    [GK_SEAL_HEIGHT_SD] = SD_KEY("seal_height_sd", "seal_height", "m",
+                                 NEED_IF_RECTANGLE),
+    [GK_SEAL_WIDTH_SD] = SD_KEY("seal_width_sd", "seal_width", "m",
+                                NEED_IF_RECTANGLE),
+    [GK_DIAMETER_SD] = SD_KEY("diameter_sd", "diameter", "m", NEED_IF_CIRCLE),
+    [GK_LEAF_LENGTH_SD] = SD_KEY("leaf_length_sd", "leaf_length", "m",
+                                 NEED_OPTIONAL),
+    [GK_MASS_SD] = SD_KEY("mass_sd", "mass", "kg", NEED_OPTIONAL),
+    [GK_CG_ALONG_SD] = SD_KEY("cg_along_sd", "cg_along", "m", NEED_OPTIONAL),
+    [GK_CG_OFFSET_SD] = SD_KEY("cg_offset_sd", "cg_offset", "m",
+                               NEED_OPTIONAL),
+    [GK_VOLUME_SD] = SD_KEY("volume_sd", "volume", "m^3", NEED_OPTIONAL),
+    [GK_EXTRA_MOMENT_SD] = SD_KEY("extra_moment_sd", "extra_moment", "N*m",
+                                  NEED_OPTIONAL),
 };
 
 enum series_key {
     RK_FILE, RK_TIME_COLUMN, RK_VALUE_COLUMN, RK_TIME_FORMAT, RK_OFFSET,
     RK_UNIT, RK_MISSING, RK_DELIMITER, RK_VALID_RANGE, RK_SPIKE, RK_MAX_RATE,
     RK_FLAT, RK_FORMAT, RK_VARIABLE, RK_MEMBER_DIMENSION, RK_STATION,
-    RK_COUNT
+    RK_OFFSET_SD, RK_COUNT
 };
 
 static const key_def series_keys[RK_COUNT] = {
@@ -210,7 +251,8 @@ static const key_def series_keys[RK_COUNT] = {
                          NO_RANGE, NULL, NULL, NULL},
     [RK_TIME_FORMAT] = {"time_format", KIND_TEXT, NEED_OPTIONAL, "",
                         NO_RANGE, NULL, NULL, NULL},
-    [RK_OFFSET] = {"offset", KIND_NUMBER, NEED_OPTIONAL, "m", -1.0e4, 1.0e4,
+    [RK_OFFSET] = {"offset", KIND_NUMBER, NEED_OPTIONAL, "m",
+                   -SW_SITE_OFFSET_MAX_M, SW_SITE_OFFSET_MAX_M,
                    NULL, NULL,
                    "give the gauge zero's elevation above the site datum, "
                    "in m"},
@@ -238,6 +280,7 @@ static const key_def series_keys[RK_COUNT] = {
                              "", NO_RANGE, NULL, NULL, NULL},
     [RK_STATION] = {"station", KIND_TEXT, NEED_OPTIONAL, "", NO_RANGE, NULL,
                     NULL, NULL},
+    [RK_OFFSET_SD] = SD_KEY("offset_sd", "offset", "m", NEED_OPTIONAL),
 };
 
 #define N_SECTION_DEFS 5
@@ -255,7 +298,7 @@ static const section_def section_defs[N_SECTION_DEFS] = {
 };
 
 /* The most keys any section has; the slot arrays are this long. */
-#define MAX_KEYS 24
+#define MAX_KEYS 32
 _Static_assert(SK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
 _Static_assert(WK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
 _Static_assert(GK_COUNT <= MAX_KEYS, "raise MAX_KEYS");
@@ -839,16 +882,35 @@ static void unknown_key(parser *p, const section *s, const char *where,
              where, name, best->name);
         return;
     }
+    char sds[200];
+    size_t used_sd = 0;
     list[0] = '\0';
-    for (size_t k = 0; k < s->def->n_keys && used < sizeof list; k++) {
-        int w = snprintf(list + used, sizeof list - used, "%s%s",
-                         k == 0 ? "" : ", ", s->def->keys[k].name);
-        if (w < 0)
-            break;
+    sds[0] = '\0';
+    for (size_t k = 0; k < s->def->n_keys; k++) {
+        const char *kn = s->def->keys[k].name;
+        size_t len = strlen(kn);
+        int w;
+        /* the uncertainties X_sd are named once, by their X */
+        if (len > 3 && strcmp(kn + len - 3, "_sd") == 0) {
+            if (used_sd < sizeof sds)
+                used_sd += (size_t)snprintf(sds + used_sd,
+                                            sizeof sds - used_sd, "%s%.*s",
+                                            used_sd == 0 ? "" : ", ",
+                                            (int)(len - 3), kn);
+            continue;
+        }
+        if (used >= sizeof list ||
+            (w = snprintf(list + used, sizeof list - used, "%s%s",
+                          k == 0 ? "" : ", ", kn)) < 0)
+            continue;
         used += (size_t)w;
     }
-    fail(p, p->lineno, col, "%s: unknown key '%.60s': the keys of %s are %s",
-         where, name, s->def->home, list);
+    fail(p, p->lineno, col,
+         "%s: unknown key '%.60s': the keys of %s are %s%s%s", where, name,
+         s->def->home, list,
+         sds[0] != '\0' ? "; and X_sd, a standard uncertainty, for X = "
+                        : "",
+         sds);
 }
 
 /* libinih's handler: one key = value line of the current section.  The
@@ -991,10 +1053,13 @@ static int check_section(parser *p, const section *s, const sw_site *site)
         const key_def *this_other = NULL;
         if (!sl->given)
             continue;
+        int rect_only = key->need == NEED_RECTANGLE ||
+                        key->need == NEED_IF_RECTANGLE;
+        int circle_only = key->need == NEED_CIRCLE ||
+                          key->need == NEED_IF_CIRCLE;
         if (shape != NULL &&
-            ((key->need == NEED_RECTANGLE &&
-              shape->shape != SW_SHAPE_RECTANGLE) ||
-             (key->need == NEED_CIRCLE && shape->shape != SW_SHAPE_CIRCLE))) {
+            ((rect_only && shape->shape != SW_SHAPE_RECTANGLE) ||
+             (circle_only && shape->shape != SW_SHAPE_CIRCLE))) {
             this_why = CONFLICT_SHAPE;
         } else if (key->excludes != NULL) {
             int o = key_index(def, key->excludes);
@@ -1110,6 +1175,32 @@ static int relocate(parser *p, const slot *sl, const char *where)
     p->status = sw_error_set(p->err, p->err->code, p->path, sl->line,
                              sl->val_col, "%s: %s", where, why);
     return p->status;
+}
+
+/* Would a normal distribution of mean x and standard deviation sd,
+ * truncated to the key's range [lo, hi] (README: draws outside are drawn
+ * again), keep so few draws that sd must be a slip of unit?  Records the
+ * problem at the X_sd key's value. */
+#define SD_MIN_KEPT 1e-3
+static int check_sd(parser *p, const slot *sd, const char *where,
+                    const char *key, const char *unit, double x, double lo,
+                    double hi)
+{
+    double kept;
+
+    if (!sd->given || sd->num == 0.0)
+        return SW_OK;
+    kept = (isinf(hi) ? 1.0 : gsl_cdf_gaussian_P(hi - x, sd->num)) -
+           (isinf(lo) ? 0.0 : gsl_cdf_gaussian_P(lo - x, sd->num));
+    if (kept >= SD_MIN_KEPT)
+        return SW_OK;
+    return fail(p, sd->line, sd->val_col,
+                "%s: key '%s_sd': %g%s%s around %g%s%s keeps under %g %% of "
+                "its draws inside the range of '%s' (%g to %g%s%s): is the "
+                "unit right?",
+                where, key, sd->num, unit[0] != '\0' ? " " : "", unit, x,
+                unit[0] != '\0' ? " " : "", unit, SD_MIN_KEPT * 100.0, key,
+                lo, hi, unit[0] != '\0' ? " " : "", unit);
 }
 
 /* Split `text` at commas and blanks into at most SW_SERIES_MAX_MISSING
@@ -1373,6 +1464,12 @@ static int build_series(parser *p, const section *s, sw_site_series *out)
                         "%s: key 'unit': '%.40s' is not m or ft", where, v);
     }
     out->offset_m = sl[RK_OFFSET].given ? sl[RK_OFFSET].num : 0.0;
+    out->offset_sd_m = sl[RK_OFFSET_SD].given ? sl[RK_OFFSET_SD].num : 0.0;
+    if (sl[RK_OFFSET].given &&
+        check_sd(p, &sl[RK_OFFSET_SD], where, "offset", "m", out->offset_m,
+                 series_keys[RK_OFFSET].min,
+                 series_keys[RK_OFFSET].max) != SW_OK)
+        return p->status;
     if (sl[RK_DELIMITER].given) {
         const char *v = sl[RK_DELIMITER].text;
         if (strcmp(v, ",") == 0 || strcmp(v, "comma") == 0)
@@ -1482,7 +1579,24 @@ static int resolve_site(parser *p, const section *s, sw_site *site)
 static int resolve_water(parser *p, const section *s, sw_site_water *water)
 {
     const slot *t = &s->slots[WK_TEMPERATURE];
+    const slot *sl = s->slots;
+    char where[96];
 
+    section_label(s, where, sizeof where);
+    water->density_sd_kgm3 = sl[WK_DENSITY_SD].given ? sl[WK_DENSITY_SD].num
+                                                     : 0.0;
+    water->temperature_sd_C =
+        sl[WK_TEMPERATURE_SD].given ? sl[WK_TEMPERATURE_SD].num : 0.0;
+    water->salinity_sd = sl[WK_SALINITY_SD].given ? sl[WK_SALINITY_SD].num
+                                                  : 0.0;
+    for (int k = WK_DENSITY; k <= WK_SALINITY; k++) {
+        const key_def *key = &water_keys[k];
+        if (sl[k].given &&
+            check_sd(p, &sl[k + (WK_DENSITY_SD - WK_DENSITY)], where,
+                     key->name, key->unit, sl[k].num, key->min,
+                     key->max) != SW_OK)
+            return p->status;
+    }
     if (s->slots[WK_DENSITY].given) {
         water->rho_kgm3 = s->slots[WK_DENSITY].num;
         return SW_OK;
@@ -1494,13 +1608,67 @@ static int resolve_water(parser *p, const section *s, sw_site_water *water)
     int rc = sw_water_density(water->temperature_C, water->salinity,
                               &water->rho_kgm3, p->err);
     if (rc != SW_OK) {
-        char where[96], why[SW_ERROR_MSG_MAX];
+        char why[SW_ERROR_MSG_MAX];
         snprintf(why, sizeof why, "%s", p->err->message);
         p->status = sw_error_set(p->err, rc, p->path, t->line, t->val_col,
-                                 "%s: %s",
-                                 section_label(s, where, sizeof where), why);
+                                 "%s: %s", where, why);
     }
     return rc;
+}
+
+/* Set the leaf's keys of `g` from value[] (sw_gate_param order; NAN: not
+ * given), with the defaults of the site file for those not given: 0 for
+ * cg_offset, volume and extra_moment, and the sill's s for leaf_length,
+ * which so follows seal_top and the seal's extent. */
+static void set_params(sw_gate *g, const double value[SW_GATE_N_PARAMS])
+{
+    for (int p = 0; p < SW_GATE_N_PARAMS; p++)
+        *sw_gate_param_ref(g, (sw_gate_param)p) =
+            isnan(value[p]) ? 0.0 : value[p];
+    if (isnan(value[SW_GP_LEAF_LENGTH]))
+        g->leaf_length_m =
+            g->seal_top_m + (g->shape == SW_SHAPE_RECTANGLE ? g->seal_height_m
+                                                            : g->diameter_m);
+}
+
+int sw_site_gate_build(const sw_site_gate *sg,
+                       const double value[SW_GATE_N_PARAMS],
+                       const double rho_kgm3[2], sw_gate *out,
+                       const char **bad_key, sw_error *err)
+{
+    int rc;
+
+    *out = sg->gate;
+    set_params(out, value);
+    out->rho_kgm3[SW_UPSTREAM] = rho_kgm3[SW_UPSTREAM];
+    out->rho_kgm3[SW_DOWNSTREAM] = rho_kgm3[SW_DOWNSTREAM];
+    if ((rc = sw_gate_validate(out, bad_key, err)) != SW_OK)
+        return rc;
+    sw_gate_prepare(out);
+    return SW_OK;
+}
+
+/* The leaf's keys of section `s` as given, and their uncertainties. */
+static int gate_values(parser *p, const section *s, const char *where,
+                       sw_site_gate *out)
+{
+    char sd_name[64];
+    for (int q = 0; q < SW_GATE_N_PARAMS; q++) {
+        const char *key = sw_gate_param_key((sw_gate_param)q);
+        const slot *v = &s->slots[key_index(s->def, key)];
+        snprintf(sd_name, sizeof sd_name, "%s_sd", key);
+        const slot *sd = &s->slots[key_index(s->def, sd_name)];
+        double lo, hi;
+        int lo_open, hi_open;
+        out->value[q] = v->given ? v->num : NAN;
+        out->sd[q] = sd->given ? sd->num : 0.0;
+        sw_gate_param_range((sw_gate_param)q, &lo, &hi, &lo_open, &hi_open);
+        if (v->given &&
+            check_sd(p, sd, where, key, sw_gate_param_unit((sw_gate_param)q),
+                     v->num, lo, hi) != SW_OK)
+            return p->status;
+    }
+    return SW_OK;
 }
 
 /* Fill in, validate and prepare the gate of section `s`. */
@@ -1510,6 +1678,9 @@ static int build_gate(parser *p, const section *s, const section *site_sec,
     const slot *sl = s->slots;
     sw_gate *g = &out->gate;
     const char *bad_key = NULL;
+    char where[96];
+    double rho[2] = {site->water[SW_UPSTREAM].rho_kgm3,
+                     site->water[SW_DOWNSTREAM].rho_kgm3};
     int rc;
 
     memset(out, 0, sizeof *out);
@@ -1520,26 +1691,11 @@ static int build_gate(parser *p, const section *s, const section *site_sec,
              sl[GK_HEADWATER].given ? sl[GK_HEADWATER].text : "");
     snprintf(out->tailwater, sizeof out->tailwater, "%.63s",
              sl[GK_TAILWATER].given ? sl[GK_TAILWATER].text : "");
+    if (gate_values(p, s, section_label(s, where, sizeof where), out) !=
+        SW_OK)
+        return p->status;
 
     g->shape = sl[GK_SHAPE].shape;
-    g->hinge_level_m = sl[GK_HINGE_LEVEL].num;
-    g->inclination_deg = sl[GK_INCLINATION].num;
-    g->seal_top_m = sl[GK_SEAL_TOP].num;
-    g->seal_height_m = sl[GK_SEAL_HEIGHT].given ? sl[GK_SEAL_HEIGHT].num : 0;
-    g->seal_width_m = sl[GK_SEAL_WIDTH].given ? sl[GK_SEAL_WIDTH].num : 0;
-    g->diameter_m = sl[GK_DIAMETER].given ? sl[GK_DIAMETER].num : 0;
-    if (sl[GK_LEAF_LENGTH].given)
-        g->leaf_length_m = sl[GK_LEAF_LENGTH].num;
-    else
-        g->leaf_length_m =
-            g->seal_top_m + (g->shape == SW_SHAPE_RECTANGLE ? g->seal_height_m
-                                                            : g->diameter_m);
-    g->mass_kg = sl[GK_MASS].num;
-    g->cg_along_m = sl[GK_CG_ALONG].num;
-    g->cg_offset_m = sl[GK_CG_OFFSET].given ? sl[GK_CG_OFFSET].num : 0;
-    g->volume_m3 = sl[GK_VOLUME].given ? sl[GK_VOLUME].num : 0;
-    g->extra_moment_Nm = sl[GK_EXTRA_MOMENT].given ? sl[GK_EXTRA_MOMENT].num
-                                                   : 0;
     g->required_fs = sl[GK_REQUIRED_FS].given ? sl[GK_REQUIRED_FS].num
                                               : site->required_fs;
     g->fs_basis = sl[GK_FS_BASIS].given ? sl[GK_FS_BASIS].basis
@@ -1547,11 +1703,9 @@ static int build_gate(parser *p, const section *s, const section *site_sec,
     g->min_sill_reaction_N = sl[GK_MIN_SILL_REACTION].given
                                  ? sl[GK_MIN_SILL_REACTION].num
                                  : site->min_sill_reaction_N;
-    g->rho_kgm3[SW_UPSTREAM] = site->water[SW_UPSTREAM].rho_kgm3;
-    g->rho_kgm3[SW_DOWNSTREAM] = site->water[SW_DOWNSTREAM].rho_kgm3;
     g->g_ms2 = site->g_ms2;
 
-    rc = sw_gate_validate(g, &bad_key, p->err);
+    rc = sw_site_gate_build(out, out->value, rho, g, &bad_key, p->err);
     if (rc != SW_OK) {
         /* Point at the value that failed: in the gate's section; in [site]
          * for a value the gate takes from there; else at the header. */
@@ -1573,7 +1727,6 @@ static int build_gate(parser *p, const section *s, const section *site_sec,
         p->status = rc;
         return rc;
     }
-    sw_gate_prepare(g);
     return SW_OK;
 }
 

@@ -5,6 +5,9 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "sillwatch/cancel.h"
+#include "sillwatch/uncert.h"
+
 /* Which sw_limit each of a gate's two values belongs to. */
 static const sw_limit limit_of[SW_THRESHOLDS_N_LIMITS] = {SW_LIMIT_ALARM,
                                                           SW_LIMIT_OPEN};
@@ -21,6 +24,11 @@ static const sw_limit limit_of[SW_THRESHOLDS_N_LIMITS] = {SW_LIMIT_ALARM,
  * refinement is heavy. */
 #define FINE_BUDGET 1600000
 #define FINE_MAX_LEVELS 200000
+/* With samples, each fine level costs a search per sample and curve: the
+ * budget counts those (16 million: 2000 levels of three gates at 1000
+ * samples, some seconds on two cores), and keeps at least a few levels. */
+#define SAMPLED_BUDGET 16000000.0
+#define SAMPLED_MIN_LEVELS 16
 /* A simplification gives up when refinement has doubled the fine grid:
  * the curves are too rough for the tolerance (in practice refinement adds
  * a few levels at each change of kind and each steep start). */
@@ -47,6 +55,14 @@ struct sw_thresholds {
     size_t *rows;               /* indices into the fine levels */
     size_t n_steps;
     sw_thresholds_step *steps;
+
+    /* with samples (sw_thresholds_set_samples) */
+    const sw_gate *samples;     /* [n_samples][n_gates] */
+    const double *dhw, *dtw;    /* [n_samples][n_gates] */
+    size_t n_samples;
+    double confidence;
+    unsigned workers;
+    double *sample_vals;        /* [2 n_gates][n_samples], scratch */
 };
 
 /* ---- ranges -------------------------------------------------------------- */
@@ -212,11 +228,81 @@ static double govern(const sw_thresholds *t, const double *v, int k,
 /* Every curve at level x: v[2 g + k] for gate g and limit k, then the
  * governing values v[2 n_gates + k].  NAN where the value is not a level
  * ("not needed" by headwater, "none" by tailwater: one kind per axis). */
+/* One level's searches in the samples [begin, end) (sample_curves). */
+typedef struct sample_level {
+    const sw_thresholds *t;
+    double x;
+} sample_level;
+
+static int sample_chunk(size_t begin, size_t end, unsigned worker, void *ctx,
+                        sw_error *err)
+{
+    const sample_level *sl = ctx;
+    const sw_thresholds *t = sl->t;
+    size_t ng = t->n_gates, ns = t->n_samples;
+    int by_hw = t->axis == SW_THRESHOLDS_BY_HEADWATER;
+    (void)worker;
+
+    for (size_t s = begin; s < end; s++)
+        for (size_t g = 0; g < ng; g++) {
+            const sw_gate *gate = &t->samples[s * ng + g];
+            double dhw = t->dhw[s * ng + g], dtw = t->dtw[s * ng + g];
+            for (int k = 0; k < SW_THRESHOLDS_N_LIMITS; k++) {
+                sw_crit c;
+                /* the row's level as its gauge shows it, made true by the
+                 * sample's datum; the value given back as the other
+                 * gauge would show it */
+                int rc = by_hw ? sw_gate_critical_tailwater(
+                                     gate, sl->x + dhw, limit_of[k], &c, err)
+                               : sw_gate_critical_headwater(
+                                     gate, sl->x + dtw, limit_of[k], &c, err);
+                if (rc != SW_OK)
+                    return rc;
+                t->sample_vals[(2 * g + (size_t)k) * ns + s] =
+                    c.kind != SW_CRIT_LEVEL ? -INFINITY
+                    : by_hw                 ? c.level_m - dtw
+                                            : c.level_m - dhw;
+            }
+        }
+    return SW_OK;
+}
+
+/* Each gate's curves at level x over the samples: the upper confidence
+ * quantile of the critical tailwaters (by headwater), the lower one of the
+ * critical headwaters (by tailwater); NAN where not a level. */
+static int sample_curves(const sw_thresholds *t, double x, double *v,
+                         sw_error *err)
+{
+    sample_level sl = {t, x};
+    int by_hw = t->axis == SW_THRESHOLDS_BY_HEADWATER;
+    int rc;
+
+    if ((rc = sw_cancel_check(err)) != SW_OK ||
+        (rc = sw_uncert_parallel(t->n_samples, t->workers, sample_chunk, &sl,
+                                 err)) != SW_OK)
+        return rc;
+    for (size_t c = 0; c < 2 * t->n_gates; c++) {
+        double q = sw_uncert_crit_quantile(
+            t->sample_vals + c * t->n_samples, t->n_samples,
+            by_hw ? t->confidence : 1.0 - t->confidence, by_hw);
+        v[c] = isinf(q) ? NAN : q;
+    }
+    return SW_OK;
+}
+
 static int eval_curves(const sw_thresholds *t, double x, double *v,
                        sw_error *err)
 {
     size_t g0 = 2 * t->n_gates, gate;
     int rc;
+
+    if (t->samples != NULL) {
+        if ((rc = sample_curves(t, x, v, err)) != SW_OK)
+            return rc;
+        for (int k = 0; k < SW_THRESHOLDS_N_LIMITS; k++)
+            v[g0 + (size_t)k] = govern(t, v, k, &gate);
+        return SW_OK;
+    }
 
     for (size_t g = 0; g < t->n_gates; g++)
         for (int k = 0; k < SW_THRESHOLDS_N_LIMITS; k++) {
@@ -306,7 +392,37 @@ void sw_thresholds_free(sw_thresholds *t)
     free(t->point_vals);
     free(t->rows);
     free(t->steps);
+    free(t->sample_vals);
     free(t);
+}
+
+int sw_thresholds_set_samples(sw_thresholds *t, const sw_gate *samples,
+                              const double *dhw_m, const double *dtw_m,
+                              size_t n_samples, double confidence,
+                              unsigned workers, sw_error *err)
+{
+    if (!(confidence > 0.0 && confidence < 1.0))
+        return sw_error_set(err, SW_EUSAGE, NULL, 0, 0,
+                            "the confidence must lie between 0 and 1, not "
+                            "%g",
+                            confidence);
+    if (n_samples == 0 || samples == NULL)
+        return sw_error_set(err, SW_EUSAGE, NULL, 0, 0,
+                            "a table with a confidence needs samples");
+    free(t->sample_vals);
+    t->sample_vals = calloc(2 * t->n_gates * n_samples, sizeof *t->sample_vals);
+    if (t->sample_vals == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0,
+                            "out of memory for %zu samples of a threshold "
+                            "table",
+                            n_samples);
+    t->samples = samples;
+    t->dhw = dhw_m;
+    t->dtw = dtw_m;
+    t->n_samples = n_samples;
+    t->confidence = confidence;
+    t->workers = workers;
+    return SW_OK;
 }
 
 size_t sw_thresholds_n_rows(const sw_thresholds *t)
@@ -732,6 +848,15 @@ int sw_thresholds_simplify(sw_thresholds *t, double tol_m,
     h_u = t->range.step_u / 10;
     h_u = h_u > 10 ? 10 : (h_u < 1 ? 1 : h_u);
     max_levels = FINE_BUDGET / t->n_curves;
+    if (t->samples != NULL) {
+        double by_samples =
+            SAMPLED_BUDGET / ((double)t->n_curves * (double)t->n_samples);
+        max_levels = by_samples < (double)SAMPLED_MIN_LEVELS
+                         ? SAMPLED_MIN_LEVELS
+                         : by_samples < (double)max_levels
+                               ? (size_t)by_samples
+                               : max_levels;
+    }
     if (max_levels > FINE_MAX_LEVELS)
         max_levels = FINE_MAX_LEVELS;
     if (span_u / h_u + 1 > (int64_t)max_levels)

@@ -92,6 +92,34 @@ typedef struct sw_gate_result {
     sw_state state;
 } sw_gate_result;
 
+/* The numeric keys of a gate that describe the leaf (the site file's
+ * names), in this order wherever a gate's parameters are listed: those a
+ * site file may give a standard uncertainty (`mass_sd`, see site.h).  The
+ * margins asked of a gate (required_fs, min_sill_reaction) are not among
+ * them: they are choices, not measurements. */
+typedef enum sw_gate_param {
+    SW_GP_HINGE_LEVEL = 0, SW_GP_INCLINATION, SW_GP_SEAL_TOP,
+    SW_GP_SEAL_HEIGHT, SW_GP_SEAL_WIDTH, SW_GP_DIAMETER, SW_GP_LEAF_LENGTH,
+    SW_GP_MASS, SW_GP_CG_ALONG, SW_GP_CG_OFFSET, SW_GP_VOLUME,
+    SW_GP_EXTRA_MOMENT, SW_GATE_N_PARAMS
+} sw_gate_param;
+
+/* The site file's key of parameter p ("hinge_level", ...) and its unit
+ * ("m", "degrees", "kg", "m^3", "N*m"). */
+const char *sw_gate_param_key(sw_gate_param p);
+const char *sw_gate_param_unit(sw_gate_param p);
+
+/* The field of `gate` that holds parameter p. */
+double *sw_gate_param_ref(sw_gate *gate, sw_gate_param p);
+
+/* The range sw_gate_validate() accepts for parameter p on its own, before
+ * the rules between parameters (the seal within the leaf, the centre of
+ * gravity on it, the moment bounds): [lo, hi], with an open end where
+ * *lo_open or *hi_open is 1 (an inclination in (0, 180), a mass > 0); an
+ * end may be infinite (extra_moment). */
+void sw_gate_param_range(sw_gate_param p, double *lo, double *hi,
+                         int *lo_open, int *hi_open);
+
 /* Check the parameters of `gate` for physical sense (sizes and mass > 0,
  * 0 < inclination < 180, the seal within the leaf, the centre of gravity on
  * the leaf, required_fs >= 1, densities and gravity set ...).  Returns SW_OK,

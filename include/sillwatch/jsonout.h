@@ -51,6 +51,19 @@ json_t *sw_json_point_gate(const sw_gate *g, const sw_gate_result *r,
                            const sw_crit *tw_alarm, const sw_crit *tw_open,
                            const sw_crit *hw_alarm, const sw_crit *hw_open);
 
+/* The uncertain keys of a sampled result: [{"parameter", "value", "sd",
+ * "unit"}, ...] in draw order. */
+struct sw_uncert;
+struct sw_uncert_point;
+json_t *sw_json_uncert_keys(const struct sw_uncert *u);
+
+/* One gate over the samples at one pair of levels (point --samples
+ * --format json): proportions with standard errors, percentiles as
+ * {"p05", "p50", "p95"} (critical tailwaters: null where not needed), the
+ * net moment's sensitivity shares largest first. */
+json_t *sw_json_uncert_point(const struct sw_uncert *u,
+                             const struct sw_uncert_point *pt);
+
 /* One row of summary.csv as an object. */
 json_t *sw_json_summary_row(const char *gate, sw_time_ms start,
                             sw_time_ms end, const sw_tally *t,

@@ -24,6 +24,7 @@
 #include <stddef.h>
 
 #include "sillwatch/error.h"
+#include "sillwatch/samplerun.h"
 #include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
 
@@ -50,7 +51,8 @@ typedef struct sw_replay_meta {
 /* The outputs of a replay, in the order of the set. */
 enum {
     SW_REPLAY_SUMMARY, SW_REPLAY_EVENTS, SW_REPLAY_FLAGS, SW_REPLAY_STEPS,
-    SW_REPLAY_MONTHS, SW_REPLAY_REPORT, SW_REPLAY_JSON, SW_REPLAY_N_OUT
+    SW_REPLAY_MONTHS, SW_REPLAY_REPORT, SW_REPLAY_JSON, SW_REPLAY_SAMPLES,
+    SW_REPLAY_SAMPLE_STEPS, SW_REPLAY_N_OUT
 };
 
 /* The file name of output k (SW_REPLAY_*): "summary.csv" ... */
@@ -64,6 +66,15 @@ typedef struct sw_replay sw_replay; /* opaque */
 int sw_replay_open(sw_replay **replay, const sw_site *site,
                    const char *outdir, const sw_replay_options *opt,
                    sw_error *err);
+
+/* Add the sampled replays of the site (run --samples; samplerun.h, done
+ * before and outliving the session) to the set: their statistics go to
+ * samples.csv and, with the `steps` option and the samples' gates kept,
+ * the fraction of samples low and open at each point to sample_steps.csv.
+ * Call after sw_replay_open() and before the first sw_replay_feed().
+ * Errors: SW_EOUTPUT. */
+int sw_replay_add_samples(sw_replay *replay, const sw_samplerun *samples,
+                          sw_error *err);
 
 /* Advance the replay by at most `max_points` timeline points, writing
  * what each exposes; *done becomes 1 when every series has ended (then

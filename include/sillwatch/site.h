@@ -18,6 +18,13 @@
  *                      offset, unit, missing, delimiter, and the quality
  *                      tests valid_range, spike, max_rate, flat
  *
+ * and standard uncertainties (JCGM 100:2008, the GUM's term) in keys named
+ * after the key they qualify plus "_sd", in its unit: every numeric key of
+ * a gate's leaf (sw_gate_param: mass_sd, cg_along_sd, ...), a water's
+ * density_sd or temperature_sd and salinity_sd, and a series' offset_sd
+ * (its gauge's datum).  A key X_sd needs X in the same section and is at
+ * least 0; 0 means "known exactly".
+ *
  * Every value is checked on load; the first problem found is reported with
  * the file, line and column where it stands (or, for a missing key, the
  * line of the section that lacks it).
@@ -34,6 +41,8 @@
 #include "sillwatch/timeutil.h"
 
 #define SW_SITE_NAME_MAX 64
+/* The range of a series' offset, m (its key's check). */
+#define SW_SITE_OFFSET_MAX_M 1.0e4
 
 /* How a water's density was given. */
 typedef struct sw_site_water {
@@ -41,6 +50,10 @@ typedef struct sw_site_water {
     double temperature_C;   /* valid when from_temperature */
     double salinity;        /* valid when from_temperature; default 0 */
     double rho_kgm3;        /* the density in use, either way */
+    /* Standard uncertainties; 0 where not given (known exactly). */
+    double density_sd_kgm3;     /* with density */
+    double temperature_sd_C;    /* with temperature */
+    double salinity_sd;         /* with salinity */
 } sw_site_water;
 
 /* One gate as the site file gives it. */
@@ -49,6 +62,12 @@ typedef struct sw_site_gate {
     long line;                          /* line of its [gate NAME] header */
     char headwater[SW_SITE_NAME_MAX];   /* series name, "" if not given */
     char tailwater[SW_SITE_NAME_MAX];   /* series name, "" if not given */
+    double value[SW_GATE_N_PARAMS];     /* the leaf's keys as given; NAN
+                                           where not given (the default
+                                           applies) */
+    double sd[SW_GATE_N_PARAMS];        /* their standard uncertainties
+                                           (X_sd, same unit); 0 where not
+                                           given */
 } sw_site_gate;
 
 /* One level series: a column of a CSV file. */
@@ -63,6 +82,9 @@ typedef struct sw_site_series {
     char delimiter;                     /* 0: detect; ',' ';' '\t' */
     double scale;                       /* metres per unit: 1 or 0.3048 */
     double offset_m;                    /* gauge zero above site datum */
+    double offset_sd_m;                 /* its standard uncertainty: the
+                                           survey of the gauge's datum;
+                                           0 where not given */
     size_t n_missing;
     char missing[SW_SERIES_MAX_MISSING][SW_SERIES_TOKEN_MAX];
     sw_qc_config qc;                    /* its quality tests (levels in m
@@ -115,6 +137,19 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err);
  * must outlive them). */
 void sw_site_series_reader(const sw_site *site, const sw_site_series *s,
                            sw_reader_config *cfg, sw_column_config *col);
+
+/* The gate of `sg` (a gate of a loaded site) with its leaf's keys set to
+ * value[] (sw_gate_param order, as sg->value: NAN where a key is not
+ * given, so that its default applies and follows the other keys, as on
+ * loading: leaf_length is then the sill's s) and the waters' densities
+ * rho_kgm3[sw_side]; checked by sw_gate_validate() and prepared, into
+ * *out.  The one way a gate is made from its keys: sw_site_load() uses it
+ * with the keys as given.  Returns SW_OK, or SW_ESITE (*bad_key, when not
+ * NULL, names the key at fault; the message has no file position). */
+int sw_site_gate_build(const sw_site_gate *sg,
+                       const double value[SW_GATE_N_PARAMS],
+                       const double rho_kgm3[2], sw_gate *out,
+                       const char **bad_key, sw_error *err);
 
 /* Release what sw_site_load() allocated.  Safe on an empty or failed site
  * and on NULL. */

@@ -181,6 +181,37 @@ void sw_thresholds_free(sw_thresholds *t);
 int sw_thresholds_simplify(sw_thresholds *t, double tol_m,
                            sw_thresholds_fit *fit, sw_error *err);
 
+/* Publish, instead of each gate's critical levels, the levels that hold
+ * with probability `confidence` (0 < confidence < 1) over samples of the
+ * gates (uncert.h):
+ *   samples[s * n_gates + g]  gate g of sample s (the table's gates, in
+ *                             the table's order), prepared;
+ *   dhw_m, dtw_m[s * n_gates + g]  the datum shifts of its headwater and
+ *                             tailwater gauges in sample s (0: none).
+ * The row levels are read as the gauges show them (the true level of
+ * sample s is level + shift), and each value is given back as its gauge
+ * would show it (less the shift).  By headwater, a gate's value is the
+ * upper `confidence`-quantile of its critical tailwaters over the samples
+ * (the tailwater above which the limit holds in that fraction of them),
+ * "not needed" where that quantile needs none; by tailwater, the lower
+ * one of its critical headwaters (quantile 1 - confidence), "none" where
+ * that quantile has none.  Quantiles by definition 7 of Hyndman and Fan
+ * (sw_uncert_crit_quantile: between "not needed" and a level, the
+ * level).  The governing value is chosen over the gates' quantiles as
+ * before: it holds for each gate with that probability, not for all of
+ * them at once.  Rounding and simplification then work on these curves;
+ * the simplification's fine grid is coarser, its budget being counted in
+ * sample evaluations.  Each level's samples are searched on `workers`
+ * threads; the values do not depend on their number.  The arrays must
+ * outlive the table.  Call before sw_thresholds_simplify() or the first
+ * row.  Returns SW_OK, or SW_EUSAGE for a bad confidence or no samples.
+ * While sampled, the row and simplification calls may also return
+ * SW_EINTERRUPTED (a stop request, cancel.h) and SW_ENOMEM. */
+int sw_thresholds_set_samples(sw_thresholds *t, const sw_gate *samples,
+                              const double *dhw_m, const double *dtw_m,
+                              size_t n_samples, double confidence,
+                              unsigned workers, sw_error *err);
+
 /* Rows in the table: the range's levels, or the breakpoints. */
 size_t sw_thresholds_n_rows(const sw_thresholds *t);
 

@@ -986,6 +986,129 @@ static void test_validation_errors(void **state)
                  5, 1, "gate 'G1': key 'leaf_length'");
 }
 
+/* ---- standard uncertainties (X_sd) --------------------------------------- */
+
+static void test_sd_keys_read(void **state)
+{
+    sw_site site;
+    (void)state;
+    load_ok("[water upstream]\n"
+            "temperature = 9.35\n"
+            "temperature_sd = 1.25\n"
+            "salinity = 0.4\n"
+            "salinity_sd = 0.15\n"
+            "[water downstream]\n"
+            "density = 1003.25\n"
+            "density_sd = 2.75\n"
+            G_HEAD G_SHAPE G_HINGE G_INCL G_TOP G_HEIGHT G_WIDTH G_MASS G_CG
+            G_FS
+            "mass_sd = 61.5\n"
+            "cg_along_sd = 0.0235\n"
+            "hinge_level_sd = 0\n"
+            "[series up]\n"
+            "file = up.csv\n"
+            "value_column = v\n"
+            "offset = 1.385\n"
+            "offset_sd = 0.012\n",
+            &site);
+    assert_close(site.water[SW_UPSTREAM].temperature_sd_C, 1.25, 0);
+    assert_close(site.water[SW_UPSTREAM].salinity_sd, 0.15, 0);
+    assert_close(site.water[SW_UPSTREAM].density_sd_kgm3, 0.0, 0);
+    assert_close(site.water[SW_DOWNSTREAM].density_sd_kgm3, 2.75, 0);
+    assert_close(site.water[SW_DOWNSTREAM].temperature_sd_C, 0.0, 0);
+    const sw_site_gate *g = &site.gates[0];
+    assert_close(g->sd[SW_GP_MASS], 61.5, 0);
+    assert_close(g->sd[SW_GP_CG_ALONG], 0.0235, 0);
+    assert_close(g->sd[SW_GP_HINGE_LEVEL], 0.0, 0);
+    assert_close(g->sd[SW_GP_VOLUME], 0.0, 0);
+    /* the keys as given, NAN where not given */
+    assert_close(g->value[SW_GP_MASS], 1843.6, 0);
+    assert_true(isnan(g->value[SW_GP_LEAF_LENGTH]));
+    assert_true(isnan(g->value[SW_GP_DIAMETER]));
+    assert_close(site.series[0].offset_sd_m, 0.012, 0);
+    sw_site_fini(&site);
+}
+
+/* sw_site_gate_build: the gate made from other values of its keys follows
+ * the defaults as loading does (leaf_length = the sill's s when not
+ * given), and with the keys as given it is the loaded gate, bit for bit. */
+static void test_gate_build(void **state)
+{
+    sw_site site;
+    sw_gate g;
+    sw_error err;
+    const char *bad = NULL;
+    double v[SW_GATE_N_PARAMS];
+    (void)state;
+
+    load_ok(WATER GATE_G1, &site);
+    const sw_site_gate *sg = &site.gates[0];
+    double rho[2] = {sg->gate.rho_kgm3[0], sg->gate.rho_kgm3[1]};
+    assert_int_equal(sw_site_gate_build(sg, sg->value, rho, &g, &bad, &err),
+                     SW_OK);
+    assert_memory_equal(&g, &sg->gate, sizeof g);
+
+    memcpy(v, sg->value, sizeof v);
+    v[SW_GP_SEAL_HEIGHT] = 1.9125;
+    v[SW_GP_MASS] = 1702.25;
+    rho[SW_DOWNSTREAM] = 1012.5;
+    assert_int_equal(sw_site_gate_build(sg, v, rho, &g, &bad, &err), SW_OK);
+    assert_close(g.leaf_length_m, 0.215 + 1.9125, 1e-15);
+    assert_close(g.s_sill_m, 0.215 + 1.9125, 1e-15);
+    assert_close(g.rho_kgm3[SW_DOWNSTREAM], 1012.5, 0);
+    /* derived again: weight_moment = m g cg_along cos a (model document) */
+    assert_close(g.weight_moment_Nm,
+                 1702.25 * g.g_ms2 * 1.105 * cos(72.5 * pi / 180.0), 1e-12);
+
+    /* a value that breaks a rule between keys: the centre of gravity off
+     * the leaf */
+    v[SW_GP_CG_ALONG] = 2.5;
+    assert_int_equal(sw_site_gate_build(sg, v, rho, &g, &bad, &err),
+                     SW_ESITE);
+    assert_string_equal(bad, "cg_along");
+    sw_site_fini(&site);
+}
+
+static void test_sd_key_errors(void **state)
+{
+    (void)state;
+    /* negative */
+    expect_error(WATER GATE_G1 "mass_sd = -61.5\n", 15, 11,
+                 "gate 'G1': key 'mass_sd': -61.5 is below 0 kg: a standard "
+                 "uncertainty is 0 (known exactly) or more");
+    /* X_sd without X (cg_offset defaults to 0, but must be given) */
+    expect_error(WATER GATE_G1 "cg_offset_sd = 0.01\n", 15, 1,
+                 "gate 'G1': key 'cg_offset_sd' needs 'cg_offset': add "
+                 "cg_offset, or remove cg_offset_sd");
+    expect_error("[water upstream]\n"
+                 "density = 999.7\n"
+                 "temperature_sd = 0.5\n" /* 3 */
+                 "[water downstream]\n"
+                 "density = 1003.25\n" GATE_G1,
+                 3, 1, "key 'temperature_sd' needs 'temperature'");
+    expect_error(WATER GATE_G1 "[series up]\nfile = up.csv\nvalue_column = "
+                 "v\noffset_sd = 0.01\n", /* 18 */
+                 18, 1, "series 'up': key 'offset_sd' needs 'offset'");
+    /* a near miss */
+    expect_error(WATER GATE_G1 "mass_ds = 61.5\n", 15, 1,
+                 "unknown key 'mass_ds': did you mean 'mass_sd'?");
+    /* the other shape's key */
+    expect_error(WATER GATE_G1 "diameter_sd = 0.01\n", 15, 1,
+                 "key 'diameter_sd' does not apply to a rectangle");
+    /* so wide that the key's range keeps almost no draw: a slip of unit
+     * (N(1843.6, 1e13) keeps (1e9 - 0) / (1e13 sqrt(2 pi)) = 4e-5 of its
+     * draws inside 0 to 1e9 kg) */
+    expect_error(WATER GATE_G1 "mass_sd = 1e13\n", 15, 11,
+                 "keeps under 0.1 % of its draws inside the range of "
+                 "'mass' (0 to 1e+09 kg)");
+    expect_error("[water upstream]\n"
+                 "density = 999.7\n"
+                 "density_sd = 1e5\n" /* 3 */
+                 "[water downstream]\n"
+                 "density = 1003.25\n" GATE_G1,
+                 3, 14, "key 'density_sd'");
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -1027,6 +1150,9 @@ int main(void)
         cmocka_unit_test(test_replay_keys),
         cmocka_unit_test(test_qc_keys),
         cmocka_unit_test(test_validation_errors),
+        cmocka_unit_test(test_sd_keys_read),
+        cmocka_unit_test(test_gate_build),
+        cmocka_unit_test(test_sd_key_errors),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -7,7 +7,9 @@
 
 #include <string.h>
 
+#include <gsl/gsl_cdf.h>
 #include <gsl/gsl_errno.h>
+#include <gsl/gsl_randist.h>
 #include <gsl/gsl_rng.h>
 
 #include "sillwatch/thresholds.h"
@@ -689,6 +691,331 @@ static void test_simplify_single_level_and_errors(void **state)
     sw_thresholds_free(t);
 }
 
+/* ---- with a confidence (samples) ------------------------------------------- */
+
+/* Samples made here, by hand, with GSL's normal draws: n copies of the
+ * chamber's gates (mass of each drawn when mass_sd > 0), and the datum
+ * shifts dhw, dtw of every gate drawn with the given standard deviations
+ * (one draw per sample, shared by the gates, as a gauge's datum is). */
+typedef struct sampled {
+    size_t n, n_gates;
+    sw_gate *g;
+    double *dhw, *dtw;
+} sampled;
+
+static void make_samples(sampled *sm, const gate_set *set, size_t n,
+                         double mass_sd, double hw_sd, double tw_sd,
+                         unsigned long seed)
+{
+    gsl_rng *r = gsl_rng_alloc(gsl_rng_mt19937);
+    assert_non_null(r);
+    gsl_rng_set(r, seed);
+    sm->n = n;
+    sm->n_gates = set->n;
+    sm->g = calloc(n * set->n, sizeof *sm->g);
+    sm->dhw = calloc(n * set->n, sizeof *sm->dhw);
+    sm->dtw = calloc(n * set->n, sizeof *sm->dtw);
+    assert_true(sm->g != NULL && sm->dhw != NULL && sm->dtw != NULL);
+    for (size_t s = 0; s < n; s++) {
+        double a = hw_sd > 0 ? gsl_ran_gaussian(r, hw_sd) : 0.0;
+        double b = tw_sd > 0 ? gsl_ran_gaussian(r, tw_sd) : 0.0;
+        for (size_t g = 0; g < set->n; g++) {
+            sw_gate *x = &sm->g[s * set->n + g];
+            *x = set->g[g];
+            if (mass_sd > 0) {
+                x->mass_kg += gsl_ran_gaussian(r, mass_sd);
+                sw_gate_prepare(x);
+            }
+            sm->dhw[s * set->n + g] = a;
+            sm->dtw[s * set->n + g] = b;
+        }
+    }
+    gsl_rng_free(r);
+}
+
+static void free_samples(sampled *sm)
+{
+    free(sm->g);
+    free(sm->dhw);
+    free(sm->dtw);
+}
+
+static sw_thresholds *sampled_table(const gate_set *set, const sampled *sm,
+                                    sw_thresholds_axis axis,
+                                    const char *range, double p,
+                                    unsigned workers)
+{
+    sw_thresholds *t;
+    sw_error err;
+    sw_thresholds_range r = range_of(range);
+    assert_int_equal(sw_thresholds_alloc(&t, set->p, set->n, axis, &r, &err),
+                     SW_OK);
+    assert_int_equal(sw_thresholds_set_samples(t, sm->g, sm->dhw, sm->dtw,
+                                               sm->n, p, workers, &err),
+                     SW_OK);
+    return t;
+}
+
+/* Only the tailwater gauge's datum is uncertain (sd 0.02 m): every
+ * sample's true critical tailwater is the gate's own, c(hw), and the gauge
+ * shows it at c - d with d ~ N(0, sd).  The upper P-quantile of c - d is
+ * c + z_P sd, z_P the standard normal's P-quantile
+ * (gsl_cdf_ugaussian_Pinv); a sample quantile has the standard error
+ * sqrt(P (1 - P) / n) / phi(z_P) * sd (the asymptotic variance of a sample
+ * quantile: from memory).  By tailwater, with the headwater gauge's datum
+ * uncertain, the lower P-quantile of c - d is c - z_P sd. */
+static void test_confidence_datum_analytic(void **state)
+{
+    gate_set set;
+    sampled sm;
+    sw_error err;
+    const size_t n = 4000;
+    const double sd = 0.02, p = 0.9;
+    double z = gsl_cdf_ugaussian_Pinv(p);
+    double se = sqrt(p * (1 - p) / (double)n) / gsl_ran_ugaussian_pdf(z) * sd;
+    (void)state;
+
+    make_set(&set, chamber, 3);
+    for (int axis = 0; axis < 2; axis++) {
+        int by_hw = axis == SW_THRESHOLDS_BY_HEADWATER;
+        const char *range = by_hw ? "11.6:12.6:0.05" : "10.9:11.9:0.05";
+        make_samples(&sm, &set, n, 0.0, by_hw ? 0.0 : sd, by_hw ? sd : 0.0,
+                     1234);
+        sw_thresholds *t =
+            sampled_table(&set, &sm, (sw_thresholds_axis)axis, range, p, 2);
+        size_t checked = 0;
+        for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
+            const sw_thresholds_row *row;
+            assert_int_equal(sw_thresholds_get_row(t, i, &row, &err), SW_OK);
+            for (size_t g = 0; g < set.n; g++)
+                for (int k = 0; k < 2; k++) {
+                    sw_crit c;
+                    assert_int_equal(
+                        by_hw ? sw_gate_critical_tailwater(
+                                    set.p[g], row->level_m,
+                                    k == 0 ? SW_LIMIT_ALARM : SW_LIMIT_OPEN,
+                                    &c, &err)
+                              : sw_gate_critical_headwater(
+                                    set.p[g], row->level_m,
+                                    k == 0 ? SW_LIMIT_ALARM : SW_LIMIT_OPEN,
+                                    &c, &err),
+                        SW_OK);
+                    const sw_crit *got = &row->crit[2 * g + (size_t)k];
+                    if (c.kind != SW_CRIT_LEVEL || got->kind != SW_CRIT_LEVEL)
+                        continue;
+                    double want = by_hw ? c.level_m + z * sd
+                                        : c.level_m - z * sd;
+                    /* + 0.1 mm: the published value is rounded */
+                    assert_close_abs(got->level_m, want, 4.0 * se + 1e-4);
+                    checked++;
+                }
+        }
+        assert_true(checked > 20);
+        sw_thresholds_free(t);
+        free_samples(&sm);
+    }
+}
+
+/* A symmetric case: only the masses uncertain (normal, sd 40 kg), so the
+ * critical tailwater, monotone in the mass, has its median at the median
+ * mass, whose sample estimate is off by about sqrt(pi/2) sd / sqrt(n)
+ * (the standard error of a normal sample's median: from memory).  At
+ * confidence 0.5 the table is the deterministic one within that, carried
+ * through the slope d crit / d mass (measured here on the model), and the
+ * 0.1 mm of rounding. */
+static void test_confidence_half_symmetric(void **state)
+{
+    gate_set set, light, heavy;
+    sampled sm;
+    sw_error err;
+    const size_t n = 4000;
+    const double sd = 40.0;
+    (void)state;
+
+    make_set(&set, chamber, 3);
+    make_set(&light, chamber, 3);
+    make_set(&heavy, chamber, 3);
+    for (size_t g = 0; g < 3; g++) {
+        light.g[g].mass_kg -= 1.0;
+        heavy.g[g].mass_kg += 1.0;
+        sw_gate_prepare(&light.g[g]);
+        sw_gate_prepare(&heavy.g[g]);
+    }
+    make_samples(&sm, &set, n, sd, 0.0, 0.0, 99);
+    sw_thresholds *t = sampled_table(&set, &sm, SW_THRESHOLDS_BY_HEADWATER,
+                                     "11.7:12.6:0.05", 0.5, 3);
+    size_t checked = 0;
+    for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
+        const sw_thresholds_row *row;
+        assert_int_equal(sw_thresholds_get_row(t, i, &row, &err), SW_OK);
+        for (size_t g = 0; g < 3; g++) {
+            sw_crit c, cl, ch;
+            const sw_crit *got = &row->crit[2 * g + SW_THRESHOLDS_ALARM];
+            assert_int_equal(sw_gate_critical_tailwater(set.p[g], row->level_m,
+                                                        SW_LIMIT_ALARM, &c,
+                                                        &err),
+                             SW_OK);
+            assert_int_equal(sw_gate_critical_tailwater(&light.g[g],
+                                                        row->level_m,
+                                                        SW_LIMIT_ALARM, &cl,
+                                                        &err),
+                             SW_OK);
+            assert_int_equal(sw_gate_critical_tailwater(&heavy.g[g],
+                                                        row->level_m,
+                                                        SW_LIMIT_ALARM, &ch,
+                                                        &err),
+                             SW_OK);
+            if (c.kind != SW_CRIT_LEVEL || cl.kind != SW_CRIT_LEVEL ||
+                ch.kind != SW_CRIT_LEVEL)
+                continue;
+            assert_int_equal(got->kind, SW_CRIT_LEVEL);
+            double slope = fabs(ch.level_m - cl.level_m) / 2.0;
+            double tol = 4.0 * sqrt(acos(-1.0) / 2.0) * sd /
+                             sqrt((double)n) * slope +
+                         2e-4;
+            assert_close_abs(got->level_m, c.level_m, tol);
+            checked++;
+        }
+    }
+    assert_true(checked > 20);
+    sw_thresholds_free(t);
+    free_samples(&sm);
+}
+
+/* Every sample the same gates, no datum: the table is the deterministic
+ * one, row for row (grid), and simplified with few samples (where the
+ * fine grid's budget in sample evaluations allows the same fine grid);
+ * and the number of workers changes nothing. */
+static void test_confidence_zero_uncertainty(void **state)
+{
+    gate_set set;
+    sampled sm;
+    sw_error err;
+    sw_thresholds_fit fa, fb;
+    sw_thresholds_range r = range_of("11.3:12.6:0.01");
+    (void)state;
+
+    make_set(&set, chamber, 3);
+    make_samples(&sm, &set, 8, 0.0, 0.0, 0.0, 1);
+    for (int simplify = 0; simplify < 2; simplify++) {
+        sw_thresholds *a, *b;
+        assert_int_equal(sw_thresholds_alloc(&a, set.p, set.n,
+                                             SW_THRESHOLDS_BY_HEADWATER, &r,
+                                             &err),
+                         SW_OK);
+        b = sampled_table(&set, &sm, SW_THRESHOLDS_BY_HEADWATER,
+                          "11.3:12.6:0.01", 0.95, 2);
+        if (simplify) {
+            assert_int_equal(sw_thresholds_simplify(a, 0.005, &fa, &err),
+                             SW_OK);
+            assert_int_equal(sw_thresholds_simplify(b, 0.005, &fb, &err),
+                             SW_OK);
+            assert_int_equal(fa.n_fine, fb.n_fine);
+            assert_true(fa.max_error_m == fb.max_error_m);
+        }
+        assert_int_equal(sw_thresholds_n_rows(a), sw_thresholds_n_rows(b));
+        for (size_t i = 0; i < sw_thresholds_n_rows(a); i++) {
+            const sw_thresholds_row *ra, *rb;
+            sw_crit ca[8];
+            assert_int_equal(sw_thresholds_get_row(a, i, &ra, &err), SW_OK);
+            memcpy(ca, ra->crit, 6 * sizeof *ca);
+            double la = ra->level_m;
+            sw_crit ga[2] = {ra->governing[0], ra->governing[1]};
+            assert_int_equal(sw_thresholds_get_row(b, i, &rb, &err), SW_OK);
+            assert_true(la == rb->level_m);
+            for (size_t c = 0; c < 6; c++) {
+                assert_int_equal(ca[c].kind, rb->crit[c].kind);
+                if (ca[c].kind == SW_CRIT_LEVEL)
+                    assert_true(ca[c].level_m == rb->crit[c].level_m);
+            }
+            for (int k = 0; k < 2; k++)
+                assert_int_equal(ga[k].kind, rb->governing[k].kind);
+        }
+        sw_thresholds_free(a);
+        sw_thresholds_free(b);
+    }
+    free_samples(&sm);
+}
+
+/* The signs of the datums, with every sample shifted alike: a gauge whose
+ * datum lies d higher than given shows every level d too low, so at a row
+ * of headwater x as its gauge shows it the true headwater is x + dhw, and
+ * the tailwater gauge shows the true critical tailwater c less dtw. */
+static void test_confidence_fixed_shifts(void **state)
+{
+    gate_set set;
+    sampled sm;
+    sw_error err;
+    const double dhw = 0.0217, dtw = 0.0123;
+    (void)state;
+
+    make_set(&set, chamber, 3);
+    make_samples(&sm, &set, 5, 0.0, 0.0, 0.0, 1);
+    for (size_t i = 0; i < 5 * 3; i++) {
+        sm.dhw[i] = dhw;
+        sm.dtw[i] = dtw;
+    }
+    sw_thresholds *t = sampled_table(&set, &sm, SW_THRESHOLDS_BY_HEADWATER,
+                                     "11.8:12.4:0.1", 0.9, 2);
+    for (size_t i = 0; i < sw_thresholds_n_rows(t); i++) {
+        const sw_thresholds_row *row;
+        assert_int_equal(sw_thresholds_get_row(t, i, &row, &err), SW_OK);
+        for (size_t g = 0; g < 3; g++) {
+            sw_crit c;
+            assert_int_equal(sw_gate_critical_tailwater(set.p[g],
+                                                        row->level_m + dhw,
+                                                        SW_LIMIT_ALARM, &c,
+                                                        &err),
+                             SW_OK);
+            assert_int_equal(c.kind, SW_CRIT_LEVEL);
+            assert_close_abs(row->crit[2 * g].level_m, c.level_m - dtw,
+                             1e-4 + 1e-12);
+        }
+    }
+    sw_thresholds_free(t);
+    free_samples(&sm);
+}
+
+/* The same samples on 1 and 3 workers: the same rows, bit for bit. */
+static void test_confidence_workers(void **state)
+{
+    gate_set set;
+    sampled sm;
+    sw_error err;
+    (void)state;
+
+    make_set(&set, chamber, 3);
+    make_samples(&sm, &set, 301, 25.0, 0.01, 0.015, 5);
+    sw_thresholds *a = sampled_table(&set, &sm, SW_THRESHOLDS_BY_TAILWATER,
+                                     "10.9:11.9:0.02", 0.95, 1);
+    sw_thresholds *b = sampled_table(&set, &sm, SW_THRESHOLDS_BY_TAILWATER,
+                                     "10.9:11.9:0.02", 0.95, 3);
+    for (size_t i = 0; i < sw_thresholds_n_rows(a); i++) {
+        const sw_thresholds_row *ra, *rb;
+        sw_crit ca[6];
+        assert_int_equal(sw_thresholds_get_row(a, i, &ra, &err), SW_OK);
+        memcpy(ca, ra->crit, sizeof ca);
+        assert_int_equal(sw_thresholds_get_row(b, i, &rb, &err), SW_OK);
+        assert_memory_equal(ca, rb->crit, sizeof ca);
+    }
+    sw_thresholds_free(a);
+    sw_thresholds_free(b);
+    /* a confidence outside (0, 1) */
+    sw_thresholds *t;
+    sw_thresholds_range r = range_of("11:12:0.5");
+    assert_int_equal(sw_thresholds_alloc(&t, set.p, set.n,
+                                         SW_THRESHOLDS_BY_HEADWATER, &r, &err),
+                     SW_OK);
+    assert_int_equal(sw_thresholds_set_samples(t, sm.g, sm.dhw, sm.dtw, sm.n,
+                                               1.0, 1, &err),
+                     SW_EUSAGE);
+    assert_int_equal(sw_thresholds_set_samples(t, sm.g, sm.dhw, sm.dtw, 0,
+                                               0.9, 1, &err),
+                     SW_EUSAGE);
+    sw_thresholds_free(t);
+    free_samples(&sm);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -704,6 +1031,11 @@ int main(void)
         cmocka_unit_test(test_simplify_linear_stretch),
         cmocka_unit_test(test_simplify_capped_fine_grid),
         cmocka_unit_test(test_simplify_single_level_and_errors),
+        cmocka_unit_test(test_confidence_datum_analytic),
+        cmocka_unit_test(test_confidence_half_symmetric),
+        cmocka_unit_test(test_confidence_zero_uncertainty),
+        cmocka_unit_test(test_confidence_fixed_shifts),
+        cmocka_unit_test(test_confidence_workers),
     };
     gsl_set_error_handler_off();
     return cmocka_run_group_tests(tests, NULL, NULL);
