@@ -102,6 +102,8 @@ static const char usage_text[] =
     "                     tailwater a headwater-only forecast needs\n"
     "  thresholds SITE.ini (--headwater | --tailwater) FROM:TO:STEP -o FILE\n"
     "                     write a table of alarm thresholds for controllers\n"
+    "  watch SITE.ini -o D  follow the level files as they grow; alarms as\n"
+    "                     states change; 'run's outputs kept up to date in D\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -355,6 +357,7 @@ int main(int argc, char **argv)
         {"run", sw_cmd_run, 1},
         {"screen", sw_cmd_screen, 1},
         {"thresholds", sw_cmd_thresholds, 1},
+        {"watch", sw_cmd_watch, 1},
     };
 
     /* Failures are reported through status codes, never by abort(). */
