@@ -89,13 +89,20 @@ $(BUILD)/tests/test_decimal_x87: tests/unit/test_decimal.c src/decimal.c tests/u
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -mfpmath=387 -Itests/unit -o $@ tests/unit/test_decimal.c src/decimal.c $(LDFLAGS) $(TEST_LIBS) -lm $(EXTRA_LDFLAGS)
 
+# The live watch's property test (tests/watch/watchchaos.c): writes a
+# season in bursts while it kills and restarts the watch.
+WATCHCHAOS := $(BUILD)/tests/watchchaos
+$(WATCHCHAOS): tests/watch/watchchaos.c | $(DEPS_OK)
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< -lm $(EXTRA_LDFLAGS)
+
 # The NetCDF cases' file writer (tests/netcdf/mknc.c, netCDF C library).
 MKNC      := $(BUILD)/tests/mknc
 $(MKNC): tests/netcdf/mknc.c | $(DEPS_OK)
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) $(LDFLAGS) -o $@ $< $(shell pkg-config --libs netcdf 2>/dev/null || echo -lnetcdf)
 
-check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT) $(MKNC)
+check: $(PROG) $(UNIT_BIN) $(X87_TEST) $(PNGSTAT) $(MKNC) $(WATCHCHAOS)
 	@tools/run-tests.sh $(BUILD) $(UNIT_BIN) $(X87_TEST)
 
 bench: $(BENCH_BIN) $(PROG)

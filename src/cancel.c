@@ -6,6 +6,9 @@
 /* The library's one piece of global state: written by a signal handler,
  * read by every thread (sig_atomic_t, volatile: see cancel.h). */
 static volatile sig_atomic_t requested;
+/* Set and read by the main thread only (and read by the reading threads
+ * it starts): no signal handler touches it. */
+static volatile sig_atomic_t held;
 
 void sw_cancel_request(int sig)
 {
@@ -14,16 +17,26 @@ void sw_cancel_request(int sig)
 
 int sw_cancel_requested(void)
 {
-    return (int)requested;
+    return held ? 0 : (int)requested;
 }
 
 int sw_cancel_check(sw_error *err)
 {
-    int sig = (int)requested;
+    int sig = held ? 0 : (int)requested;
     if (sig == 0)
         return SW_OK;
     return sw_error_set(err, SW_EINTERRUPTED, NULL, 0, 0,
                         "interrupted by signal %d", sig);
+}
+
+void sw_cancel_hold(int on)
+{
+    held = on != 0;
+}
+
+int sw_cancel_pending(void)
+{
+    return (int)requested;
 }
 
 void sw_cancel_reset(void)

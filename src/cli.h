@@ -198,5 +198,6 @@ int sw_cmd_run(int argc, char **argv);
 int sw_cmd_screen(int argc, char **argv);
 int sw_cmd_thresholds(int argc, char **argv);
 int sw_cmd_fleet(int argc, char **argv);
+int sw_cmd_watch(int argc, char **argv);
 
 #endif

@@ -104,6 +104,8 @@ static const char usage_text[] =
     "                     write a table of alarm thresholds for controllers\n"
     "  fleet DIR... -o FILE  put the summaries of many sites' runs (their\n"
     "                     output folders) in one table\n"
+    "  watch SITE.ini -o D  follow the level files as they grow; alarms as\n"
+    "                     states change; 'run's outputs kept up to date in D\n"
     "\n"
     "Run 'sillwatch COMMAND --help' for a command's options.\n"
     "\n"
@@ -399,6 +401,7 @@ int main(int argc, char **argv)
         {"screen", sw_cmd_screen, 1},
         {"thresholds", sw_cmd_thresholds, 1},
         {"fleet", sw_cmd_fleet, 1},
+        {"watch", sw_cmd_watch, 1},
     };
 
     /* Failures are reported through status codes, never by abort(). */

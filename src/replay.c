@@ -24,6 +24,7 @@ struct sw_replay {
     const sw_site *site;
     const char *outdir;
     sw_replay_options opt;
+    sw_replay_follow fol;
     sw_stepper *st;
     sw_html_report *rep;
     sw_event_log *log;
@@ -69,10 +70,14 @@ static int alloc_parts(sw_replay *r, sw_error *err)
     const sw_site *site = r->site;
     /* the report draws every point and sums the months */
     sw_stepper_options sopt = {r->opt.by_month || r->opt.report,
-                               r->opt.steps || r->opt.report};
+                               r->opt.steps || r->opt.report ||
+                                   r->fol.points};
     int rc;
 
-    if ((rc = sw_stepper_alloc(&r->st, site, &sopt, err)) != SW_OK ||
+    if ((rc = sw_stepper_alloc(&r->st, site, &sopt, err)) == SW_OK &&
+        r->fol.changes)
+        sw_stepper_list_changes(r->st);
+    if (rc != SW_OK ||
         (r->opt.report &&
          (rc = sw_html_report_alloc(&r->rep, site, err)) != SW_OK) ||
         (rc = sw_event_log_alloc(&r->log, site->n_gates, err)) != SW_OK)
@@ -130,6 +135,14 @@ int sw_replay_open(sw_replay **replay, const sw_site *site,
                    const char *outdir, const sw_replay_options *opt,
                    sw_error *err)
 {
+    return sw_replay_open_following(replay, site, outdir, opt, NULL, err);
+}
+
+int sw_replay_open_following(sw_replay **replay, const sw_site *site,
+                             const char *outdir,
+                             const sw_replay_options *opt,
+                             const sw_replay_follow *follow, sw_error *err)
+{
     sw_replay *r = calloc(1, sizeof *r);
     int rc;
 
@@ -140,6 +153,8 @@ int sw_replay_open(sw_replay **replay, const sw_site *site,
     r->outdir = outdir;
     if (opt != NULL)
         r->opt = *opt;
+    if (follow != NULL)
+        r->fol = *follow;
     if ((rc = alloc_parts(r, err)) != SW_OK ||
         (rc = open_outputs(r, err)) != SW_OK) {
         sw_replay_free(r);
@@ -156,7 +171,10 @@ static void write_flags(sw_replay *r)
     size_t n = sw_stepper_flags(r->st, &fl);
     for (size_t i = 0; i < n; i++) {
         const sw_site_series *sr = sw_stepper_series(r->st, fl[i].series);
-        sw_report_flag_row(r->out[SW_REPLAY_FLAGS].fp, sr->name, sr->path,
+        const char *path = r->fol.shown_paths != NULL
+                               ? r->fol.shown_paths[sr - r->site->series]
+                               : sr->path;
+        sw_report_flag_row(r->out[SW_REPLAY_FLAGS].fp, sr->name, path,
                            &fl[i].reading, r->site->zone);
         if (r->rep != NULL)
             sw_html_report_flag(r->rep, sr, &fl[i].reading);
@@ -222,6 +240,8 @@ static int write_point(sw_replay *r, sw_error *err)
         return rc;
     if (r->opt.steps)
         write_steps(r);
+    if (r->fol.hook != NULL)
+        return r->fol.hook(r->fol.hook_ctx, r->st, err);
     return SW_OK;
 }
 

@@ -55,6 +55,8 @@ typedef struct series_state {
     sample prev;            /* last valid sample at or before T0 */
     int have_last;
     sw_time_ms last_t;      /* last valid sample read (gap counting) */
+    int have_before_last;
+    sw_time_ms before_last_t; /* the valid sample before last_t */
     int known;              /* known over the interval being settled */
     int memo_set;           /* the level last asked for: the gates that */
     sw_time_ms memo_t;      /* share this series ask for the same */
@@ -137,6 +139,7 @@ typedef struct gate_state {
     sw_time_ms month_start, month_next;
     int month_open;
     sw_step_gate at;
+    int booked;              /* the state of the last piece booked */
 } gate_state;
 
 struct sw_stepper {
@@ -158,6 +161,9 @@ struct sw_stepper {
     int passed;              /* the last advance passed a point */
     sw_stepper_flag *flags;  /* flagged readings found by the last advance */
     size_t n_flags, cap_flags;
+    int list_changes;        /* sw_stepper_list_changes() was called */
+    sw_state_change *changes; /* state changes booked by the last advance */
+    size_t n_changes, cap_changes;
 };
 
 /* An advance returns early, passing no point, once it has found this many
@@ -540,6 +546,7 @@ static void init_gate(gate_state *g, const sw_gate *gate)
                      : 0.0;
     g->run.min_fs = INFINITY;
     g->month.min_fs = INFINITY;
+    g->booked = SW_STATE_UNKNOWN;
 }
 
 int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
@@ -629,6 +636,7 @@ void sw_stepper_free(sw_stepper *st)
         sw_qc_free(st->series[i].qc);
     }
     free(st->flags);
+    free(st->changes);
     free(st->timeline.items);
     free(st->readers);
     free(st->series);
@@ -652,6 +660,8 @@ static void count_gap(const sw_stepper *st, series_state *s, sw_time_ms t)
             s->gaps.longest_start = s->last_t;
         }
     }
+    s->have_before_last = s->have_last;
+    s->before_last_t = s->last_t;
     s->have_last = 1;
     s->last_t = t;
 }
@@ -965,6 +975,38 @@ static int roll_month(sw_stepper *st, gate_state *g, size_t gi, sw_time_ms t,
     return SW_OK;
 }
 
+/* List a change of gate g's booking to `state` at a, with the levels
+ * and the factor of safety there (pa: the point evaluated at a, if any). */
+static int push_change(sw_stepper *st, gate_state *g, sw_time_ms a,
+                       int state, const point *pa, sw_error *err)
+{
+    sw_state_change c = {(size_t)(g - st->gates), a, g->booked, state, NAN,
+                         NAN, NAN};
+    if (st->n_changes == st->cap_changes) {
+        size_t cap = st->cap_changes ? 2 * st->cap_changes : 16;
+        sw_state_change *grown = realloc(st->changes, cap * sizeof *grown);
+        if (grown == NULL)
+            return nomem(err);
+        st->changes = grown;
+        st->cap_changes = cap;
+    }
+    if (state != SW_STATE_UNKNOWN) {
+        sw_gate_result r;
+        if (pa != NULL && pa->t == a) {
+            r = pa->r;
+        } else { /* inside the interval being settled: levels are linear */
+            double hw = level_at(&st->series[g->hw], a);
+            double tw = level_at(&st->series[g->tw], a);
+            sw_gate_evaluate(g->gate, hw, tw, &r);
+        }
+        c.hw_m = r.headwater_m;
+        c.tw_m = r.tailwater_m;
+        c.fs = r.fs;
+    }
+    st->changes[st->n_changes++] = c;
+    return SW_OK;
+}
+
 /* Book [a, b) in state `state` (SW_STATE_UNKNOWN for no data); pa and pb
  * are the evaluated ends (NULL when unknown). */
 static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
@@ -973,6 +1015,12 @@ static int account(sw_stepper *st, gate_state *g, sw_time_ms a, sw_time_ms b,
     sw_time_ms d = b - a;
     int rc = SW_OK;
 
+    if (d > 0 && state != g->booked) {
+        if (st->list_changes &&
+            (rc = push_change(st, g, a, state, pa, err)) != SW_OK)
+            return rc;
+        g->booked = state;
+    }
     if (state == SW_STATE_UNKNOWN) {
         g->run.not_evaluated += d;
         g->month.not_evaluated += d;
@@ -1303,6 +1351,7 @@ int sw_stepper_advance(sw_stepper *st, int *done, sw_error *err)
     st->n_events = 0;
     st->n_months = 0;
     st->n_flags = 0;
+    st->n_changes = 0;
     st->passed = 0;
     *done = 0;
     for (;;) {
@@ -1348,6 +1397,7 @@ int sw_stepper_finish(sw_stepper *st, sw_error *err)
 
     st->n_events = 0;
     st->n_months = 0;
+    st->n_changes = 0;
     st->now = st->span_end;
     st->passed = 1; /* the last point is exposed again */
     for (size_t gi = 0; gi < st->n_gates; gi++) {
@@ -1427,6 +1477,42 @@ const sw_gap_stats *sw_stepper_gap_stats(const sw_stepper *st, size_t i)
 }
 
 int sw_stepper_passed(const sw_stepper *st) { return st->passed; }
+
+void sw_stepper_list_changes(sw_stepper *st) { st->list_changes = 1; }
+
+size_t sw_stepper_changes(const sw_stepper *st,
+                          const sw_state_change **changes)
+{
+    *changes = st->changes;
+    return st->n_changes;
+}
+
+int sw_stepper_final_until(const sw_stepper *st, sw_time_ms *t)
+{
+    int any = 0;
+    for (size_t i = 0; i < st->n_series; i++) {
+        const series_state *s = &st->series[i];
+        /* the spike test may yet flag the newest reading, once the next
+         * one comes: the reading before it is the last settled one */
+        int spike = s->def->qc.spike_m > 0.0;
+        int have = spike ? s->have_before_last : s->have_last;
+        sw_time_ms ti = spike ? s->before_last_t : s->last_t;
+        if (!have)
+            return 0;
+        if (!any || ti < *t)
+            *t = ti;
+        any = 1;
+    }
+    return any;
+}
+
+int sw_stepper_newest_reading(const sw_stepper *st, size_t i, sw_time_ms *t)
+{
+    if (i >= st->n_series || !st->series[i].have_last)
+        return 0;
+    *t = st->series[i].last_t;
+    return 1;
+}
 
 int sw_stepper_no_data_error(const sw_stepper *st, sw_error *err)
 {

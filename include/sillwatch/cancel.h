@@ -5,8 +5,8 @@
  * terminal) wait at most SW_CANCEL_POLL_MS at a time and its long loops
  * call sw_cancel_check(), so that a signal is noticed well within half a
  * second.  The request is process-wide (one flag of type sig_atomic_t:
- * the one state a signal handler may set); it is the library's only
- * global state.
+ * the one state a signal handler may set); with the flag that holds it
+ * back (sw_cancel_hold), it is the library's only global state.
  */
 #ifndef SILLWATCH_CANCEL_H
 #define SILLWATCH_CANCEL_H
@@ -26,6 +26,15 @@ int sw_cancel_requested(void);
 /* SW_OK, or SW_EINTERRUPTED (message: "interrupted by signal N") when a
  * stop was requested. */
 int sw_cancel_check(sw_error *err);
+
+/* Hold requests back (on = 1) while a batch of work must finish whole (a
+ * live watch's poll: the mirrors, the replay, the checkpoint): meanwhile
+ * sw_cancel_requested() and sw_cancel_check() see no request, which is
+ * kept and seen again once released (on = 0).  The main thread only. */
+void sw_cancel_hold(int on);
+
+/* The signal number of a request, held back or not (0: none). */
+int sw_cancel_pending(void);
 
 /* Forget a request (for tests). */
 void sw_cancel_reset(void);

@@ -28,6 +28,13 @@
 #include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
 
+/* Called after each advance of the engine that passed a point, and once
+ * more after its finish, for a caller that follows what the engine
+ * exposes (sw_stepper_changes(), sw_stepper_gate_at()).  Returns SW_OK or
+ * an error that ends the session's call. */
+typedef int (*sw_replay_hook)(void *ctx, const sw_stepper *stepper,
+                              sw_error *err);
+
 /* Which outputs besides summary.csv, events.csv and flags.csv. */
 typedef struct sw_replay_options {
     int steps;    /* steps.csv: every gate at every point, with tw_alarm
@@ -37,6 +44,19 @@ typedef struct sw_replay_options {
     int report;   /* report.html */
     int json;     /* summary.json */
 } sw_replay_options;
+
+/* For a caller that follows the replay as it goes (a live watch). */
+typedef struct sw_replay_follow {
+    sw_replay_hook hook; /* NULL: none */
+    void *hook_ctx;
+    int points;   /* the engine keeps each gate's result at every point
+                     (sw_stepper_gate_at) */
+    int changes;  /* the engine lists state changes (sw_stepper_changes) */
+    const char *const *shown_paths; /* per site series (index as in
+                     site->series): the file flags.csv names in place of
+                     the series' path (which is a copy read in its
+                     stead); NULL: the paths */
+} sw_replay_follow;
 
 /* What the outputs record of their making. */
 typedef struct sw_replay_meta {
@@ -75,6 +95,13 @@ int sw_replay_open(sw_replay **replay, const sw_site *site,
  * Errors: SW_EOUTPUT. */
 int sw_replay_add_samples(sw_replay *replay, const sw_samplerun *samples,
                           sw_error *err);
+
+/* sw_replay_open() for a caller that follows the replay (`follow` may be
+ * NULL: the same as sw_replay_open()). */
+int sw_replay_open_following(sw_replay **replay, const sw_site *site,
+                             const char *outdir,
+                             const sw_replay_options *opt,
+                             const sw_replay_follow *follow, sw_error *err);
 
 /* Advance the replay by at most `max_points` timeline points, writing
  * what each exposes; *done becomes 1 when every series has ended (then

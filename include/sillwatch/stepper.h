@@ -93,6 +93,21 @@ typedef struct sw_stepper_options {
     int keep_points;          /* fill sw_step_gate.result at each point */
 } sw_stepper_options;
 
+/* A change of the state a gate's time is booked in (SW_STATE_OK, LOW,
+ * OPEN, or SW_STATE_UNKNOWN where its levels are unknown), at the instant
+ * the new booking begins.  Changes are located to a second, an uncertain
+ * second being booked in the worse state: a change into trouble is at the
+ * start of that second, a change out of it at its end.  A gate's first
+ * booking is a change from SW_STATE_UNKNOWN unless it is unknown too. */
+typedef struct sw_state_change {
+    size_t gate;              /* index into site->gates */
+    sw_time_ms t;
+    int from, to;             /* sw_state or SW_STATE_UNKNOWN */
+    double hw_m, tw_m;        /* the levels at t (NAN where `to` is
+                                 SW_STATE_UNKNOWN) */
+    double fs;                /* the factor of safety at those levels */
+} sw_state_change;
+
 /* A reading that failed a quality test of its series (index as for
  * sw_stepper_series): removed like a missing reading. */
 typedef struct sw_stepper_flag {
@@ -138,6 +153,30 @@ const sw_step_gate *sw_stepper_gate_at(const sw_stepper *stepper, size_t gate);
 size_t sw_stepper_events(const sw_stepper *stepper, const sw_event **events);
 size_t sw_stepper_months(const sw_stepper *stepper,
                          const sw_month_row **months);
+
+/* List the gates' state changes from now on (call before the first
+ * advance; off by default). */
+void sw_stepper_list_changes(sw_stepper *stepper);
+
+/* The state changes booked by the last advance (when listed, see
+ * sw_stepper_list_changes(); none otherwise), each gate's in time
+ * order. */
+size_t sw_stepper_changes(const sw_stepper *stepper,
+                          const sw_state_change **changes);
+
+/* The instant up to which nothing the replay booked can change when each
+ * level file gets more rows, later than its last: the least, over the
+ * series in use, of its newest reading that joined the timeline (for a
+ * series with the spike test, of the reading before that one, whose
+ * verdict no later reading can change).  Returns 1 and sets *t, or 0 when
+ * some series has no such reading.  Read it after the replay's last
+ * advance. */
+int sw_stepper_final_until(const sw_stepper *stepper, sw_time_ms *t);
+
+/* The newest reading of series i that joined the timeline (valid, not
+ * flagged): returns 1 and sets *t, or 0 when it has none. */
+int sw_stepper_newest_reading(const sw_stepper *stepper, size_t i,
+                              sw_time_ms *t);
 
 /* Whether the last advance passed a timeline point. */
 int sw_stepper_passed(const sw_stepper *stepper);

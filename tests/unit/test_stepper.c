@@ -724,6 +724,279 @@ static void test_wide_file_one_reader(void **state)
     sw_site_fini(&site);
 }
 
+/* ---- state changes and the final instant -------------------------------- */
+
+#define MAX_CHANGES 512
+
+typedef struct change_run {
+    sw_state_change c[MAX_CHANGES];
+    size_t n;
+    int has_final;
+    sw_time_ms final_until;
+    sw_tally tally[2];
+    sw_event events[64];
+    size_t n_events;
+    sw_time_ms start, end;
+} change_run;
+
+/* Replay site.ini listing the state changes. */
+static void run_changes(change_run *out)
+{
+    char path[128];
+    sw_site site;
+    sw_stepper *st = NULL;
+    sw_stepper_options opt = {0, 0};
+    sw_error err;
+    int done = 0;
+
+    memset(out, 0, sizeof *out);
+    snprintf(path, sizeof path, "%s/site.ini", sw_test_dir());
+    assert_int_equal(sw_site_load(&site, path, &err), SW_OK);
+    assert_int_equal(sw_stepper_alloc(&st, &site, &opt, &err), SW_OK);
+    sw_stepper_list_changes(st);
+    for (int last = 0; !last;) {
+        if (!done)
+            assert_int_equal(sw_stepper_advance(st, &done, &err), SW_OK);
+        if (done) {
+            assert_int_equal(sw_stepper_finish(st, &err), SW_OK);
+            last = 1;
+        }
+        const sw_state_change *c;
+        const sw_event *ev;
+        size_t n = sw_stepper_changes(st, &c);
+        for (size_t i = 0; i < n; i++) {
+            assert_true(out->n < MAX_CHANGES);
+            out->c[out->n++] = c[i];
+        }
+        n = sw_stepper_events(st, &ev);
+        for (size_t i = 0; i < n; i++) {
+            assert_true(out->n_events < 64);
+            out->events[out->n_events++] = ev[i];
+        }
+    }
+    out->has_final = sw_stepper_final_until(st, &out->final_until);
+    for (size_t g = 0; g < site.n_gates && g < 2; g++)
+        out->tally[g] = *sw_stepper_tally(st, g);
+    sw_stepper_span(st, &out->start, &out->end);
+    sw_stepper_free(st);
+    sw_site_fini(&site);
+}
+
+/* The changes of a tidal day with a gap (two gates, many changes): the
+ * time between them, by state, is exactly each gate's tally; every event
+ * begins with a change into low or open and ends with one out of it; the
+ * levels at each change are the file's, interpolated linearly (computed
+ * here from the rows, not by the library). */
+static void test_changes_add_up(void **state)
+{
+    (void)state;
+    enum { N = 97 };
+    char csv[N * 64 + 64], *q = csv;
+    double hw[N], tw[N];
+    change_run r;
+
+    q += sprintf(q, "time,hw,tw\n");
+    for (int i = 0; i < N; i++) {
+        double h = i * 0.25;
+        char a[32], b[32];
+        sprintf(a, "%.4f", 11.64 + 0.05 * sin(h / 5.0) + 0.003 * sin(7.7 * h));
+        sprintf(b, "%.4f", 11.35 + 0.6 * sin(6.283185307 * h / 12.42));
+        hw[i] = atof(a);
+        tw[i] = atof(b);
+        if (i >= 40 && i < 46)
+            continue; /* 1 h 45 min without rows: a gap over max_gap */
+        q += sprintf(q, "2025-04-01T%02d:%02d:00Z,%s,%s\n", (i * 15) / 60,
+                     (i * 15) % 60, a, b);
+    }
+    sw_test_write("l.csv", csv);
+    sw_test_write("site.ini",
+                  "[site]\nrequired_fs = 1.5\nmin_sill_reaction = 300\n"
+                  "max_gap = 1h\n"
+                  "[water upstream]\ntemperature = 9\n"
+                  "[water downstream]\ntemperature = 12.5\nsalinity = 8\n"
+                  "[series hw]\nfile = l.csv\nvalue_column = hw\n"
+                  "[series tw]\nfile = l.csv\nvalue_column = tw\n"
+                  "[gate west]\nshape = rectangle\nhinge_level = 12.4\n"
+                  "inclination = 80\nseal_top = 0.15\nseal_height = 1.4\n"
+                  "seal_width = 1.6\nleaf_length = 1.65\nmass = 1450\n"
+                  "cg_along = 0.86\nvolume = 0.185\nextra_moment = 4200\n"
+                  "headwater = hw\ntailwater = tw\n"
+                  "[gate bypass]\nshape = circle\nhinge_level = 11.95\n"
+                  "inclination = 75\nseal_top = 0.12\ndiameter = 0.9\n"
+                  "leaf_length = 1.1\nmass = 420\ncg_along = 0.55\n"
+                  "volume = 0.054\nextra_moment = 700\n"
+                  "headwater = hw\ntailwater = tw\n");
+    run_changes(&r);
+    assert_true(r.n >= 8);
+    for (size_t g = 0; g < 2; g++) {
+        sw_time_ms booked[4] = {0, 0, 0, 0}, from = r.start;
+        int cur = SW_STATE_UNKNOWN, n_g = 0;
+        for (size_t i = 0; i < r.n; i++) {
+            const sw_state_change *c = &r.c[i];
+            if (c->gate != g)
+                continue;
+            n_g++;
+            assert_int_equal(c->from, cur);
+            assert_true(c->to != c->from);
+            assert_true(c->t >= from);
+            booked[cur] += c->t - from;
+            from = c->t;
+            cur = c->to;
+            if (c->to == SW_STATE_UNKNOWN) {
+                assert_true(isnan(c->hw_m) && isnan(c->fs));
+                continue;
+            }
+            /* the levels at the change, from the rows around it */
+            double s = (double)(c->t - r.start) / 1000.0;
+            int k = (int)(s / 900.0);
+            double w = (s - 900.0 * k) / 900.0;
+            int k1 = k + 1 < N ? k + 1 : k;
+            if (k >= 39 && k < 46) { /* across the gap: rows 39 and 46 */
+                w = (s - 900.0 * 39) / (900.0 * 7);
+                k = 39;
+                k1 = 46;
+            }
+            assert_close_abs(c->hw_m, hw[k] + (hw[k1] - hw[k]) * w, 1e-9);
+            assert_close_abs(c->tw_m, tw[k] + (tw[k1] - tw[k]) * w, 1e-9);
+        }
+        booked[cur] += r.end - from;
+        assert_true(n_g >= 3);
+        assert_int_equal(booked[SW_STATE_LOW], r.tally[g].low);
+        assert_int_equal(booked[SW_STATE_OPEN], r.tally[g].open);
+        assert_int_equal(booked[SW_STATE_OK] + booked[SW_STATE_LOW] +
+                             booked[SW_STATE_OPEN],
+                         r.tally[g].evaluated);
+        assert_int_equal(booked[SW_STATE_UNKNOWN], r.tally[g].not_evaluated);
+    }
+    for (size_t e = 0; e < r.n_events; e++) {
+        const sw_event *ev = &r.events[e];
+        int begins = 0, ends = ev->ends == SW_END_SERIES_END;
+        for (size_t i = 0; i < r.n; i++) {
+            const sw_state_change *c = &r.c[i];
+            if (c->gate != ev->gate)
+                continue;
+            begins |= c->t == ev->start && c->to != SW_STATE_OK &&
+                      c->to != SW_STATE_UNKNOWN &&
+                      (c->from == SW_STATE_OK || c->from == SW_STATE_UNKNOWN);
+            ends |= c->t == ev->end &&
+                    c->to == (ev->ends == SW_END_GAP ? SW_STATE_UNKNOWN
+                                                     : SW_STATE_OK);
+        }
+        assert_true(begins);
+        assert_true(ends);
+    }
+}
+
+/* Cut the two files of write_qc_levels() (a headwater with a spike test)
+ * after `rows_up` and `rows_down` rows. */
+static void write_cut(const char *name, const char *text, int rows)
+{
+    static char buf[64 * 1024];
+    const char *p = text;
+    for (int i = 0; i <= rows && *p != '\0'; i++) {
+        const char *nl = strchr(p, '\n');
+        p = nl != NULL ? nl + 1 : p + strlen(p);
+    }
+    memcpy(buf, text, (size_t)(p - text));
+    buf[p - text] = '\0';
+    sw_test_write(name, buf);
+}
+
+static char *slurp_test_file(const char *name)
+{
+    char path[128];
+    snprintf(path, sizeof path, "%s/%s", sw_test_dir(), name);
+    FILE *fp = fopen(path, "rb");
+    assert_non_null(fp);
+    char *buf = calloc(1, 64 * 1024);
+    assert_non_null(buf);
+    size_t n = fread(buf, 1, 64 * 1024 - 1, fp);
+    buf[n] = '\0';
+    fclose(fp);
+    return buf;
+}
+
+/* Levels for the final-instant test: a headwater every 15 min around
+ * gate V's thresholds (low from 0.134 m over the sill, open from 0.165 m,
+ * hand formula above), with spikes that open the gate for one reading,
+ * readings out of range and a stuck spell; the tailwater (another file,
+ * every 10 min) stays below the sill. */
+static void write_final_levels(void)
+{
+    static char up[64 * 1024], down[64 * 1024];
+    size_t nu = 0, nd = 0;
+    unsigned seed = 4242u;
+    nu += (size_t)snprintf(up + nu, sizeof up - nu, "time,hw\n");
+    nd += (size_t)snprintf(down + nd, sizeof down - nd, "when,tw\n");
+    for (int i = 0; i < 4 * 48; i++) {
+        seed = seed * 1103515245u + 12345u;
+        double hw = 8.15 + 0.04 * sin(i / 5.0) +
+                    0.01 * (double)(seed >> 22) / 1024.0;
+        if (i % 23 == 5)
+            hw += 0.3;                   /* spike */
+        if (i % 53 == 20)
+            hw = -3.0;                   /* out of range */
+        if (i >= 100 && i < 120)
+            hw = 8.1432;                 /* stuck */
+        nu += (size_t)snprintf(up + nu, sizeof up - nu,
+                               "2025-04-%02dT%02d:%02d:00Z,%.4f\n",
+                               1 + i / 96, (i % 96) / 4, (i % 4) * 15, hw);
+    }
+    for (int i = 0; i < 6 * 48; i++)
+        nd += (size_t)snprintf(down + nd, sizeof down - nd,
+                               "2025-04-%02dT%02d:%02d:00Z,%.4f\n",
+                               1 + i / 144, (i % 144) / 6, (i % 6) * 10 + 5,
+                               7.0 + 0.2 * cos(i / 7.0));
+    sw_test_write("up.csv", up);
+    sw_test_write("down.csv", down);
+}
+
+/* What the final instant promises: a replay of the files cut short books,
+ * before it, exactly the changes (instants, states, levels, fs, bit for
+ * bit) that the replay of the whole files books there, at every cut,
+ * with spike, flat and range tests on the headwater (a cut right after a
+ * spike reading leaves it unjudged until the next one). */
+static void test_final_until_holds(void **state)
+{
+    (void)state;
+    static change_run full, part;
+    write_final_levels();
+    sw_test_write("site.ini", QC_SITE("up.csv", "valid_range = 0, 12\n"
+                                                 "spike = 0.2\n"
+                                                 "flat = 1h, 0.0005\n"));
+    char *up = slurp_test_file("up.csv"), *down = slurp_test_file("down.csv");
+    run_changes(&full);
+    assert_true(full.n >= 20);
+    int checked = 0;
+    for (int k = 1; k < 4 * 48; k++) {
+        write_cut("up.csv", up, k);
+        /* the tailwater (every 10 min) cut near the same time, a little
+         * ahead or behind */
+        write_cut("down.csv", down, (k * 3) / 2 + (k % 3) - 1);
+        run_changes(&part);
+        if (!part.has_final)
+            continue;
+        checked++;
+        size_t j = 0;
+        for (size_t i = 0; i < full.n && full.c[i].t < part.final_until; i++) {
+            /* the same change, in the same order */
+            assert_true(j < part.n);
+            assert_int_equal(part.c[j].gate, full.c[i].gate);
+            assert_int_equal(part.c[j].t, full.c[i].t);
+            assert_int_equal(part.c[j].from, full.c[i].from);
+            assert_int_equal(part.c[j].to, full.c[i].to);
+            assert_memory_equal(&part.c[j].fs, &full.c[i].fs, sizeof(double));
+            assert_memory_equal(&part.c[j].hw_m, &full.c[i].hw_m,
+                                sizeof(double));
+            j++;
+        }
+        assert_true(j == part.n || part.c[j].t >= part.final_until);
+    }
+    assert_true(checked > 150);
+    free(up);
+    free(down);
+}
+
 int main(void)
 {
     gsl_set_error_handler_off();
@@ -743,6 +1016,8 @@ int main(void)
         cmocka_unit_test(test_qc_account_adds_up),
         cmocka_unit_test(test_qc_flags_in_batches),
         cmocka_unit_test(test_wide_file_one_reader),
+        cmocka_unit_test(test_changes_add_up),
+        cmocka_unit_test(test_final_until_holds),
     };
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
 }
