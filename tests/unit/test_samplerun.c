@@ -350,6 +350,33 @@ static void test_screen_workers(void **state)
     sw_site_fini(&site);
 }
 
+/* A member column cut short in the level file: the screens fail with the
+ * replays' error and its position, and keep nothing. */
+static void test_screen_bad_levels(void **state)
+{
+    sw_site site;
+    sw_uncert u;
+    sw_samplescreen ss;
+    sw_error err;
+    double hw[11];
+    (void)state;
+
+    for (int h = 0; h <= 10; h++)
+        hw[h] = 9.05;
+    load_ens(ENS_SITE("mass = 23000\nmass_sd = 600\n"), hw, 0.0, &site);
+    sw_test_write("ens.csv", "time,hw,tw_a,tw_b,tw_c\n"
+                             "1735689600,9.05,7.0,7.0,7.0\n"
+                             "1735693200,9.05,7.0,7.0\n");
+    assert_int_equal(sw_uncert_init(&u, &site, 8, &err), SW_OK);
+    assert_int_equal(sw_samplescreen_run(&ss, &u, 5, 2, NULL, NULL, &err),
+                     SW_EDATA);
+    assert_int_equal(err.line, 3);
+    assert_non_null(strstr(err.file, "ens.csv"));
+    assert_null(ss.verdict);
+    sw_uncert_fini(&u);
+    sw_site_fini(&site);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -360,6 +387,7 @@ int main(void)
         cmocka_unit_test(test_screen_analytic),
         cmocka_unit_test(test_screen_zero_uncertainty),
         cmocka_unit_test(test_screen_workers),
+        cmocka_unit_test(test_screen_bad_levels),
     };
     gsl_set_error_handler_off();
     return cmocka_run_group_tests(tests, sw_test_mkdir, sw_test_rmdir);
