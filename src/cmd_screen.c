@@ -8,6 +8,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "cli.h"
 #include "sillwatch/cancel.h"
@@ -17,6 +18,7 @@
 #include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
+#include "sillwatch/samplerun.h"
 #include "sillwatch/series.h"
 #include "sillwatch/site.h"
 #include "sillwatch/stepper.h"
@@ -24,6 +26,7 @@
 static const char screen_help[] =
     "Usage: sillwatch screen SITE.ini -o OUTDIR [--series NAME=FILE]...\n"
     "                        [--issued TIME] [--json] [--quiet]\n"
+    "                        [--samples N [--seed S] [-j N]]\n"
     "       sillwatch screen SITE.ini SITE.ini... -o OUTDIR [-j N] [options]\n"
     "Screen forecast levels through every gate with the model and stepping\n"
     "of 'run'.  A series whose value_column holds a '*' (tw_*) is an\n"
@@ -44,14 +47,25 @@ static const char screen_help[] =
     "                 test of their series (removed)\n"
     "  screen.json   with --json: screen.csv for scripts (numbers as\n"
     "                numbers)\n"
+    "  screen_samples.csv  with --samples: per gate, over N samples of the\n"
+    "                uncertain keys (each screened whole, every member\n"
+    "                replayed): the probability that some member falls\n"
+    "                below the margin and that some member opens, the\n"
+    "                fraction of (sample, member) pairs that do, and the\n"
+    "                5/50/95 % lead hours of the earliest time\n"
     "\n"
     "  -o, --output OUTDIR    the folder for the outputs\n"
     "  --series NAME=FILE     read series NAME from FILE\n"
     "  --issued TIME          ISO 8601 time the forecast was issued (lead\n"
     "                         times count from it; default: its first time)\n"
     "  --json                 write screen.json\n"
-    "  -j, --jobs N           several sites: N at a time (default: the\n"
-    "                         number of processors)\n"
+    "  --samples N            also screen N samples of the uncertain keys\n"
+    "                         (1 to 1000000) and write screen_samples.csv\n"
+    "  --seed S               the seed of the draws (default: a fixed one,\n"
+    "                         printed)\n"
+    "  -j, --jobs N           several sites: N at a time; with --samples:\n"
+    "                         worker processes for the samples (default:\n"
+    "                         the number of processors)\n"
     "  -q, --quiet            print nothing but errors\n"
     "  -h, --help             show this help and exit\n"
     "      --version          show the version and exit\n"
@@ -62,18 +76,19 @@ static const char screen_help[] =
     "OUTDIR/<site file name without .ini>/, on N worker processes; a failed\n"
     "site does not stop the others; the exit status is the worst.\n"
     "\n"
-    "Exit status: 0 no member of any gate fell below its margin, 1 some did,\n"
+    "Exit status: 0 no member of any gate fell below its margin, 1 some did\n"
+    "(in the forecast as given or, with --samples, in some sample),\n"
     "2 usage, 3 site file, 4 level data, 5 output, 130 (SIGINT) or 143\n"
     "(SIGTERM) interrupted; see 'sillwatch --help'.\n"
     "\n";
 
 enum {
     OUT_FORECAST, OUT_SCREEN, OUT_REQUIRED, OUT_REQUIRED_MAX, OUT_FLAGS,
-    OUT_JSON, N_OUT
+    OUT_JSON, OUT_SAMPLES, N_OUT
 };
 static const char *const out_names[N_OUT] = {
     "forecast.csv", "screen.csv", "required.csv", "required_max.csv",
-    "flags.csv", "screen.json"};
+    "flags.csv", "screen.json", "screen_samples.csv"};
 
 typedef struct screen_opts {
     const char *site_path, *outdir, *issued;
@@ -81,6 +96,9 @@ typedef struct screen_opts {
     size_t n_sites;
     unsigned jobs;
     int quiet, json;
+    size_t n_samples; /* --samples; 0: none */
+    uint64_t seed;
+    int seed_given;
     const char *series[64];
     size_t n_series;
 } screen_opts;
@@ -94,6 +112,8 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         {"quiet", no_argument, NULL, 'q'},
         {"json", no_argument, NULL, 'J'},
         {"jobs", required_argument, NULL, 'j'},
+        {"samples", required_argument, NULL, 'n'},
+        {"seed", required_argument, NULL, 'e'},
         {"help", no_argument, NULL, 'h'},
         {"version", no_argument, NULL, 'V'},
         {NULL, 0, NULL, 0},
@@ -103,6 +123,7 @@ static int parse_args(int argc, char **argv, screen_opts *o)
     memset(o, 0, sizeof *o);
     opterr = 0;
     o->jobs = sw_jobs_default_workers();
+    o->seed = SW_UNCERT_DEFAULT_SEED;
     while ((opt = getopt_long(argc, argv, ":o:j:qh", opts, NULL)) != -1) {
         switch (opt) {
         case 'o':
@@ -127,6 +148,16 @@ static int parse_args(int argc, char **argv, screen_opts *o)
         case 'J':
             o->json = 1;
             break;
+        case 'n':
+            if ((rc = sw_cli_take_samples("screen", optarg,
+                                          &o->n_samples)) != 0)
+                return rc;
+            break;
+        case 'e':
+            if ((rc = sw_cli_take_seed("screen", optarg, &o->seed)) != 0)
+                return rc;
+            o->seed_given = 1;
+            break;
         case 'V':
             sw_cli_version();
             return -1;
@@ -138,6 +169,12 @@ static int parse_args(int argc, char **argv, screen_opts *o)
             return sw_cli_option_error("screen", opt, argv);
         }
     }
+    if (o->seed_given && o->n_samples == 0)
+        return sw_cli_usage_error("screen", "--seed is for --samples: give "
+                                            "--samples N too");
+    if (argc - optind > 1 && o->n_samples > 0)
+        return sw_cli_usage_error("screen", "--samples screens one site: "
+                                            "give one site file with it");
     if (argc - optind > 1)
         return sw_cli_sites_operands("screen", argc, argv, o->outdir,
                                      o->n_series, &o->sites, &o->n_sites);
@@ -551,6 +588,87 @@ static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
     return rc;
 }
 
+static void sample_progress(size_t done, size_t n, void *ctx)
+{
+    (void)ctx;
+    fprintf(stderr, "\rsillwatch: sampled screens: %zu of %zu   ", done, n);
+}
+
+/* --samples: every sample of the site screened whole on worker processes
+ * before the outputs are opened, so that a failed sample leaves the
+ * earlier outputs as they were. */
+static int screen_samples(const screen_opts *o, const sw_site *site,
+                          sw_uncert *u, sw_samplescreen *ss, sw_error *err)
+{
+    int show_progress = !o->quiet && isatty(STDERR_FILENO);
+    int rc;
+    if ((rc = sw_uncert_init(u, site, o->seed, err)) != SW_OK)
+        return rc;
+    if (u->n_params == 0 && !o->quiet)
+        fprintf(stderr, "sillwatch: screen: warning: no key of %s has a "
+                        "standard uncertainty (X_sd): every sample is the "
+                        "site as given\n",
+                site->path);
+    rc = sw_samplescreen_run(ss, u, o->n_samples, o->jobs,
+                             show_progress ? sample_progress : NULL, NULL,
+                             err);
+    if (show_progress)
+        fputs(rc == SW_OK ? "\r\033[K" : "\n", stderr);
+    return rc;
+}
+
+/* 1 when some member of some gate fell below its margin in some sample. */
+static int any_sample_below(const sw_samplescreen *ss)
+{
+    for (size_t i = 0; i < ss->n * ss->n_gates; i++)
+        if (ss->verdict[i].low_seen)
+            return 1;
+    return 0;
+}
+
+/* A lead time in hours (from ms), or "-". */
+static void lead_text(char *buf, size_t n, size_t seen, double ms)
+{
+    if (seen == 0)
+        snprintf(buf, n, "-");
+    else
+        snprintf(buf, n, "%.2f", ms / 3.6e6);
+}
+
+/* The sampled screens' table on standard output. */
+static void print_samples(const sw_site *site, const sw_samplescreen *ss,
+                          sw_time_ms issued)
+{
+    printf("\nsampled screens (screen_samples.csv): ");
+    sw_cli_print_uncert(stdout, "", ss->u, ss->n);
+    printf("%-10s %7s  %-16s %-23s  %-16s %-23s\n", "gate", "members",
+           "P(some below)", "lead h 5/50/95 %", "P(some open)",
+           "lead h 5/50/95 %");
+    for (size_t g = 0; g < site->n_gates; g++) {
+        sw_samplescreen_stats st;
+        sw_error err;
+        char l[6][24], col[2][80];
+        if (sw_samplescreen_stats_of(ss, g, issued, &st, &err) != SW_OK)
+            return;
+        if (st.members == 0)
+            continue;
+        for (int p = 0; p < 3; p++) {
+            lead_text(l[p], sizeof l[p], st.n_low, st.low_lead_ms[p]);
+            lead_text(l[3 + p], sizeof l[3 + p], st.n_open,
+                      st.open_lead_ms[p]);
+        }
+        snprintf(col[0], sizeof col[0], "%s %s %s", l[0], l[1], l[2]);
+        snprintf(col[1], sizeof col[1], "%s %s %s", l[3], l[4], l[5]);
+        printf("%-10s %7zu  %.3f +- %.3f  %-23s  %.3f +- %.3f  %-23s\n",
+               site->gates[g].gate.name, st.members, st.p_low, st.p_low_se,
+               col[0], st.p_open, st.p_open_se, col[1]);
+    }
+    printf("(+-: the Monte Carlo standard error; lead hours over the samples "
+           "where it happens,\npercentiles by Hyndman and Fan (1996) "
+           "definition 7; a probability covers the\nkeys' stated "
+           "uncertainties only)\n");
+}
+
 /* Screen one site into `outdir`; print its tables unless `brief` or
  * quiet.  Returns the exit status. */
 static int screen_site(const screen_opts *op, const char *site_path,
@@ -562,11 +680,15 @@ static int screen_site(const screen_opts *op, const char *site_path,
     sw_outfile out[N_OUT];
     sw_error err;
     verdict *vd = NULL;
+    sw_uncert u;
+    sw_samplescreen ss;
     sw_time_ms t0 = 0, issued = 0;
     int rc, have_issued = 0, exit_code = SW_EXIT_OK;
 
     memset(out, 0, sizeof out);
     memset(&ens, 0, sizeof ens);
+    memset(&u, 0, sizeof u);
+    memset(&ss, 0, sizeof ss);
     o.outdir = outdir;
     o.quiet = o.quiet || brief;
     if (sw_site_load(&site, site_path, &err) != SW_OK)
@@ -604,8 +726,12 @@ static int screen_site(const screen_opts *op, const char *site_path,
     if ((rc = sw_cli_make_outdir(o.outdir, &err)) != SW_OK ||
         (rc = sw_cli_recover(o.outdir, o.quiet, &err)) != SW_OK)
         goto fail;
+    if (o.n_samples > 0 &&
+        (rc = screen_samples(&o, &site, &u, &ss, &err)) != SW_OK)
+        goto fail;
     for (int k = 0; k < N_OUT; k++)
         if ((k != OUT_JSON || o.json) &&
+            (k != OUT_SAMPLES || o.n_samples > 0) &&
             (rc = sw_outfile_open(&out[k], o.outdir, out_names[k], &err)) !=
                 SW_OK)
             goto fail;
@@ -667,6 +793,14 @@ static int screen_site(const screen_opts *op, const char *site_path,
     if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, vd, n_v, issued,
                                    &err)) != SW_OK)
         goto fail;
+    if (o.n_samples > 0) {
+        sw_samplescreen_header(out[OUT_SAMPLES].fp);
+        if ((rc = sw_samplescreen_write(out[OUT_SAMPLES].fp, &ss, issued,
+                                        &err)) != SW_OK)
+            goto fail;
+        if (any_sample_below(&ss))
+            exit_code = SW_EXIT_BELOW;
+    }
     for (int k = 0; k < N_OUT; k++)
         if ((rc = sw_outfile_close(&out[k], &err)) != SW_OK)
             goto fail;
@@ -713,14 +847,19 @@ static int screen_site(const screen_opts *op, const char *site_path,
                    v->members, (double)v->open_median / 3.6e6);
         }
     }
+    if (!o.quiet && o.n_samples > 0)
+        print_samples(&site, &ss, issued);
     if (!o.quiet) {
         sw_cli_print_fs_basis(&site);
         printf("\noutputs in %s: forecast.csv, screen.csv, required.csv, "
-               "required_max.csv, flags.csv%s, manifest.csv\n", o.outdir,
-               o.json ? ", screen.json" : "");
+               "required_max.csv, flags.csv%s%s, manifest.csv\n", o.outdir,
+               o.json ? ", screen.json" : "",
+               o.n_samples > 0 ? ", screen_samples.csv" : "");
         fputs(sw_cli_caution, stdout);
     }
     free(vd);
+    sw_samplescreen_fini(&ss);
+    sw_uncert_fini(&u);
     sw_ensemble_fini(&ens);
     sw_site_fini(&site);
     return exit_code;
@@ -729,6 +868,8 @@ fail:
     for (int k = 0; k < N_OUT; k++)
         sw_outfile_abort(&out[k]);
     free(vd);
+    sw_samplescreen_fini(&ss);
+    sw_uncert_fini(&u);
     sw_ensemble_fini(&ens);
     sw_site_fini(&site);
     if (rc == SW_EINTERRUPTED) {

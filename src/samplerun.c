@@ -32,7 +32,8 @@ typedef struct job_slot {
 } job_slot;
 
 typedef struct shared {
-    sw_sample_gate *tally; /* [n][n_gates] */
+    void *slots;           /* [n][n_gates] sw_sample_gate, or with screen
+                              sw_sample_screen */
     job_slot *job;         /* [n_jobs] */
     void *map;
     size_t map_size;
@@ -40,6 +41,7 @@ typedef struct shared {
 
 typedef struct run_ctx {
     const sw_uncert *u;
+    int screen;            /* each sample screened as a forecast ensemble */
     size_t n, n_jobs;
     shared sh;
     sw_samplerun_progress progress;
@@ -93,6 +95,65 @@ cleanup:
     return rc;
 }
 
+/* One sample's site expanded into its forecast members (ensemble.h) and
+ * replayed through the engine; per gate of the site, the verdict over its
+ * members into `out` (screen's own verdict, cmd_screen.c). */
+static int screen_sample(const sw_uncert *u, sw_uncert_sample *s, size_t k,
+                         sw_sample_screen *out, sw_error *err)
+{
+    sw_site site;
+    sw_ensemble ens;
+    sw_stepper *st = NULL;
+    sw_stepper_options opt = {0, 0};
+    int rc, done = 0;
+
+    memset(&ens, 0, sizeof ens);
+    if ((rc = sw_uncert_draw(u, k, s, err)) != SW_OK)
+        return rc;
+    if ((rc = sw_uncert_site(u, s, &site, err)) != SW_OK)
+        return rc;
+    if ((rc = sw_ensemble_expand(&ens, &site, err)) != SW_OK)
+        goto cleanup;
+    memset(out, 0, site.n_gates * sizeof *out);
+    if (ens.site.n_gates == 0)
+        goto cleanup; /* headwater-only gates: nothing to replay */
+    if ((rc = sw_stepper_alloc(&st, &ens.site, &opt, err)) != SW_OK)
+        goto cleanup;
+    while (!done) {
+        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
+            (rc = sw_cancel_check(err)) != SW_OK)
+            goto cleanup;
+    }
+    if ((rc = sw_stepper_finish(st, err)) != SW_OK)
+        goto cleanup;
+    if (!sw_stepper_has_data(st)) {
+        rc = sw_stepper_no_data_error(st, err);
+        goto cleanup;
+    }
+    for (size_t e = 0; e < ens.site.n_gates; e++) {
+        const sw_tally *t = sw_stepper_tally(st, e);
+        sw_sample_screen *v = &out[ens.orig[e]];
+        v->members++;
+        if (t->below_seen) {
+            v->low_members++;
+            if (!v->low_seen || t->first_below < v->low_first)
+                v->low_first = t->first_below;
+            v->low_seen = 1;
+        }
+        if (t->open_seen) {
+            v->open_members++;
+            if (!v->open_seen || t->first_open < v->open_first)
+                v->open_first = t->first_open;
+            v->open_seen = 1;
+        }
+    }
+cleanup:
+    sw_stepper_free(st);
+    sw_ensemble_fini(&ens);
+    sw_uncert_site_fini(&site);
+    return rc;
+}
+
 /* In the worker: the samples of job j. */
 static int run_job(size_t j, void *ctx)
 {
@@ -106,8 +167,14 @@ static int run_job(size_t j, void *ctx)
     rc = sw_uncert_sample_alloc(&s, c->u, &slot->err);
     for (size_t k = job_begin(c, j); rc == SW_OK && k < job_begin(c, j + 1);
          k++)
-        rc = replay_sample(c->u, s, k, c->sh.tally + k * n_gates,
-                           &slot->err);
+        rc = c->screen
+                 ? screen_sample(c->u, s, k,
+                                 (sw_sample_screen *)c->sh.slots +
+                                     k * n_gates,
+                                 &slot->err)
+                 : replay_sample(c->u, s, k,
+                                 (sw_sample_gate *)c->sh.slots + k * n_gates,
+                                 &slot->err);
     sw_uncert_sample_free(s);
     slot->rc = rc;
     return rc == SW_OK ? 0 : 1;
@@ -123,10 +190,9 @@ static void job_done(size_t i, int status, size_t n_done, void *ctx)
                     c->pctx);
 }
 
-static int share(shared *sh, size_t n, size_t n_gates, size_t n_jobs,
-                 sw_error *err)
+static int share(shared *sh, size_t slots, size_t n_jobs, sw_error *err)
 {
-    size_t tally = n * n_gates * sizeof *sh->tally;
+    size_t tally = slots;
     size_t pad = (tally + 63) / 64 * 64;
     sh->map_size = pad + n_jobs * sizeof *sh->job;
     sh->map = mmap(NULL, sh->map_size, PROT_READ | PROT_WRITE,
@@ -135,7 +201,7 @@ static int share(shared *sh, size_t n, size_t n_gates, size_t n_jobs,
         sh->map = NULL;
         return nomem(err);
     }
-    sh->tally = sh->map;
+    sh->slots = sh->map;
     sh->job = (job_slot *)((char *)sh->map + pad);
     return SW_OK;
 }
@@ -168,28 +234,34 @@ static int jobs_outcome(const run_ctx *c, const int *status, sw_error *err)
     return SW_OK;
 }
 
-int sw_samplerun_run(sw_samplerun *sr, const sw_uncert *u, size_t n,
-                     unsigned workers, int keep_gates,
-                     sw_samplerun_progress progress, void *pctx,
-                     sw_error *err)
+static int check_n(size_t n, sw_error *err)
 {
-    size_t n_gates = u->site->n_gates;
-    run_ctx c;
-    int *status = NULL;
-    int rc;
-
-    memset(sr, 0, sizeof *sr);
-    memset(&c, 0, sizeof c);
     if (n < 1 || n > SW_UNCERT_MAX_SAMPLES)
         return sw_error_set(err, SW_EUSAGE, NULL, 0, 0,
                             "the number of samples must be 1 to %d, not %zu",
                             SW_UNCERT_MAX_SAMPLES, n);
+    return SW_OK;
+}
+
+/* Samples 0 .. n - 1 on worker processes, each writing `size` bytes per
+ * gate and sample into shared memory, copied into out[n][n_gates] (of
+ * that size) at the end.  With `screen`, screen_sample(), else
+ * replay_sample(). */
+static int run_all(const sw_uncert *u, size_t n, unsigned workers,
+                   int screen, size_t size, void *out,
+                   sw_samplerun_progress progress, void *pctx,
+                   sw_error *err)
+{
+    size_t bytes = n * u->site->n_gates * size;
+    run_ctx c;
+    int *status = NULL;
+    int rc;
+
+    memset(&c, 0, sizeof c);
     if (workers < 1)
         workers = 1;
-    sr->u = u;
-    sr->n = n;
-    sr->n_gates = n_gates;
     c.u = u;
+    c.screen = screen;
     c.n = n;
     c.n_jobs = (size_t)workers * JOBS_PER_WORKER < n
                    ? (size_t)workers * JOBS_PER_WORKER
@@ -197,19 +269,48 @@ int sw_samplerun_run(sw_samplerun *sr, const sw_uncert *u, size_t n,
     c.progress = progress;
     c.pctx = pctx;
     status = calloc(c.n_jobs, sizeof *status);
-    sr->tally = calloc(n * n_gates + 1, sizeof *sr->tally);
-    if (status == NULL || sr->tally == NULL) {
+    if (status == NULL) {
         rc = nomem(err);
         goto cleanup;
     }
-    if ((rc = share(&c.sh, n, n_gates, c.n_jobs, err)) != SW_OK)
+    if ((rc = share(&c.sh, bytes, c.n_jobs, err)) != SW_OK)
         goto cleanup;
     rc = sw_jobs_run(c.n_jobs, workers, run_job, job_done, &c, status, err);
     if (rc == SW_OK)
         rc = jobs_outcome(&c, status, err);
-    if (rc != SW_OK)
+    if (rc == SW_OK && bytes > 0)
+        memcpy(out, c.sh.slots, bytes);
+cleanup:
+    if (c.sh.map != NULL)
+        munmap(c.sh.map, c.sh.map_size);
+    free(status);
+    return rc;
+}
+
+int sw_samplerun_run(sw_samplerun *sr, const sw_uncert *u, size_t n,
+                     unsigned workers, int keep_gates,
+                     sw_samplerun_progress progress, void *pctx,
+                     sw_error *err)
+{
+    size_t n_gates = u->site->n_gates;
+    int rc;
+
+    memset(sr, 0, sizeof *sr);
+    if ((rc = check_n(n, err)) != SW_OK)
+        return rc;
+    if (workers < 1)
+        workers = 1;
+    sr->u = u;
+    sr->n = n;
+    sr->n_gates = n_gates;
+    sr->tally = calloc(n * n_gates + 1, sizeof *sr->tally);
+    if (sr->tally == NULL) {
+        rc = nomem(err);
         goto cleanup;
-    memcpy(sr->tally, c.sh.tally, n * n_gates * sizeof *sr->tally);
+    }
+    if ((rc = run_all(u, n, workers, 0, sizeof *sr->tally, sr->tally,
+                      progress, pctx, err)) != SW_OK)
+        goto cleanup;
 
     if (keep_gates) {
         size_t *all = calloc(n_gates + 1, sizeof *all);
@@ -229,9 +330,6 @@ int sw_samplerun_run(sw_samplerun *sr, const sw_uncert *u, size_t n,
         free(all);
     }
 cleanup:
-    if (c.sh.map != NULL)
-        munmap(c.sh.map, c.sh.map_size);
-    free(status);
     if (rc != SW_OK)
         sw_samplerun_fini(sr);
     return rc;
@@ -372,4 +470,130 @@ void sw_samplerun_step_rows(FILE *fp, const sw_samplerun *sr,
         fprintf(fp, ",%zu,%.4f,%.4f\n", sr->n, (double)low / (double)sr->n,
                 (double)open / (double)sr->n);
     }
+}
+
+/* ---- screen --samples ------------------------------------------------------- */
+
+int sw_samplescreen_run(sw_samplescreen *ss, const sw_uncert *u, size_t n,
+                        unsigned workers, sw_samplerun_progress progress,
+                        void *pctx, sw_error *err)
+{
+    size_t n_gates = u->site->n_gates;
+    int rc;
+
+    memset(ss, 0, sizeof *ss);
+    if ((rc = check_n(n, err)) != SW_OK)
+        return rc;
+    ss->u = u;
+    ss->n = n;
+    ss->n_gates = n_gates;
+    ss->verdict = calloc(n * n_gates + 1, sizeof *ss->verdict);
+    if (ss->verdict == NULL)
+        rc = nomem(err);
+    else
+        rc = run_all(u, n, workers, 1, sizeof *ss->verdict, ss->verdict,
+                     progress, pctx, err);
+    if (rc != SW_OK)
+        sw_samplescreen_fini(ss);
+    return rc;
+}
+
+void sw_samplescreen_fini(sw_samplescreen *ss)
+{
+    if (ss == NULL)
+        return;
+    free(ss->verdict);
+    memset(ss, 0, sizeof *ss);
+}
+
+int sw_samplescreen_stats_of(const sw_samplescreen *ss, size_t g,
+                             sw_time_ms issued, sw_samplescreen_stats *st,
+                             sw_error *err)
+{
+    size_t n = ss->n, low_pairs = 0, open_pairs = 0, k_low = 0, k_open = 0;
+    double *low = malloc(n * sizeof *low), *open = malloc(n * sizeof *open);
+
+    memset(st, 0, sizeof *st);
+    if (low == NULL || open == NULL) {
+        free(low);
+        free(open);
+        return nomem(err);
+    }
+    for (size_t k = 0; k < n; k++) {
+        const sw_sample_screen *v = &ss->verdict[k * ss->n_gates + g];
+        st->members = v->members;
+        low_pairs += v->low_members;
+        open_pairs += v->open_members;
+        if (v->low_seen)
+            low[k_low++] = (double)(v->low_first - issued);
+        if (v->open_seen)
+            open[k_open++] = (double)(v->open_first - issued);
+    }
+    st->n_low = k_low;
+    st->n_open = k_open;
+    sw_uncert_proportion(k_low, n, &st->p_low, &st->p_low_se);
+    sw_uncert_proportion(k_open, n, &st->p_open, &st->p_open_se);
+    if (st->members > 0) {
+        double pairs = (double)n * (double)st->members;
+        st->fraction_low = (double)low_pairs / pairs;
+        st->fraction_open = (double)open_pairs / pairs;
+    }
+    if (k_low > 0)
+        sw_quantiles(low, k_low, sw_uncert_pctl, SW_UNCERT_N_PCTL,
+                     st->low_lead_ms);
+    if (k_open > 0)
+        sw_quantiles(open, k_open, sw_uncert_pctl, SW_UNCERT_N_PCTL,
+                     st->open_lead_ms);
+    free(low);
+    free(open);
+    return SW_OK;
+}
+
+void sw_samplescreen_header(FILE *fp)
+{
+    fputs("gate,samples,members,seed,p_some_below,p_some_below_se,"
+          "p_some_open,p_some_open_se,fraction_below,fraction_open,"
+          "below_lead_hours_p05,below_lead_hours_p50,below_lead_hours_p95,"
+          "open_lead_hours_p05,open_lead_hours_p50,open_lead_hours_p95\n",
+          fp);
+}
+
+/* Lead hours as screen.csv writes them (4 decimals, the sign apart), or
+ * empty fields where no sample got there. */
+static void put_leads(FILE *fp, size_t seen, const double *ms)
+{
+    for (int p = 0; p < SW_UNCERT_N_PCTL; p++) {
+        fputc(',', fp);
+        if (seen == 0)
+            continue;
+        long long v = llround(ms[p]);
+        long long h4 = sw_report_hours4(v < 0 ? -v : v);
+        fprintf(fp, "%s%lld.%04lld", v < 0 ? "-" : "", h4 / 10000,
+                h4 % 10000);
+    }
+}
+
+int sw_samplescreen_write(FILE *fp, const sw_samplescreen *ss,
+                          sw_time_ms issued, sw_error *err)
+{
+    const sw_site *site = ss->u->site;
+    int rc;
+
+    for (size_t g = 0; g < ss->n_gates; g++) {
+        sw_samplescreen_stats st;
+        if ((rc = sw_samplescreen_stats_of(ss, g, issued, &st, err)) !=
+            SW_OK)
+            return rc;
+        if (st.members == 0)
+            continue; /* headwater-only: required.csv */
+        sw_csv_put_field(fp, site->gates[g].gate.name);
+        fprintf(fp, ",%zu,%zu,%llu,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g", ss->n,
+                st.members, (unsigned long long)ss->u->seed, st.p_low,
+                st.p_low_se, st.p_open, st.p_open_se, st.fraction_low,
+                st.fraction_open);
+        put_leads(fp, st.n_low, st.low_lead_ms);
+        put_leads(fp, st.n_open, st.open_lead_ms);
+        fputc('\n', fp);
+    }
+    return SW_OK;
 }

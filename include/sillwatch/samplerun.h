@@ -99,4 +99,62 @@ void sw_samplerun_steps_header(FILE *fp);
 void sw_samplerun_step_rows(FILE *fp, const sw_samplerun *sr,
                             const char *when, const sw_stepper *st);
 
+/* ---- screen --samples ------------------------------------------------------- */
+
+/* One gate of the site in one sample's screen (cmd_screen.c): the sample's
+ * site expanded into its forecast members (ensemble.h), each replayed by
+ * the engine; the verdict over the gate's members.  All zero for a
+ * headwater-only gate (no members replayed). */
+typedef struct sw_sample_screen {
+    size_t members;               /* expanded gates of this gate */
+    size_t low_members;           /* members below the margin at all */
+    size_t open_members;          /* members open at all */
+    int low_seen, open_seen;      /* some member below the margin / open */
+    sw_time_ms low_first;         /* the earliest of those, when seen */
+    sw_time_ms open_first;
+} sw_sample_screen;
+
+typedef struct sw_samplescreen {
+    const sw_uncert *u;
+    size_t n;                     /* samples */
+    size_t n_gates;               /* the site's */
+    sw_sample_screen *verdict;    /* [n][n_gates] */
+} sw_samplescreen;
+
+/* Screen samples 0 .. n - 1 (1 to SW_UNCERT_MAX_SAMPLES) of `u`'s site,
+ * each a full replay of every member of its forecast, on at most
+ * `workers` processes, into *ss (release with sw_samplescreen_fini).
+ * Errors as sw_samplerun_run(), and those of sw_ensemble_expand(). */
+int sw_samplescreen_run(sw_samplescreen *ss, const sw_uncert *u, size_t n,
+                        unsigned workers, sw_samplerun_progress progress,
+                        void *ctx, sw_error *err);
+void sw_samplescreen_fini(sw_samplescreen *ss);
+
+/* The statistics of gate g over samples x members. */
+typedef struct sw_samplescreen_stats {
+    size_t members;               /* per sample */
+    size_t n_low, n_open;         /* samples where some member got there */
+    double p_low, p_low_se, p_open, p_open_se; /* their proportions */
+    double fraction_low, fraction_open; /* of the (sample, member) pairs */
+    /* percentiles (sw_uncert_pctl) of the earliest time below the margin
+     * and open, less `issued`, in ms, over the samples where it happened
+     * (valid when n_low, n_open > 0) */
+    double low_lead_ms[SW_UNCERT_N_PCTL], open_lead_ms[SW_UNCERT_N_PCTL];
+} sw_samplescreen_stats;
+
+/* Returns SW_OK or SW_ENOMEM. */
+int sw_samplescreen_stats_of(const sw_samplescreen *ss, size_t g,
+                             sw_time_ms issued, sw_samplescreen_stats *st,
+                             sw_error *err);
+
+/* screen_samples.csv: one row per gate with members (in site order):
+ * gate,samples,members,seed,p_some_below,p_some_below_se,p_some_open,
+ * p_some_open_se,fraction_below,fraction_open,below_lead_hours_p05,
+ * below_lead_hours_p50,below_lead_hours_p95,open_lead_hours_p05,
+ * open_lead_hours_p50,open_lead_hours_p95; lead hours empty where no
+ * sample got there.  Returns SW_OK or SW_ENOMEM. */
+void sw_samplescreen_header(FILE *fp);
+int sw_samplescreen_write(FILE *fp, const sw_samplescreen *ss,
+                          sw_time_ms issued, sw_error *err);
+
 #endif

@@ -3,7 +3,10 @@
  * uncertainties added (the README's "What it costs" names them), and times
  * `point --samples 10000`, `thresholds --confidence 0.95 --samples 1000`
  * simplified to 5 mm, and `run --samples 1000` with every processor, with
- * one (-j 1), and with --steps.  Figures only; never fails on time.  Run
+ * one (-j 1), and with --steps; and `screen --samples 1000` of the demo
+ * forecast (build/bench/velloran-fu.ini: mass_sd 80 on the 1720 kg and
+ * 1650 kg leaves, the outfall ensemble's offset_sd 0.03 m) with every
+ * processor and with one.  Figures only; never fails on time.  Run
  * from the repository root (make bench does). */
 #define _DEFAULT_SOURCE
 #include <stdio.h>
@@ -46,7 +49,12 @@ int main(void)
         "-e '/^cg_along = 0.92/a cg_along_sd = 0.03' "
         "-e '/^offset = 9.144/a offset_sd = 0.01' "
         "data/demo/velloran.ini > build/bench/velloran-u.ini";
-    if (system(make_site) != 0) {
+    const char *make_forecast =
+        "sed -e '/^mass = 1720/a mass_sd = 80' "
+        "-e '/^mass = 1650/a mass_sd = 80' "
+        "-e '/^value_column = tw_\\*/a offset = 0\\noffset_sd = 0.03' "
+        "data/demo/velloran-forecast.ini > build/bench/velloran-fu.ini";
+    if (system(make_site) != 0 || system(make_forecast) != 0) {
         fprintf(stderr, "bench_samples: cannot write the site\n");
         return 1;
     }
@@ -72,5 +80,16 @@ int main(void)
     timed("run --samples 1000 --steps",
           "build/sillwatch run build/bench/velloran-u.ini "
           "-o build/bench/samples/c --samples 1000 --steps -q");
+    printf("the demo forecast (24 members) with X_sd "
+           "(build/bench/velloran-fu.ini):\n");
+    timed("screen (no samples)",
+          "build/sillwatch screen build/bench/velloran-fu.ini "
+          "-o build/bench/samples/sp -q");
+    timed("screen --samples 1000",
+          "build/sillwatch screen build/bench/velloran-fu.ini "
+          "-o build/bench/samples/sa --samples 1000 -q");
+    timed("screen --samples 1000 -j 1",
+          "build/sillwatch screen build/bench/velloran-fu.ini "
+          "-o build/bench/samples/sb --samples 1000 -q -j 1");
     return 0;
 }
