@@ -206,10 +206,8 @@ static void put_number(FILE *fp, double v, int decimals)
 
 /* One gate's verdict over its members, for screen.csv and the table. */
 typedef struct verdict {
-    size_t gate, members;
-    int low_seen, open_seen;
-    sw_time_ms low_first, open_first;
-    size_t low_members, open_members;
+    size_t gate;
+    sw_sample_screen s;                 /* members, first times */
     sw_time_ms low_median, open_median; /* hours as ms */
 } verdict;
 
@@ -221,10 +219,10 @@ static sw_time_ms median_ms(double *v, size_t n)
 static int cmp_verdict(const void *a, const void *b)
 {
     const verdict *x = a, *y = b;
-    if (x->low_seen != y->low_seen)
-        return y->low_seen - x->low_seen;
-    if (x->low_seen && x->low_first != y->low_first)
-        return x->low_first < y->low_first ? -1 : 1;
+    if (x->s.low_seen != y->s.low_seen)
+        return y->s.low_seen - x->s.low_seen;
+    if (x->s.low_seen && x->s.low_first != y->s.low_first)
+        return x->s.low_first < y->s.low_first ? -1 : 1;
     return (x->gate > y->gate) - (x->gate < y->gate);
 }
 
@@ -333,19 +331,7 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
             const sw_tally *t = sw_stepper_tally(st, e);
             if (ens->orig[e] != g)
                 continue;
-            v->members++;
-            if (t->below_seen) {
-                v->low_members++;
-                if (!v->low_seen || t->first_below < v->low_first)
-                    v->low_first = t->first_below;
-                v->low_seen = 1;
-            }
-            if (t->open_seen) {
-                v->open_members++;
-                if (!v->open_seen || t->first_open < v->open_first)
-                    v->open_first = t->first_open;
-                v->open_seen = 1;
-            }
+            sw_sample_screen_add(&v->s, t);
             fs[k] = (double)(t->low + t->open);
             sr[k] = (double)t->open;
             k++;
@@ -549,29 +535,29 @@ static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
         /* below the margin: on this basis */
         sw_json_set(r, "fs_basis", json_string(sw_fs_basis_name(g->fs_basis)),
                     &bad);
-        sw_json_set(r, "members", json_integer((json_int_t)v->members), &bad);
+        sw_json_set(r, "members", json_integer((json_int_t)v->s.members), &bad);
         sw_json_set(r, "low_first_time",
-                    v->low_seen ? sw_json_time(v->low_first, site->zone)
+                    v->s.low_seen ? sw_json_time(v->s.low_first, site->zone)
                                 : json_null(),
                     &bad);
         sw_json_set(r, "low_lead_hours",
-                    v->low_seen ? sw_json_hours(v->low_first - issued)
+                    v->s.low_seen ? sw_json_hours(v->s.low_first - issued)
                                 : json_null(),
                     &bad);
         sw_json_set(r, "low_members",
-                    json_integer((json_int_t)v->low_members), &bad);
+                    json_integer((json_int_t)v->s.low_members), &bad);
         sw_json_set(r, "low_median_hours", sw_json_hours(v->low_median),
                     &bad);
         sw_json_set(r, "open_first_time",
-                    v->open_seen ? sw_json_time(v->open_first, site->zone)
+                    v->s.open_seen ? sw_json_time(v->s.open_first, site->zone)
                                  : json_null(),
                     &bad);
         sw_json_set(r, "open_lead_hours",
-                    v->open_seen ? sw_json_hours(v->open_first - issued)
+                    v->s.open_seen ? sw_json_hours(v->s.open_first - issued)
                                  : json_null(),
                     &bad);
         sw_json_set(r, "open_members",
-                    json_integer((json_int_t)v->open_members), &bad);
+                    json_integer((json_int_t)v->s.open_members), &bad);
         sw_json_set(r, "open_median_hours", sw_json_hours(v->open_median),
                     &bad);
         if (json_array_append_new(rows, r) != 0)
@@ -765,28 +751,28 @@ static int screen_site(const screen_opts *op, const char *site_path,
     for (size_t i = 0; i < n_v; i++) {
         const verdict *v = &vd[i];
         sw_csv_put_field(sc, site.gates[v->gate].gate.name);
-        fprintf(sc, ",%zu,", v->members);
-        if (v->low_seen) {
-            put_time(sc, v->low_first, site.zone);
+        fprintf(sc, ",%zu,", v->s.members);
+        if (v->s.low_seen) {
+            put_time(sc, v->s.low_first, site.zone);
             fputc(',', sc);
-            put_hours(sc, v->low_first - issued);
+            put_hours(sc, v->s.low_first - issued);
         } else {
             fputc(',', sc);
         }
-        fprintf(sc, ",%zu,", v->low_members);
+        fprintf(sc, ",%zu,", v->s.low_members);
         put_hours(sc, v->low_median);
         fputc(',', sc);
-        if (v->open_seen) {
-            put_time(sc, v->open_first, site.zone);
+        if (v->s.open_seen) {
+            put_time(sc, v->s.open_first, site.zone);
             fputc(',', sc);
-            put_hours(sc, v->open_first - issued);
+            put_hours(sc, v->s.open_first - issued);
         } else {
             fputc(',', sc);
         }
-        fprintf(sc, ",%zu,", v->open_members);
+        fprintf(sc, ",%zu,", v->s.open_members);
         put_hours(sc, v->open_median);
         fputc('\n', sc);
-        if (v->low_seen)
+        if (v->s.low_seen)
             exit_code = SW_EXIT_BELOW;
     }
 
@@ -829,22 +815,22 @@ static int screen_site(const screen_opts *op, const char *site_path,
         for (size_t i = 0; i < n_v; i++) {
             const verdict *v = &vd[i];
             char a[64] = "-", b[64] = "-", la[24] = "-", lb[24] = "-";
-            if (v->low_seen) {
-                sw_time_format(a, sizeof a, v->low_first, site.zone);
+            if (v->s.low_seen) {
+                sw_time_format(a, sizeof a, v->s.low_first, site.zone);
                 snprintf(la, sizeof la, "%.2f",
-                         (double)(v->low_first - issued) / 3.6e6);
+                         (double)(v->s.low_first - issued) / 3.6e6);
             }
-            if (v->open_seen) {
-                sw_time_format(b, sizeof b, v->open_first, site.zone);
+            if (v->s.open_seen) {
+                sw_time_format(b, sizeof b, v->s.open_first, site.zone);
                 snprintf(lb, sizeof lb, "%.2f",
-                         (double)(v->open_first - issued) / 3.6e6);
+                         (double)(v->s.open_first - issued) / 3.6e6);
             }
             printf("%-10s %7zu  %-26s %8s %3zu/%-3zu %8.2f  %-26s %8s "
                    "%3zu/%-3zu %8.2f\n",
-                   site.gates[v->gate].gate.name, v->members, a, la,
-                   v->low_members, v->members,
-                   (double)v->low_median / 3.6e6, b, lb, v->open_members,
-                   v->members, (double)v->open_median / 3.6e6);
+                   site.gates[v->gate].gate.name, v->s.members, a, la,
+                   v->s.low_members, v->s.members,
+                   (double)v->low_median / 3.6e6, b, lb, v->s.open_members,
+                   v->s.members, (double)v->open_median / 3.6e6);
         }
     }
     if (!o.quiet && o.n_samples > 0)

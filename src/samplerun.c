@@ -132,20 +132,7 @@ static int screen_sample(const sw_uncert *u, sw_uncert_sample *s, size_t k,
     }
     for (size_t e = 0; e < ens.site.n_gates; e++) {
         const sw_tally *t = sw_stepper_tally(st, e);
-        sw_sample_screen *v = &out[ens.orig[e]];
-        v->members++;
-        if (t->below_seen) {
-            v->low_members++;
-            if (!v->low_seen || t->first_below < v->low_first)
-                v->low_first = t->first_below;
-            v->low_seen = 1;
-        }
-        if (t->open_seen) {
-            v->open_members++;
-            if (!v->open_seen || t->first_open < v->open_first)
-                v->open_first = t->first_open;
-            v->open_seen = 1;
-        }
+        sw_sample_screen_add(&out[ens.orig[e]], t);
     }
 cleanup:
     sw_stepper_free(st);
@@ -596,4 +583,21 @@ int sw_samplescreen_write(FILE *fp, const sw_samplescreen *ss,
         fputc('\n', fp);
     }
     return SW_OK;
+}
+
+void sw_sample_screen_add(sw_sample_screen *v, const sw_tally *t)
+{
+    v->members++;
+    if (t->below_seen) {
+        v->low_members++;
+        if (!v->low_seen || t->first_below < v->low_first)
+            v->low_first = t->first_below;
+        v->low_seen = 1;
+    }
+    if (t->open_seen) {
+        v->open_members++;
+        if (!v->open_seen || t->first_open < v->open_first)
+            v->open_first = t->first_open;
+        v->open_seen = 1;
+    }
 }

@@ -114,6 +114,11 @@ typedef struct sw_sample_screen {
     sw_time_ms open_first;
 } sw_sample_screen;
 
+/* Fold one member's replay (its tally) into its gate's verdict: the
+ * members, those below the margin or open at all, the earliest times.
+ * Used for every screen, sampled or not. */
+void sw_sample_screen_add(sw_sample_screen *v, const sw_tally *t);
+
 typedef struct sw_samplescreen {
     const sw_uncert *u;
     size_t n;                     /* samples */
