@@ -14,6 +14,27 @@
 #include "sillwatch/jobs.h"
 #include "sillwatch/report.h"
 
+/* Replay `site` through the engine to its end, tallies only: *st (the
+ * caller frees it, also on error) holds them.  Errors: the engine's,
+ * SW_EDATA when no series held a valid reading, SW_EINTERRUPTED. */
+static int replay_to_end(const sw_site *site, sw_stepper **st,
+                         sw_error *err)
+{
+    sw_stepper_options opt = {0, 0};
+    int rc, done = 0;
+
+    if ((rc = sw_stepper_alloc(st, site, &opt, err)) != SW_OK)
+        return rc;
+    while (!done)
+        if ((rc = sw_stepper_advance(*st, &done, err)) != SW_OK ||
+            (rc = sw_cancel_check(err)) != SW_OK)
+            return rc;
+    if ((rc = sw_stepper_finish(*st, err)) != SW_OK)
+        return rc;
+    return sw_stepper_has_data(*st) ? SW_OK
+                                    : sw_stepper_no_data_error(*st, err);
+}
+
 /* Jobs per worker: enough that workers finish together, few enough that
  * forking costs nothing next to the replays. */
 #define JOBS_PER_WORKER 8
@@ -59,26 +80,14 @@ static int replay_sample(const sw_uncert *u, sw_uncert_sample *s, size_t k,
 {
     sw_site site;
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {0, 0};
-    int rc, done = 0;
+    int rc;
 
     if ((rc = sw_uncert_draw(u, k, s, err)) != SW_OK)
         return rc;
     if ((rc = sw_uncert_site(u, s, &site, err)) != SW_OK)
         return rc;
-    if ((rc = sw_stepper_alloc(&st, &site, &opt, err)) != SW_OK)
+    if ((rc = replay_to_end(&site, &st, err)) != SW_OK)
         goto cleanup;
-    while (!done) {
-        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
-            (rc = sw_cancel_check(err)) != SW_OK)
-            goto cleanup;
-    }
-    if ((rc = sw_stepper_finish(st, err)) != SW_OK)
-        goto cleanup;
-    if (!sw_stepper_has_data(st)) {
-        rc = sw_stepper_no_data_error(st, err);
-        goto cleanup;
-    }
     for (size_t g = 0; g < site.n_gates; g++) {
         const sw_tally *t = sw_stepper_tally(st, g);
         out[g].low = t->low;
@@ -104,8 +113,7 @@ static int screen_sample(const sw_uncert *u, sw_uncert_sample *s, size_t k,
     sw_site site;
     sw_ensemble ens;
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {0, 0};
-    int rc, done = 0;
+    int rc;
 
     memset(&ens, 0, sizeof ens);
     if ((rc = sw_uncert_draw(u, k, s, err)) != SW_OK)
@@ -117,19 +125,8 @@ static int screen_sample(const sw_uncert *u, sw_uncert_sample *s, size_t k,
     memset(out, 0, site.n_gates * sizeof *out);
     if (ens.site.n_gates == 0)
         goto cleanup; /* headwater-only gates: nothing to replay */
-    if ((rc = sw_stepper_alloc(&st, &ens.site, &opt, err)) != SW_OK)
+    if ((rc = replay_to_end(&ens.site, &st, err)) != SW_OK)
         goto cleanup;
-    while (!done) {
-        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
-            (rc = sw_cancel_check(err)) != SW_OK)
-            goto cleanup;
-    }
-    if ((rc = sw_stepper_finish(st, err)) != SW_OK)
-        goto cleanup;
-    if (!sw_stepper_has_data(st)) {
-        rc = sw_stepper_no_data_error(st, err);
-        goto cleanup;
-    }
     for (size_t e = 0; e < ens.site.n_gates; e++) {
         const sw_tally *t = sw_stepper_tally(st, e);
         sw_sample_screen_add(&out[ens.orig[e]], t);
