@@ -244,7 +244,7 @@ static int screen_members(const sw_site *site, const sw_ensemble *ens,
                           int quiet, sw_error *err)
 {
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {0, 1};
+    sw_stepper_options opt = {0, 1, 0};
     size_t n = ens->site.n_gates;
     double *fs = malloc((n ? n : 1) * sizeof *fs);
     double *sr = malloc((n ? n : 1) * sizeof *sr);

@@ -569,10 +569,40 @@ static double factor_of_safety(const sw_gate *g, const sw_gate_result *r)
     return 0.0;
 }
 
+_Static_assert(SW_LOAD_MEMO == 1 << 9, "side_load() takes 9 bits");
+
+void sw_load_memo_clear(sw_load_memo *memo)
+{
+    memset(memo->key, 0xff, sizeof memo->key);
+}
+
+/* The load of the water on `side` at `level`, from the memo when it holds
+ * that level (NULL: no memo). */
+static void side_load(const sw_gate *g, sw_load_memo *memo, sw_side side,
+                      double level, double *force, double *moment)
+{
+    unsigned long long bits;
+    size_t k;
+
+    if (memo == NULL) {
+        sw_gate_water_load(g, level, g->rho_kgm3[side], force, moment);
+        return;
+    }
+    memcpy(&bits, &level, sizeof bits);
+    k = (size_t)((bits * 0x9e3779b97f4a7c15ull) >> 55); /* 9 bits: 512 */
+    if (memo->key[side][k] != bits) {
+        sw_gate_water_load(g, level, g->rho_kgm3[side],
+                           &memo->force_N[side][k], &memo->moment_Nm[side][k]);
+        memo->key[side][k] = bits;
+    }
+    *force = memo->force_N[side][k];
+    *moment = memo->moment_Nm[side][k];
+}
+
 /* Evaluate with the buoyancy taken in the water `side`; the critical-level
  * searches fix the side to keep each stretch they search continuous. */
-static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
-                          sw_gate_result *out)
+static void evaluate_side(const sw_gate *g, sw_load_memo *memo, double hw,
+                          double tw, sw_side side, sw_gate_result *out)
 {
     double len = g->leaf_length_m;
     double level = side == SW_UPSTREAM ? hw : tw;
@@ -581,10 +611,9 @@ static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
 
     out->headwater_m = hw;
     out->tailwater_m = tw;
-    sw_gate_water_load(g, hw, g->rho_kgm3[SW_UPSTREAM], &out->hw_force_N,
-                       &out->hw_moment_Nm);
-    sw_gate_water_load(g, tw, g->rho_kgm3[SW_DOWNSTREAM], &out->tw_force_N,
-                       &out->tw_moment_Nm);
+    side_load(g, memo, SW_UPSTREAM, hw, &out->hw_force_N, &out->hw_moment_Nm);
+    side_load(g, memo, SW_DOWNSTREAM, tw, &out->tw_force_N,
+              &out->tw_moment_Nm);
     out->hw_cp_m = out->hw_force_N > 0.0 ? out->hw_moment_Nm / out->hw_force_N
                                          : 0.0;
     out->tw_cp_m = out->tw_force_N > 0.0 ? out->tw_moment_Nm / out->tw_force_N
@@ -621,7 +650,13 @@ static void evaluate_side(const sw_gate *g, double hw, double tw, sw_side side,
 void sw_gate_evaluate(const sw_gate *g, double hw_m, double tw_m,
                       sw_gate_result *out)
 {
-    evaluate_side(g, hw_m, tw_m, buoyancy_side(g, hw_m, tw_m), out);
+    evaluate_side(g, NULL, hw_m, tw_m, buoyancy_side(g, hw_m, tw_m), out);
+}
+
+void sw_gate_evaluate_memo(const sw_gate *g, sw_load_memo *memo, double hw_m,
+                           double tw_m, sw_gate_result *out)
+{
+    evaluate_side(g, memo, hw_m, tw_m, buoyancy_side(g, hw_m, tw_m), out);
 }
 
 /* ---- critical levels ---------------------------------------------------- */
@@ -704,9 +739,9 @@ static double margin(double x, void *p)
     double m[SW_N_MARGINS];
 
     if (c->vary_tailwater)
-        evaluate_side(g, c->fixed, x, c->side, &r);
+        evaluate_side(g, NULL, c->fixed, x, c->side, &r);
     else
-        evaluate_side(g, x, c->fixed, c->side, &r);
+        evaluate_side(g, NULL, x, c->fixed, c->side, &r);
     sw_gate_margins(g, &r, m);
     /* alarm: >= 0 exactly where the state is ok */
     return c->limit == SW_LIMIT_OPEN ? m[0] : fmin(m[1], m[2]);

@@ -6,6 +6,7 @@
 
 #include "sillwatch/cancel.h"
 #include "sillwatch/critcache.h"
+#include "sillwatch/csvout.h"
 #include "sillwatch/htmlreport.h"
 #include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
@@ -29,6 +30,10 @@ struct sw_replay {
     sw_html_report *rep;
     sw_event_log *log;
     sw_crit_cache **crit; /* per gate, with opt.steps */
+    char (*gate_csv)[2 * SW_REPORT_GATE_MAX + 2]; /* names as CSV fields */
+    double levels_hw, levels_tw;  /* the levels of the last step row ... */
+    int levels_set;
+    char levels[SW_REPORT_LEVELS_MAX + 1]; /* ... and their text */
     const sw_samplerun *samples; /* run --samples, or NULL */
     sw_outfile out[SW_REPLAY_N_OUT];
     long points;
@@ -71,7 +76,8 @@ static int alloc_parts(sw_replay *r, sw_error *err)
     /* the report draws every point and sums the months */
     sw_stepper_options sopt = {r->opt.by_month || r->opt.report,
                                r->opt.steps || r->opt.report ||
-                                   r->fol.points};
+                                   r->fol.points,
+                               1};
     int rc;
 
     if ((rc = sw_stepper_alloc(&r->st, site, &sopt, err)) == SW_OK &&
@@ -84,8 +90,12 @@ static int alloc_parts(sw_replay *r, sw_error *err)
         return rc;
     if (!r->opt.steps)
         return SW_OK;
-    if ((r->crit = calloc(site->n_gates + 1, sizeof *r->crit)) == NULL)
+    if ((r->crit = calloc(site->n_gates + 1, sizeof *r->crit)) == NULL ||
+        (r->gate_csv = calloc(site->n_gates + 1, sizeof *r->gate_csv)) ==
+            NULL)
         return nomem(err);
+    for (size_t g = 0; g < site->n_gates; g++) /* names < SW_SITE_NAME_MAX */
+        *sw_csv_field_put(r->gate_csv[g], site->gates[g].gate.name) = '\0';
     for (size_t g = 0; g < site->n_gates; g++)
         if ((rc = sw_crit_cache_alloc(&r->crit[g], &site->gates[g].gate,
                                       STEP_CACHE, err)) != SW_OK)
@@ -105,8 +115,10 @@ static int open_outputs(sw_replay *r, sw_error *err)
     sw_report_summary_header(r->out[SW_REPLAY_SUMMARY].fp);
     sw_report_events_header(r->out[SW_REPLAY_EVENTS].fp);
     sw_report_flags_header(r->out[SW_REPLAY_FLAGS].fp);
-    if (r->opt.steps)
+    if (r->opt.steps) { /* then rows in place: sw_outfile_room() */
         sw_report_steps_header(r->out[SW_REPLAY_STEPS].fp);
+        fflush(r->out[SW_REPLAY_STEPS].fp);
+    }
     if (r->opt.by_month)
         sw_report_months_header(r->out[SW_REPLAY_MONTHS].fp);
     return SW_OK;
@@ -181,11 +193,27 @@ static void write_flags(sw_replay *r)
     }
 }
 
+/* The levels' text of a step row, made again only when they change. */
+static const char *levels_text(sw_replay *r, const sw_gate_result *g)
+{
+    if (!r->levels_set || memcmp(&g->headwater_m, &r->levels_hw,
+                                 sizeof r->levels_hw) != 0 ||
+        memcmp(&g->tailwater_m, &r->levels_tw, sizeof r->levels_tw) != 0) {
+        *sw_report_levels_text(r->levels, g->headwater_m, g->tailwater_m) =
+            '\0';
+        r->levels_hw = g->headwater_m;
+        r->levels_tw = g->tailwater_m;
+        r->levels_set = 1;
+    }
+    return r->levels;
+}
+
 /* Every gate known at this point, with its critical tailwaters (a failed
- * search leaves those columns empty). */
+ * search leaves those columns empty), written in place. */
 static void write_steps(sw_replay *r)
 {
     const sw_site *site = r->site;
+    sw_outfile *out = &r->out[SW_REPLAY_STEPS];
     char when[64];
     sw_time_format(when, sizeof when, sw_stepper_time(r->st), site->zone);
     for (size_t g = 0; g < site->n_gates; g++) {
@@ -196,9 +224,10 @@ static void write_steps(sw_replay *r)
             continue;
         int ok = sw_crit_cache_tailwater(r->crit[g], sg->result.headwater_m,
                                          &alarm, &open, &ignored) == SW_OK;
-        sw_report_step_row(r->out[SW_REPLAY_STEPS].fp, when,
-                           site->gates[g].gate.name, &sg->result,
-                           ok ? &alarm : NULL, ok ? &open : NULL);
+        sw_outfile_commit(out, sw_report_step_text(
+                                   sw_outfile_room(out), when, r->gate_csv[g],
+                                   levels_text(r, &sg->result), &sg->result,
+                                   ok ? &alarm : NULL, ok ? &open : NULL));
     }
     if (r->out[SW_REPLAY_SAMPLE_STEPS].fp != NULL)
         sw_samplerun_step_rows(r->out[SW_REPLAY_SAMPLE_STEPS].fp, r->samples,
@@ -394,6 +423,7 @@ void sw_replay_free(sw_replay *r)
     for (size_t g = 0; r->crit != NULL && g < r->site->n_gates; g++)
         sw_crit_cache_free(r->crit[g]);
     free(r->crit);
+    free(r->gate_csv);
     sw_html_report_free(r->rep);
     sw_event_log_free(r->log);
     sw_stepper_free(r->st);

@@ -22,21 +22,58 @@ long long sw_report_hours4(sw_time_ms ms)
 /* An instant's text (sw_time_format's longest is far below this). */
 #define INSTANT_MAX 64
 
-/* The decimal digits of v (v >= 0) at w, at least `width` of them. */
+/* A step row's longest text (report.h). */
+_Static_assert(7 * FIXED_MAX + INSTANT_MAX + 2 * SW_REPORT_GATE_MAX + 32 <=
+                   SW_REPORT_STEP_MAX,
+               "a step row fits SW_REPORT_STEP_MAX");
+_Static_assert(2 * FIXED_MAX + 1 <= SW_REPORT_LEVELS_MAX,
+               "two levels fit SW_REPORT_LEVELS_MAX");
+
+/* How many decimal digits v has. */
+static int count_digits(unsigned long long v)
+{
+    int n = 1;
+    while (v >= 10000) {
+        v /= 10000;
+        n += 4;
+    }
+    return n + (v >= 10) + (v >= 100) + (v >= 1000);
+}
+
+/* The decimal digits of v at w, at least `width` of them (width <= 20).
+ * Written in place from the last digit, two at a time from a table (no
+ * copy through a scratch buffer, which the compiler turns into a call to
+ * memcpy): step logs write tens of millions of numbers. */
 static char *put_uint(char *w, unsigned long long v, int width)
 {
-    char tmp[24];
-    int n = 0;
+    static const char pairs[] = "00010203040506070809"
+                                "10111213141516171819"
+                                "20212223242526272829"
+                                "30313233343536373839"
+                                "40414243444546474849"
+                                "50515253545556575859"
+                                "60616263646566676869"
+                                "70717273747576777879"
+                                "80818283848586878889"
+                                "90919293949596979899";
+    int n = count_digits(v);
+    char *end = w + (n > width ? n : width), *p = end;
 
-    do {
-        tmp[n++] = (char)('0' + v % 10);
-        v /= 10;
-    } while (v > 0);
-    while (n < width)
-        tmp[n++] = '0';
-    while (n > 0)
-        *w++ = tmp[--n];
-    return w;
+    while (v >= 100) {
+        unsigned r = (unsigned)(v % 100);
+        v /= 100;
+        p -= 2;
+        memcpy(p, pairs + 2 * r, 2);
+    }
+    if (v >= 10) {
+        p -= 2;
+        memcpy(p, pairs + 2 * v, 2);
+    } else {
+        *--p = (char)('0' + v);
+    }
+    while (p > w)
+        *--p = '0';
+    return end;
 }
 
 static char *put_text(char *w, const char *s)
@@ -44,6 +81,13 @@ static char *put_text(char *w, const char *s)
     while (*s != '\0')
         *w++ = *s++;
     return w;
+}
+
+/* The point and the fraction's `digits` digits. */
+static char *put_point(char *w, uint64_t frac, int digits)
+{
+    *w++ = '.';
+    return put_uint(w, frac, digits);
 }
 
 /* x as printf's "%.<digits>f" writes it (digits 0..4): the exact binary
@@ -55,7 +99,6 @@ static char *put_text(char *w, const char *s)
 static char *put_fixed(char *w, double x, int digits)
 {
     static const unsigned pow5[5] = {1, 5, 25, 125, 625};
-    static const unsigned pow10[5] = {1, 10, 100, 1000, 10000};
     uint64_t bits, m, n, q;
     int e, s;
 
@@ -87,12 +130,13 @@ static char *put_fixed(char *w, double x, int digits)
     }
     if ((bits >> 63) && q != 0) /* no "-0.00": a zero has no sign */
         *w++ = '-';
-    w = put_uint(w, q / pow10[digits], 1);
-    if (digits > 0) {
-        *w++ = '.';
-        w = put_uint(w, q % pow10[digits], digits);
+    switch (digits) { /* constant divisors: multiplications */
+    case 0: return put_uint(w, q, 1);
+    case 1: return put_point(put_uint(w, q / 10, 1), q % 10, 1);
+    case 2: return put_point(put_uint(w, q / 100, 1), q % 100, 2);
+    case 3: return put_point(put_uint(w, q / 1000, 1), q % 1000, 3);
+    default: return put_point(put_uint(w, q / 10000, 1), q % 10000, 4);
     }
-    return w;
 }
 
 static char *put_hours(char *w, long long h4)
@@ -252,18 +296,17 @@ static char *put_crit(char *w, const sw_crit *c)
     return w;
 }
 
-void sw_report_step_row(FILE *fp, const char *when, const char *gate,
-                        const sw_gate_result *r, const sw_crit *alarm,
-                        const sw_crit *open)
+char *sw_report_levels_text(char *w, double hw, double tw)
 {
-    char line[7 * FIXED_MAX + 128], *w = line;
+    w = put_fixed(w, hw, 4);
+    *w++ = ',';
+    return put_fixed(w, tw, 4);
+}
 
-    fputs(when, fp);
-    fputc(',', fp);
-    *w++ = ',';
-    w = put_fixed(w, r->headwater_m, 4);
-    *w++ = ',';
-    w = put_fixed(w, r->tailwater_m, 4);
+/* A step row after the levels: ",net_moment,...,tw_open\n". */
+static char *put_step_values(char *w, const sw_gate_result *r,
+                             const sw_crit *alarm, const sw_crit *open)
+{
     *w++ = ',';
     w = put_fixed(w, r->net_moment_Nm, 2);
     *w++ = ',';
@@ -277,7 +320,33 @@ void sw_report_step_row(FILE *fp, const char *when, const char *gate,
     *w++ = ',';
     w = put_crit(w, open);
     *w++ = '\n';
+    return w;
+}
+
+char *sw_report_step_text(char *w, const char *when, const char *gate_csv,
+                          const char *levels, const sw_gate_result *r,
+                          const sw_crit *alarm, const sw_crit *open)
+{
+    w = put_text(w, when);
+    *w++ = ',';
+    w = put_text(w, gate_csv);
+    *w++ = ',';
+    w = put_text(w, levels);
+    return put_step_values(w, r, alarm, open);
+}
+
+void sw_report_step_row(FILE *fp, const char *when, const char *gate,
+                        const sw_gate_result *r, const sw_crit *alarm,
+                        const sw_crit *open)
+{
+    char line[SW_REPORT_STEP_MAX], *w = line;
+
+    fputs(when, fp);
+    fputc(',', fp);
     sw_csv_put_field(fp, gate);
+    *w++ = ',';
+    w = sw_report_levels_text(w, r->headwater_m, r->tailwater_m);
+    w = put_step_values(w, r, alarm, open);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
 

@@ -20,7 +20,7 @@
 static int replay_to_end(const sw_site *site, sw_stepper **st,
                          sw_error *err)
 {
-    sw_stepper_options opt = {0, 0};
+    sw_stepper_options opt = {0, 0, 0};
     int rc, done = 0;
 
     if ((rc = sw_stepper_alloc(st, site, &opt, err)) != SW_OK)

@@ -119,6 +119,7 @@ typedef struct point {
 
 typedef struct gate_state {
     const sw_gate *gate;
+    sw_load_memo *memo;      /* with opt.memo_loads, else NULL */
     size_t hw, tw;           /* series indices */
     sw_gate_bounds bounds;
     double rate_hw;          /* bound on d hw_moment / d hw, N*m per m */
@@ -596,6 +597,13 @@ int sw_stepper_alloc(sw_stepper **out, const sw_site *site,
             goto cleanup;
         }
         init_gate(g, &sg->gate);
+        if (st->opt.memo_loads) {
+            if ((g->memo = malloc(sizeof *g->memo)) == NULL) {
+                rc = nomem(err);
+                goto cleanup;
+            }
+            sw_load_memo_clear(g->memo);
+        }
     }
     for (size_t i = 0; i < st->n_series; i++) {
         series_state *s = &st->series[i];
@@ -640,6 +648,8 @@ void sw_stepper_free(sw_stepper *st)
     free(st->timeline.items);
     free(st->readers);
     free(st->series);
+    for (size_t g = 0; st->gates != NULL && g < st->n_gates; g++)
+        free(st->gates[g].memo);
     free(st->gates);
     free(st->events);
     free(st->months);
@@ -889,7 +899,7 @@ static void evaluate(sw_stepper *st, gate_state *g, sw_time_ms t, double hw,
                      double tw, point *p)
 {
     p->t = t;
-    sw_gate_evaluate(g->gate, hw, tw, &p->r);
+    sw_gate_evaluate_memo(g->gate, g->memo, hw, tw, &p->r);
     sw_gate_margins(g->gate, &p->r, p->m);
     p->state = (int)p->r.state;
     st->evaluations++;
@@ -997,7 +1007,7 @@ static int push_change(sw_stepper *st, gate_state *g, sw_time_ms a,
         } else { /* inside the interval being settled: levels are linear */
             double hw = level_at(&st->series[g->hw], a);
             double tw = level_at(&st->series[g->tw], a);
-            sw_gate_evaluate(g->gate, hw, tw, &r);
+            sw_gate_evaluate_memo(g->gate, g->memo, hw, tw, &r);
         }
         c.hw_m = r.headwater_m;
         c.tw_m = r.tailwater_m;

@@ -11,10 +11,18 @@
 #ifndef SILLWATCH_CSVOUT_H
 #define SILLWATCH_CSVOUT_H
 
+#include <stddef.h>
 #include <stdio.h>
 
 /* Nonzero when `text` must be quoted in CSV. */
 int sw_csv_needs_quotes(const char *text);
+
+/* At most how many bytes sw_csv_field_put() writes for `text`. */
+size_t sw_csv_field_max(const char *text);
+
+/* Put `text` at w as one CSV field, quoted when it needs to be (room for
+ * sw_csv_field_max(text) bytes; no NUL); returns the end. */
+char *sw_csv_field_put(char *w, const char *text);
 
 /* Write `text` to `fp` as one CSV field, quoted when it needs to be.
  * Write errors are left to the stream (sw_outfile_close() checks them). */

@@ -145,6 +145,27 @@ void sw_gate_prepare(sw_gate *gate);
 void sw_gate_evaluate(const sw_gate *gate, double hw_m, double tw_m,
                       sw_gate_result *out);
 
+/* Water loads remembered by exact level, per side, for one gate: a
+ * record of gauge readings visits a few thousand distinct levels, and a
+ * load costs an integration (a circle's: roots and an atan2).  A pure
+ * function remembered, so results are bit for bit sw_gate_evaluate()'s.
+ * Direct-mapped on the level's bits; 24 KiB. */
+#define SW_LOAD_MEMO 512
+typedef struct sw_load_memo {
+    unsigned long long key[2][SW_LOAD_MEMO]; /* level bits; ~0: empty */
+    double force_N[2][SW_LOAD_MEMO];
+    double moment_Nm[2][SW_LOAD_MEMO];
+} sw_load_memo;
+
+/* Empty the memo (before its first use with a gate, and whenever the
+ * gate or its waters change). */
+void sw_load_memo_clear(sw_load_memo *memo);
+
+/* sw_gate_evaluate() with the water loads taken from, or put in, `memo`
+ * (of this gate only). */
+void sw_gate_evaluate_memo(const sw_gate *gate, sw_load_memo *memo,
+                           double hw_m, double tw_m, sw_gate_result *out);
+
 /* The hydrostatic force (N) and its moment about the hinge (N*m) of water
  * at `level_m` with density `rho_kgm3` on the sealed opening.  Both are
  * >= 0.  Exposed for tests and reports. */

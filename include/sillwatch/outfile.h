@@ -27,11 +27,25 @@
 
 #include "sillwatch/error.h"
 
+/* The chunks in which long outputs are written (outfile.c). */
+#define SW_OUTFILE_CHUNK ((size_t)1 << 18)
+
+/* SHA-256 as 64 hex digits and a NUL. */
+#define SW_SHA256_HEX 65
+
+typedef struct sw_outsink sw_outsink;
+
+/* Writing goes through `fp` (a stdio stream over the file's sink: the
+ * bytes are hashed as they are written, and long outputs are written in
+ * large chunks on a thread of their own, see outfile.c). */
 typedef struct sw_outfile {
     FILE *fp;                       /* write here; NULL when not open */
     char tmp[SW_ERROR_PATH_MAX];    /* the temporary file */
     char path[SW_ERROR_PATH_MAX];   /* where it goes */
     int closed;                     /* closed, waiting to be published */
+    sw_outsink *sink;               /* behind fp (outfile.c) */
+    unsigned long long bytes;       /* once closed: the bytes written */
+    char sha256[SW_SHA256_HEX];     /* once closed: their SHA-256 */
 } sw_outfile;
 
 /* The name of an output set's manifest. */
@@ -43,9 +57,19 @@ int sw_outfile_open(sw_outfile *f, const char *dir, const char *name,
                     sw_error *err);
 
 /* Flush, sync and close the temporary file, checking every write that went
- * before (a full disk shows here).  Returns SW_OK or SW_EOUTPUT; on error
- * the temporary file is removed. */
+ * before (a full disk shows here), and set f->bytes and f->sha256.
+ * Returns SW_OK or SW_EOUTPUT; on error the temporary file is removed. */
 int sw_outfile_close(sw_outfile *f, sw_error *err);
+
+/* Writing in place, for outputs of many short rows (the step log):
+ * sw_outfile_room() gives room for up to SW_OUTFILE_ROOM_MAX bytes at the
+ * output's end (inside the chunk being filled, so nothing is copied), the
+ * caller writes there and hands sw_outfile_commit() the end of what it
+ * wrote.  Text written through f->fp before must have been flushed
+ * (fflush).  A failure is kept and reported by sw_outfile_close(). */
+#define SW_OUTFILE_ROOM_MAX 4096
+char *sw_outfile_room(sw_outfile *f);
+void sw_outfile_commit(sw_outfile *f, const char *end);
 
 /* SW_OK when `path` is missing or a regular file (not a symbolic link);
  * SW_EOUTPUT otherwise (a folder, a device, a FIFO, a socket, a link):
@@ -71,7 +95,6 @@ typedef struct sw_outset_meta {
 /* SHA-256 of the file at `path` as 64 hex digits and a NUL (nettle).
  * Errors: `code` (the caller's: SW_ESITE for a site file, SW_EDATA for a
  * level file) with the reason. */
-#define SW_SHA256_HEX 65
 int sw_file_sha256(const char *path, char hex[SW_SHA256_HEX], int code,
                    sw_error *err);
 

@@ -91,6 +91,8 @@ typedef struct sw_gap_stats {
 typedef struct sw_stepper_options {
     int by_month;             /* split hours by calendar month (site zone) */
     int keep_points;          /* fill sw_step_gate.result at each point */
+    int memo_loads;           /* remember water loads by exact level, per
+                                 gate (sw_load_memo: 24 KiB a gate) */
 } sw_stepper_options;
 
 /* A change of the state a gate's time is booked in (SW_STATE_OK, LOW,

@@ -122,6 +122,89 @@ static void test_set_over_set(void **state)
     remove_dir(dir);
 }
 
+/* Write `size` bytes of a known sequence through an output file in pieces
+ * of odd sizes (1 to 70,001 bytes), close it, and check the file against
+ * the sequence byte for byte, its size, and the SHA-256 taken as it was
+ * written against GNU coreutils' sha256sum of the file (an independent
+ * implementation).  Sizes around and across the sink's chunks: the first
+ * chunk, a chunk exactly, the ring of chunks filled more than once. */
+static void write_and_check(const char *dir, size_t size)
+{
+    sw_outfile f;
+    sw_error err;
+    unsigned char *want = malloc(size + 1), *got = malloc(size + 1);
+    unsigned long x = 2463534242UL;
+    char path[600], cmd[800], hex[80] = "";
+    size_t at = 0, piece = 1;
+    FILE *fp;
+
+    assert_non_null(want);
+    assert_non_null(got);
+    for (size_t i = 0; i < size; i++) {
+        x ^= x << 13, x ^= x >> 17, x ^= x << 5, x &= 0xffffffffUL;
+        want[i] = (unsigned char)(x >> 11);
+    }
+    memset(&f, 0, sizeof f);
+    assert_int_equal(sw_outfile_open(&f, dir, "big.csv", &err), SW_OK);
+    while (at < size) {
+        size_t n = size - at < piece ? size - at : piece;
+        assert_int_equal(fwrite(want + at, 1, n, f.fp), n);
+        at += n;
+        piece = (piece * 7 + 3) % 70001 + 1;
+    }
+    assert_int_equal(sw_outfile_close(&f, &err), SW_OK);
+    assert_int_equal(f.bytes, size);
+    snprintf(path, sizeof path, "%s", f.tmp);
+    fp = fopen(path, "rb");
+    assert_non_null(fp);
+    assert_int_equal(fread(got, 1, size + 1, fp), size);
+    fclose(fp);
+    assert_memory_equal(got, want, size);
+    snprintf(cmd, sizeof cmd, "sha256sum '%s'", path);
+    fp = popen(cmd, "r");
+    assert_non_null(fp);
+    assert_non_null(fgets(hex, sizeof hex, fp));
+    pclose(fp);
+    hex[64] = '\0';
+    assert_string_equal(f.sha256, hex);
+    sw_outfile_abort(&f);
+    free(want);
+    free(got);
+}
+
+static void check_sizes(const char *dir)
+{
+    const size_t c = SW_OUTFILE_CHUNK;
+    const size_t sizes[] = {0, 1, 4095, 4096, c - 1, c, c + 1,
+                            2 * c, 3 * c + 17, 7 * c + 4099};
+    for (size_t i = 0; i < sizeof sizes / sizeof sizes[0]; i++)
+        write_and_check(dir, sizes[i]);
+    assert_int_equal(entries(dir), 0); /* aborted: nothing left */
+}
+
+/* On this test's folder (on the Debian machines here ext4, which takes
+ * O_DIRECT for the full chunks). */
+static void test_sink_sizes(void **state)
+{
+    char dir[256];
+    (void)state;
+    make_dir(dir, sizeof dir);
+    check_sizes(dir);
+    remove_dir(dir);
+}
+
+/* The same on /dev/shm where there is one: tmpfs, which (before Linux
+ * 6.6) refuses O_DIRECT, so the chunks are written buffered. */
+static void test_sink_sizes_tmpfs(void **state)
+{
+    char dir[] = "/dev/shm/sw_outset_XXXXXX";
+    (void)state;
+    if (access("/dev/shm", W_OK) != 0 || mkdtemp(dir) == NULL)
+        skip();
+    check_sizes(dir);
+    remove_dir(dir);
+}
+
 /* The journal a killed process leaves, by hand, for process 4194305
  * (above any Linux process id): `set` lists the names; `links` are the
  * names whose previous file is still in the journal. */
@@ -251,6 +334,8 @@ int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_set_over_set),
+        cmocka_unit_test(test_sink_sizes),
+        cmocka_unit_test(test_sink_sizes_tmpfs),
         cmocka_unit_test(test_recover_mid_publish),
         cmocka_unit_test(test_recover_mid_rollback),
         cmocka_unit_test(test_recover_after_publish),

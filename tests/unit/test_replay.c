@@ -128,7 +128,7 @@ static char *steps_direct(const sw_site *site, size_t *len)
     char *buf = NULL;
     FILE *fp = open_memstream(&buf, len);
     sw_stepper *st;
-    sw_stepper_options sopt = {0, 1};
+    sw_stepper_options sopt = {0, 1, 0};
     sw_error err;
     int done = 0;
 

@@ -106,7 +106,7 @@ static void test_zero_uncertainty_is_the_site(void **state)
     sw_uncert u;
     sw_samplerun sr;
     sw_stepper *st;
-    sw_stepper_options opt = {0, 0};
+    sw_stepper_options opt = {0, 0, 0};
     sw_error err;
     int done = 0;
     (void)state;
@@ -283,7 +283,7 @@ static void test_screen_zero_uncertainty(void **state)
     sw_uncert u;
     sw_samplescreen ss;
     sw_stepper *st;
-    sw_stepper_options opt = {0, 0};
+    sw_stepper_options opt = {0, 0, 0};
     sw_error err;
     double hw[11];
     int done = 0;

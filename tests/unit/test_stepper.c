@@ -42,7 +42,7 @@ static int run_site(int by_month, run_result *out, sw_error *err)
     char path[128];
     sw_site site;
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {by_month, 0};
+    sw_stepper_options opt = {by_month, 0, 0};
     int rc, done = 0;
 
     memset(out, 0, sizeof *out);
@@ -652,7 +652,7 @@ static void test_wide_file_one_reader(void **state)
     sw_site site;
     sw_stepper *st;
     sw_error err;
-    sw_stepper_options opt = {0, 1};
+    sw_stepper_options opt = {0, 1, 0};
     int done = 0, steps = 0;
 
     assert_non_null(text);
@@ -745,7 +745,7 @@ static void run_changes(change_run *out)
     char path[128];
     sw_site site;
     sw_stepper *st = NULL;
-    sw_stepper_options opt = {0, 0};
+    sw_stepper_options opt = {0, 0, 0};
     sw_error err;
     int done = 0;
 
