@@ -589,7 +589,7 @@ static void side_load(const sw_gate *g, sw_load_memo *memo, sw_side side,
         return;
     }
     memcpy(&bits, &level, sizeof bits);
-    k = (size_t)((bits * 0x9e3779b97f4a7c15ull) >> 55); /* 9 bits: 512 */
+    k = (size_t)((bits * 0x9e3779b97f4a7c15ull) >> 55); /* 9 bits */
     if (memo->key[side][k] != bits) {
         sw_gate_water_load(g, level, g->rho_kgm3[side],
                            &memo->force_N[side][k], &memo->moment_Nm[side][k]);

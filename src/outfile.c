@@ -76,7 +76,7 @@ static int make_tmp(char *buf, size_t n, const char *dir, const char *name)
  * reported by sw_outfile_close(). */
 
 #define SINK_CHUNK SW_OUTFILE_CHUNK
-#define SINK_SLOTS 3
+#define SINK_SLOTS 4
 #define SINK_ALIGN 4096 /* the largest logical block O_DIRECT asks for */
 
 struct sw_outsink {

@@ -5,16 +5,12 @@
 #include <string.h>
 
 #include "sillwatch/cancel.h"
-#include "sillwatch/critcache.h"
-#include "sillwatch/csvout.h"
 #include "sillwatch/htmlreport.h"
 #include "sillwatch/jsonout.h"
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
+#include "sillwatch/steplog.h"
 
-/* Critical levels remembered per gate for steps.csv: a season visits a
- * few thousand distinct headwaters (a power of two) */
-#define STEP_CACHE 4096
 
 static const char *const out_names[SW_REPLAY_N_OUT] = {
     "summary.csv", "events.csv",  "flags.csv",   "steps.csv",
@@ -29,11 +25,7 @@ struct sw_replay {
     sw_stepper *st;
     sw_html_report *rep;
     sw_event_log *log;
-    sw_crit_cache **crit; /* per gate, with opt.steps */
-    char (*gate_csv)[2 * SW_REPORT_GATE_MAX + 2]; /* names as CSV fields */
-    double levels_hw, levels_tw;  /* the levels of the last step row ... */
-    int levels_set;
-    char levels[SW_REPORT_LEVELS_MAX + 1]; /* ... and their text */
+    sw_steplog *steps; /* with opt.steps */
     const sw_samplerun *samples; /* run --samples, or NULL */
     sw_outfile out[SW_REPLAY_N_OUT];
     long points;
@@ -88,18 +80,6 @@ static int alloc_parts(sw_replay *r, sw_error *err)
          (rc = sw_html_report_alloc(&r->rep, site, err)) != SW_OK) ||
         (rc = sw_event_log_alloc(&r->log, site->n_gates, err)) != SW_OK)
         return rc;
-    if (!r->opt.steps)
-        return SW_OK;
-    if ((r->crit = calloc(site->n_gates + 1, sizeof *r->crit)) == NULL ||
-        (r->gate_csv = calloc(site->n_gates + 1, sizeof *r->gate_csv)) ==
-            NULL)
-        return nomem(err);
-    for (size_t g = 0; g < site->n_gates; g++) /* names < SW_SITE_NAME_MAX */
-        *sw_csv_field_put(r->gate_csv[g], site->gates[g].gate.name) = '\0';
-    for (size_t g = 0; g < site->n_gates; g++)
-        if ((rc = sw_crit_cache_alloc(&r->crit[g], &site->gates[g].gate,
-                                      STEP_CACHE, err)) != SW_OK)
-            return rc;
     return SW_OK;
 }
 
@@ -115,10 +95,10 @@ static int open_outputs(sw_replay *r, sw_error *err)
     sw_report_summary_header(r->out[SW_REPLAY_SUMMARY].fp);
     sw_report_events_header(r->out[SW_REPLAY_EVENTS].fp);
     sw_report_flags_header(r->out[SW_REPLAY_FLAGS].fp);
-    if (r->opt.steps) { /* then rows in place: sw_outfile_room() */
-        sw_report_steps_header(r->out[SW_REPLAY_STEPS].fp);
-        fflush(r->out[SW_REPLAY_STEPS].fp);
-    }
+    if (r->opt.steps &&
+        (rc = sw_steplog_open(&r->steps, r->site, &r->out[SW_REPLAY_STEPS],
+                              err)) != SW_OK)
+        return rc;
     if (r->opt.by_month)
         sw_report_months_header(r->out[SW_REPLAY_MONTHS].fp);
     return SW_OK;
@@ -193,45 +173,17 @@ static void write_flags(sw_replay *r)
     }
 }
 
-/* The levels' text of a step row, made again only when they change. */
-static const char *levels_text(sw_replay *r, const sw_gate_result *g)
-{
-    if (!r->levels_set || memcmp(&g->headwater_m, &r->levels_hw,
-                                 sizeof r->levels_hw) != 0 ||
-        memcmp(&g->tailwater_m, &r->levels_tw, sizeof r->levels_tw) != 0) {
-        *sw_report_levels_text(r->levels, g->headwater_m, g->tailwater_m) =
-            '\0';
-        r->levels_hw = g->headwater_m;
-        r->levels_tw = g->tailwater_m;
-        r->levels_set = 1;
-    }
-    return r->levels;
-}
-
-/* Every gate known at this point, with its critical tailwaters (a failed
- * search leaves those columns empty), written in place. */
+/* Every gate known at this point in the step logs. */
 static void write_steps(sw_replay *r)
 {
-    const sw_site *site = r->site;
-    sw_outfile *out = &r->out[SW_REPLAY_STEPS];
     char when[64];
-    sw_time_format(when, sizeof when, sw_stepper_time(r->st), site->zone);
-    for (size_t g = 0; g < site->n_gates; g++) {
-        const sw_step_gate *sg = sw_stepper_gate_at(r->st, g);
-        sw_crit alarm, open;
-        sw_error ignored;
-        if (!sg->known)
-            continue;
-        int ok = sw_crit_cache_tailwater(r->crit[g], sg->result.headwater_m,
-                                         &alarm, &open, &ignored) == SW_OK;
-        sw_outfile_commit(out, sw_report_step_text(
-                                   sw_outfile_room(out), when, r->gate_csv[g],
-                                   levels_text(r, &sg->result), &sg->result,
-                                   ok ? &alarm : NULL, ok ? &open : NULL));
-    }
-    if (r->out[SW_REPLAY_SAMPLE_STEPS].fp != NULL)
-        sw_samplerun_step_rows(r->out[SW_REPLAY_SAMPLE_STEPS].fp, r->samples,
-                               when, r->st);
+    sw_steplog_point(r->steps, r->st);
+    if (r->out[SW_REPLAY_SAMPLE_STEPS].fp == NULL)
+        return;
+    sw_time_format(when, sizeof when, sw_stepper_time(r->st),
+                   r->site->zone);
+    sw_samplerun_step_rows(r->out[SW_REPLAY_SAMPLE_STEPS].fp, r->samples,
+                           when, r->st);
 }
 
 /* Write what the last advance or finish exposed, and hand it to the
@@ -393,6 +345,8 @@ int sw_replay_finish(sw_replay *r, const sw_replay_meta *meta,
     if ((rc = write_point(r, err)) != SW_OK ||
         (rc = write_closing(r, meta, err)) != SW_OK)
         return rc;
+    if (r->steps != NULL)
+        sw_steplog_finish(r->steps);
     for (int k = 0; k < SW_REPLAY_N_OUT; k++)
         if ((rc = sw_outfile_close(&r->out[k], err)) != SW_OK)
             return rc;
@@ -418,12 +372,9 @@ void sw_replay_free(sw_replay *r)
 {
     if (r == NULL)
         return;
+    sw_steplog_free(r->steps); /* it writes into out[SW_REPLAY_STEPS] */
     for (int k = 0; k < SW_REPLAY_N_OUT; k++)
         sw_outfile_abort(&r->out[k]);
-    for (size_t g = 0; r->crit != NULL && g < r->site->n_gates; g++)
-        sw_crit_cache_free(r->crit[g]);
-    free(r->crit);
-    free(r->gate_csv);
     sw_html_report_free(r->rep);
     sw_event_log_free(r->log);
     sw_stepper_free(r->st);

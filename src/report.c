@@ -83,12 +83,21 @@ static char *put_text(char *w, const char *s)
     return w;
 }
 
-/* The point and the fraction's `digits` digits. */
-static char *put_point(char *w, uint64_t frac, int digits)
-{
-    *w++ = '.';
-    return put_uint(w, frac, digits);
-}
+/* A decimal point put before the last k digits written (end at w):
+ * fixed sizes, so the moves are a load and a store each. */
+#define INSERT_POINT(k)                                                      \
+    static char *insert_point##k(char *w)                                    \
+    {                                                                        \
+        char frac[k];                                                        \
+        memcpy(frac, w - (k), (k));                                          \
+        w[-(k)] = '.';                                                       \
+        memcpy(w - (k) + 1, frac, (k));                                      \
+        return w + 1;                                                        \
+    }
+INSERT_POINT(1)
+INSERT_POINT(2)
+INSERT_POINT(3)
+INSERT_POINT(4)
 
 /* x as printf's "%.<digits>f" writes it (digits 0..4): the exact binary
  * value rounded to the nearest multiple of 10^-digits, ties to even, with
@@ -130,12 +139,12 @@ static char *put_fixed(char *w, double x, int digits)
     }
     if ((bits >> 63) && q != 0) /* no "-0.00": a zero has no sign */
         *w++ = '-';
-    switch (digits) { /* constant divisors: multiplications */
+    switch (digits) { /* all of q's digits, then the point moved in */
     case 0: return put_uint(w, q, 1);
-    case 1: return put_point(put_uint(w, q / 10, 1), q % 10, 1);
-    case 2: return put_point(put_uint(w, q / 100, 1), q % 100, 2);
-    case 3: return put_point(put_uint(w, q / 1000, 1), q % 1000, 3);
-    default: return put_point(put_uint(w, q / 10000, 1), q % 10000, 4);
+    case 1: return insert_point1(put_uint(w, q, 2));
+    case 2: return insert_point2(put_uint(w, q, 3));
+    case 3: return insert_point3(put_uint(w, q, 4));
+    default: return insert_point4(put_uint(w, q, 5));
     }
 }
 
@@ -304,7 +313,7 @@ char *sw_report_levels_text(char *w, double hw, double tw)
 }
 
 /* A step row after the levels: ",net_moment,...,tw_open\n". */
-static char *put_step_values(char *w, const sw_gate_result *r,
+static char *put_step_values(char *w, const sw_step_figures *r,
                              const sw_crit *alarm, const sw_crit *open)
 {
     *w++ = ',';
@@ -324,7 +333,7 @@ static char *put_step_values(char *w, const sw_gate_result *r,
 }
 
 char *sw_report_step_text(char *w, const char *when, const char *gate_csv,
-                          const char *levels, const sw_gate_result *r,
+                          const char *levels, const sw_step_figures *r,
                           const sw_crit *alarm, const sw_crit *open)
 {
     w = put_text(w, when);
@@ -340,13 +349,15 @@ void sw_report_step_row(FILE *fp, const char *when, const char *gate,
                         const sw_crit *open)
 {
     char line[SW_REPORT_STEP_MAX], *w = line;
+    sw_step_figures f = {r->headwater_m, r->tailwater_m, r->net_moment_Nm,
+                         r->fs,          r->sill_reaction_N, r->state};
 
     fputs(when, fp);
     fputc(',', fp);
     sw_csv_put_field(fp, gate);
     *w++ = ',';
-    w = sw_report_levels_text(w, r->headwater_m, r->tailwater_m);
-    w = put_step_values(w, r, alarm, open);
+    w = sw_report_levels_text(w, f.headwater_m, f.tailwater_m);
+    w = put_step_values(w, &f, alarm, open);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
 

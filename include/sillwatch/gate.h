@@ -149,7 +149,7 @@ void sw_gate_evaluate(const sw_gate *gate, double hw_m, double tw_m,
  * record of gauge readings visits a few thousand distinct levels, and a
  * load costs an integration (a circle's: roots and an atan2).  A pure
  * function remembered, so results are bit for bit sw_gate_evaluate()'s.
- * Direct-mapped on the level's bits; 24 KiB. */
+ * Direct-mapped on the level's bits; 192 KiB. */
 #define SW_LOAD_MEMO 512
 typedef struct sw_load_memo {
     unsigned long long key[2][SW_LOAD_MEMO]; /* level bits; ~0: empty */

@@ -46,13 +46,18 @@ void sw_report_step_row(FILE *fp, const char *when, const char *gate,
 /* The same row as text at w, which has room for SW_REPORT_STEP_MAX bytes
  * (no NUL is written); `gate_csv` is the gate's name already as a CSV
  * field (sw_csv_field_put) of at most 2 * SW_REPORT_GATE_MAX bytes, and
- * `levels` the text sw_report_levels_text() made of the result's levels
- * (the gates of a point mostly share them).  Returns the end.  For
+ * `levels` the text sw_report_levels_text() made of the levels (the
+ * gates of a point mostly share them); `f` holds the result's figures
+ * that the row shows.  Returns the end.  For
  * writing in place (sw_outfile_room). */
 #define SW_REPORT_GATE_MAX SW_SITE_NAME_MAX
 #define SW_REPORT_STEP_MAX 3072
+typedef struct sw_step_figures {
+    double headwater_m, tailwater_m, net_moment_Nm, fs, sill_reaction_N;
+    sw_state state;
+} sw_step_figures;
 char *sw_report_step_text(char *w, const char *when, const char *gate_csv,
-                          const char *levels, const sw_gate_result *r,
+                          const char *levels, const sw_step_figures *f,
                           const sw_crit *alarm, const sw_crit *open);
 
 /* "headwater,tailwater" of a step row at w (room for

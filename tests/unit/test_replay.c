@@ -19,15 +19,17 @@
 /* Two invented gates (a vertical rectangle and an inclined circle with a
  * buoyant leaf) whose critical tailwaters are needed over much of the
  * record; a tidal tailwater crosses them.  Invented test data. */
-/* 2000 rows at 15 min: the headwater to the millimetre (so headwaters
- * repeat, as a gauge's do), the tailwater a tide; a gap of 3 h. */
+/* 20,000 rows at 15 min: the headwater to the millimetre (so headwaters
+ * repeat, as a gauge's do), the tailwater a tide; a gap of 3 h.  The step
+ * log's 40,000 rows (2.8 MB) go round the step log's ring of batches and
+ * the output sink's ring of chunks several times. */
 static void write_levels(void)
 {
-    static char text[2000 * 48 + 32];
+    static char text[20000 * 48 + 32];
     size_t n = 0;
     unsigned seed = 2718u;
     n += (size_t)snprintf(text + n, sizeof text - n, "time,hw,tw\n");
-    for (int i = 0; i < 2000; i++) {
+    for (int i = 0; i < 20000; i++) {
         if (i >= 900 && i < 912)
             continue; /* a gap longer than max_gap */
         seed = seed * 1103515245u + 12345u;

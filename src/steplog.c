@@ -1,0 +1,250 @@
+/* sillwatch: the step log written on a thread of its own (steplog.h). */
+#include "sillwatch/steplog.h"
+
+#include <pthread.h>
+#include <signal.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "sillwatch/critcache.h"
+#include "sillwatch/csvout.h"
+#include "sillwatch/report.h"
+
+/* Critical levels remembered per gate: a season visits a few thousand
+ * distinct headwaters (a power of two). */
+#define CRIT_SLOTS 4096
+
+/* Rows a batch holds, and batches in the ring (about 512 KiB in all). */
+#define BATCH_ROWS 1024
+#define SLOTS 8
+
+typedef struct row {
+    sw_time_ms t;
+    size_t gate;
+    sw_step_figures f;
+} row;
+
+typedef struct batch {
+    size_t n;
+    row rows[BATCH_ROWS];
+} batch;
+
+struct sw_steplog {
+    const sw_site *site;
+    sw_outfile *file;
+    batch *slot[SLOTS];     /* full batches head.. (count of them), then
+                               the one being filled */
+    unsigned head, count;
+    batch *fill;            /* slot[(head + count) % SLOTS] */
+    int threaded, stop, drop;
+    pthread_t thread;
+    pthread_mutex_t mu;
+    pthread_cond_t cv;
+    /* the formatting side's own (the log's thread, or the caller's) */
+    sw_crit_cache **crit;   /* per gate */
+    char (*gate_csv)[2 * SW_REPORT_GATE_MAX + 2]; /* names as CSV fields */
+    sw_time_ms when_t;      /* the time of the last row ... */
+    int when_set;
+    char when[64];          /* ... as text */
+    double levels_hw, levels_tw; /* the levels of the last row ... */
+    int levels_set;
+    char levels[SW_REPORT_LEVELS_MAX + 1]; /* ... as text */
+};
+
+/* The time's text, made again only when it changes. */
+static const char *when_text(sw_steplog *l, sw_time_ms t)
+{
+    if (!l->when_set || t != l->when_t) {
+        sw_time_format(l->when, sizeof l->when, t, l->site->zone);
+        l->when_t = t;
+        l->when_set = 1;
+    }
+    return l->when;
+}
+
+/* The levels' text, made again only when they change (bit for bit). */
+static const char *levels_text(sw_steplog *l, const sw_step_figures *f)
+{
+    if (!l->levels_set ||
+        memcmp(&f->headwater_m, &l->levels_hw, sizeof l->levels_hw) != 0 ||
+        memcmp(&f->tailwater_m, &l->levels_tw, sizeof l->levels_tw) != 0) {
+        *sw_report_levels_text(l->levels, f->headwater_m, f->tailwater_m) =
+            '\0';
+        l->levels_hw = f->headwater_m;
+        l->levels_tw = f->tailwater_m;
+        l->levels_set = 1;
+    }
+    return l->levels;
+}
+
+/* Format a batch's rows into the file (a failed critical-level search
+ * leaves those columns empty, as sw_report_step_row's callers do). */
+static void format_batch(sw_steplog *l, const batch *b)
+{
+    for (size_t i = 0; i < b->n; i++) {
+        const row *r = &b->rows[i];
+        sw_crit alarm, open;
+        sw_error ignored;
+        int ok = sw_crit_cache_tailwater(l->crit[r->gate], r->f.headwater_m,
+                                         &alarm, &open, &ignored) == SW_OK;
+        sw_outfile_commit(l->file,
+                          sw_report_step_text(sw_outfile_room(l->file),
+                                              when_text(l, r->t),
+                                              l->gate_csv[r->gate],
+                                              levels_text(l, &r->f), &r->f,
+                                              ok ? &alarm : NULL,
+                                              ok ? &open : NULL));
+    }
+}
+
+static void *formatter(void *arg)
+{
+    sw_steplog *l = arg;
+    pthread_mutex_lock(&l->mu);
+    for (;;) {
+        while (l->count == 0 && !l->stop)
+            pthread_cond_wait(&l->cv, &l->mu);
+        if (l->count == 0 || l->drop)
+            break;
+        batch *b = l->slot[l->head];
+        pthread_mutex_unlock(&l->mu);
+        format_batch(l, b);
+        pthread_mutex_lock(&l->mu);
+        l->head = (l->head + 1) % SLOTS;
+        l->count--;
+        pthread_cond_broadcast(&l->cv);
+    }
+    pthread_mutex_unlock(&l->mu);
+    return NULL;
+}
+
+/* The batch being filled is full (or the log ends): hand it over. */
+static void hand_over(sw_steplog *l)
+{
+    if (!l->threaded) {
+        format_batch(l, l->fill);
+        l->fill->n = 0;
+        return;
+    }
+    pthread_mutex_lock(&l->mu);
+    l->count++;
+    pthread_cond_broadcast(&l->cv);
+    while (l->count == SLOTS)
+        pthread_cond_wait(&l->cv, &l->mu);
+    l->fill = l->slot[(l->head + l->count) % SLOTS];
+    pthread_mutex_unlock(&l->mu);
+    l->fill->n = 0;
+}
+
+void sw_steplog_point(sw_steplog *l, const sw_stepper *st)
+{
+    sw_time_ms t = sw_stepper_time(st);
+    for (size_t g = 0; g < l->site->n_gates; g++) {
+        const sw_step_gate *sg = sw_stepper_gate_at(st, g);
+        const sw_gate_result *res = &sg->result;
+        if (!sg->known)
+            continue;
+        row *r = &l->fill->rows[l->fill->n++];
+        r->t = t;
+        r->gate = g;
+        r->f = (sw_step_figures){res->headwater_m, res->tailwater_m,
+                                 res->net_moment_Nm, res->fs,
+                                 res->sill_reaction_N, res->state};
+        if (l->fill->n == BATCH_ROWS)
+            hand_over(l);
+    }
+}
+
+/* End the thread; `drop`: without formatting what is still queued. */
+static void stop_thread(sw_steplog *l, int drop)
+{
+    if (!l->threaded)
+        return;
+    pthread_mutex_lock(&l->mu);
+    l->drop = drop;
+    l->stop = 1;
+    pthread_cond_broadcast(&l->cv);
+    pthread_mutex_unlock(&l->mu);
+    pthread_join(l->thread, NULL);
+    l->threaded = 0;
+}
+
+void sw_steplog_finish(sw_steplog *l)
+{
+    stop_thread(l, 0);  /* every full batch formatted */
+    format_batch(l, l->fill); /* and the last, here */
+    l->fill->n = 0;
+}
+
+/* Start the thread, signals blocked in it (they are the main thread's). */
+static void start_thread(sw_steplog *l)
+{
+    sigset_t all, old;
+    sigfillset(&all);
+    pthread_sigmask(SIG_BLOCK, &all, &old);
+    l->threaded = pthread_create(&l->thread, NULL, formatter, l) == 0;
+    pthread_sigmask(SIG_SETMASK, &old, NULL);
+}
+
+static int alloc_parts(sw_steplog *l, sw_error *err)
+{
+    const sw_site *site = l->site;
+    int rc;
+    for (int k = 0; k < SLOTS; k++)
+        if ((l->slot[k] = malloc(sizeof *l->slot[k])) == NULL)
+            return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    l->crit = calloc(site->n_gates + 1, sizeof *l->crit);
+    l->gate_csv = calloc(site->n_gates + 1, sizeof *l->gate_csv);
+    if (l->crit == NULL || l->gate_csv == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    for (size_t g = 0; g < site->n_gates; g++) {
+        if ((rc = sw_crit_cache_alloc(&l->crit[g], &site->gates[g].gate,
+                                      CRIT_SLOTS, err)) != SW_OK)
+            return rc;
+        /* names are shorter than SW_SITE_NAME_MAX */
+        *sw_csv_field_put(l->gate_csv[g], site->gates[g].gate.name) = '\0';
+    }
+    return SW_OK;
+}
+
+int sw_steplog_open(sw_steplog **out, const sw_site *site, sw_outfile *file,
+                    sw_error *err)
+{
+    sw_steplog *l = calloc(1, sizeof *l);
+    int rc;
+
+    *out = NULL;
+    if (l == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    l->site = site;
+    l->file = file;
+    pthread_mutex_init(&l->mu, NULL);
+    pthread_cond_init(&l->cv, NULL);
+    if ((rc = alloc_parts(l, err)) != SW_OK) {
+        sw_steplog_free(l);
+        return rc;
+    }
+    l->fill = l->slot[0];
+    l->fill->n = 0;
+    sw_report_steps_header(file->fp);
+    fflush(file->fp); /* then rows in place */
+    start_thread(l);
+    *out = l;
+    return SW_OK;
+}
+
+void sw_steplog_free(sw_steplog *l)
+{
+    if (l == NULL)
+        return;
+    stop_thread(l, 1);
+    for (size_t g = 0; l->crit != NULL && g < l->site->n_gates; g++)
+        sw_crit_cache_free(l->crit[g]);
+    free(l->crit);
+    free(l->gate_csv);
+    for (int k = 0; k < SLOTS; k++)
+        free(l->slot[k]);
+    pthread_mutex_destroy(&l->mu);
+    pthread_cond_destroy(&l->cv);
+    free(l);
+}
