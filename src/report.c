@@ -22,54 +22,78 @@ long long sw_report_hours4(sw_time_ms ms)
 /* An instant's text (sw_time_format's longest is far below this). */
 #define INSTANT_MAX 64
 
-/* A step row's longest text (report.h). */
-_Static_assert(7 * FIXED_MAX + INSTANT_MAX + 2 * SW_REPORT_GATE_MAX + 32 <=
-                   SW_REPORT_STEP_MAX,
-               "a step row fits SW_REPORT_STEP_MAX");
+/* A step row's longest parts (report.h). */
+_Static_assert(5 * FIXED_MAX + 16 <= SW_REPORT_VALUES_MAX,
+               "a step row's values fit SW_REPORT_VALUES_MAX");
 _Static_assert(2 * FIXED_MAX + 1 <= SW_REPORT_LEVELS_MAX,
                "two levels fit SW_REPORT_LEVELS_MAX");
 
-/* How many decimal digits v has. */
-static int count_digits(unsigned long long v)
+static const char digit_pairs[] = "00010203040506070809"
+                                  "10111213141516171819"
+                                  "20212223242526272829"
+                                  "30313233343536373839"
+                                  "40414243444546474849"
+                                  "50515253545556575859"
+                                  "60616263646566676869"
+                                  "70717273747576777879"
+                                  "80818283848586878889"
+                                  "90919293949596979899";
+
+/* How many decimal digits x has. */
+static int count_digits32(unsigned x)
 {
-    int n = 1;
-    while (v >= 10000) {
-        v /= 10000;
-        n += 4;
-    }
-    return n + (v >= 10) + (v >= 100) + (v >= 1000);
+    if (x < 10000)
+        return x < 10 ? 1 : x < 100 ? 2 : x < 1000 ? 3 : 4;
+    if (x < 100000000)
+        return x < 100000 ? 5 : x < 1000000 ? 6 : x < 10000000 ? 7 : 8;
+    return x < 1000000000 ? 9 : 10;
 }
 
-/* The decimal digits of v at w, at least `width` of them (width <= 20).
- * Written in place from the last digit, two at a time from a table (no
- * copy through a scratch buffer, which the compiler turns into a call to
- * memcpy): step logs write tens of millions of numbers. */
+/* The digits of x ending at `end`, two at a time from the table, in
+ * 32-bit arithmetic (division by a constant: a multiplication). */
+static char *put_digits32(char *end, unsigned x)
+{
+    char *p = end;
+    while (x >= 100) {
+        unsigned q = x / 100;
+        p -= 2;
+        memcpy(p, digit_pairs + 2 * (x - 100 * q), 2);
+        x = q;
+    }
+    if (x >= 10) {
+        p -= 2;
+        memcpy(p, digit_pairs + 2 * x, 2);
+    } else {
+        *--p = (char)('0' + x);
+    }
+    return p;
+}
+
+/* The decimal digits of v at w, at least `width` of them (width <= 20),
+ * written in place from the last digit (no scratch copy, which the
+ * compiler turns into a call to memcpy): step logs write tens of millions
+ * of numbers. */
 static char *put_uint(char *w, unsigned long long v, int width)
 {
-    static const char pairs[] = "00010203040506070809"
-                                "10111213141516171819"
-                                "20212223242526272829"
-                                "30313233343536373839"
-                                "40414243444546474849"
-                                "50515253545556575859"
-                                "60616263646566676869"
-                                "70717273747576777879"
-                                "80818283848586878889"
-                                "90919293949596979899";
-    int n = count_digits(v);
-    char *end = w + (n > width ? n : width), *p = end;
+    char *end, *p;
+    int n;
 
-    while (v >= 100) {
-        unsigned r = (unsigned)(v % 100);
-        v /= 100;
-        p -= 2;
-        memcpy(p, pairs + 2 * r, 2);
-    }
-    if (v >= 10) {
-        p -= 2;
-        memcpy(p, pairs + 2 * v, 2);
-    } else {
-        *--p = (char)('0' + v);
+    if (v <= 0xffffffffu) {
+        n = count_digits32((unsigned)v);
+        end = w + (n > width ? n : width);
+        p = put_digits32(end, (unsigned)v);
+    } else { /* above 2^32 (rare): two digits at a time in 64 bits */
+        n = 1;
+        for (unsigned long long t = v; t >= 10; t /= 10)
+            n++;
+        end = p = w + (n > width ? n : width);
+        while (v > 0xffffffffu) {
+            unsigned r = (unsigned)(v % 100);
+            v /= 100;
+            p -= 2;
+            memcpy(p, digit_pairs + 2 * r, 2);
+        }
+        p = put_digits32(p, (unsigned)v);
     }
     while (p > w)
         *--p = '0';
@@ -101,7 +125,9 @@ INSERT_POINT(4)
 
 /* x as printf's "%.<digits>f" writes it (digits 0..4): the exact binary
  * value rounded to the nearest multiple of 10^-digits, ties to even, with
- * the sign of x (also for a negative zero).  For x = m * 2^e (m < 2^53),
+ * the sign of x, except that a result of zero has none (printf writes
+ * "-0.0000" for -0.0 and for small negatives; a table showing both zeros
+ * only confuses).  For x = m * 2^e (m < 2^53),
  * x * 10^digits = m * 5^digits * 2^(e + digits), an integer shifted,
  * which fits 64 bits (5^4 < 2^10); the shifted-out bits decide the
  * rounding.  Values not finite or beyond 10^11 go to snprintf. */
@@ -312,9 +338,8 @@ char *sw_report_levels_text(char *w, double hw, double tw)
     return put_fixed(w, tw, 4);
 }
 
-/* A step row after the levels: ",net_moment,...,tw_open\n". */
-static char *put_step_values(char *w, const sw_step_figures *r,
-                             const sw_crit *alarm, const sw_crit *open)
+char *sw_report_step_values(char *w, const sw_step_figures *r,
+                            const sw_crit *alarm, const sw_crit *open)
 {
     *w++ = ',';
     w = put_fixed(w, r->net_moment_Nm, 2);
@@ -332,23 +357,11 @@ static char *put_step_values(char *w, const sw_step_figures *r,
     return w;
 }
 
-char *sw_report_step_text(char *w, const char *when, const char *gate_csv,
-                          const char *levels, const sw_step_figures *r,
-                          const sw_crit *alarm, const sw_crit *open)
-{
-    w = put_text(w, when);
-    *w++ = ',';
-    w = put_text(w, gate_csv);
-    *w++ = ',';
-    w = put_text(w, levels);
-    return put_step_values(w, r, alarm, open);
-}
-
 void sw_report_step_row(FILE *fp, const char *when, const char *gate,
                         const sw_gate_result *r, const sw_crit *alarm,
                         const sw_crit *open)
 {
-    char line[SW_REPORT_STEP_MAX], *w = line;
+    char line[SW_REPORT_LEVELS_MAX + SW_REPORT_VALUES_MAX + 1], *w = line;
     sw_step_figures f = {r->headwater_m, r->tailwater_m, r->net_moment_Nm,
                          r->fs,          r->sill_reaction_N, r->state};
 
@@ -357,7 +370,7 @@ void sw_report_step_row(FILE *fp, const char *when, const char *gate,
     sw_csv_put_field(fp, gate);
     *w++ = ',';
     w = sw_report_levels_text(w, f.headwater_m, f.tailwater_m);
-    w = put_step_values(w, &f, alarm, open);
+    w = sw_report_step_values(w, &f, alarm, open);
     fwrite(line, 1, (size_t)(w - line), fp);
 }
 

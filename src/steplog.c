@@ -18,6 +18,14 @@
 #define BATCH_ROWS 1024
 #define SLOTS 8
 
+/* A piece of a row's text and its length. */
+#define GATE_TEXT (2 * SW_SITE_NAME_MAX + 3)
+#define WHEN_TEXT 72
+typedef struct text {
+    size_t n;
+    char s[SW_REPORT_LEVELS_MAX]; /* the longest: two levels */
+} text;
+
 typedef struct row {
     sw_time_ms t;
     size_t gate;
@@ -42,39 +50,55 @@ struct sw_steplog {
     pthread_cond_t cv;
     /* the formatting side's own (the log's thread, or the caller's) */
     sw_crit_cache **crit;   /* per gate */
-    char (*gate_csv)[2 * SW_REPORT_GATE_MAX + 2]; /* names as CSV fields */
+    text *gate;             /* per gate: the name as a CSV field, "," */
     sw_time_ms when_t;      /* the time of the last row ... */
     int when_set;
-    char when[64];          /* ... as text */
+    text when;              /* ... as text, "," */
     double levels_hw, levels_tw; /* the levels of the last row ... */
     int levels_set;
-    char levels[SW_REPORT_LEVELS_MAX + 1]; /* ... as text */
+    text levels;            /* ... as text */
 };
 
-/* The time's text, made again only when it changes. */
-static const char *when_text(sw_steplog *l, sw_time_ms t)
+/* A row's longest text, which must fit the room sw_outfile_room() gives. */
+_Static_assert(GATE_TEXT + WHEN_TEXT + SW_REPORT_LEVELS_MAX +
+                       SW_REPORT_VALUES_MAX <=
+                   SW_OUTFILE_ROOM_MAX,
+               "a step row fits the room of an output file");
+
+/* The time's text and a comma, made again only when it changes. */
+static const text *when_text(sw_steplog *l, sw_time_ms t)
 {
     if (!l->when_set || t != l->when_t) {
-        sw_time_format(l->when, sizeof l->when, t, l->site->zone);
+        int k = sw_time_format(l->when.s, WHEN_TEXT - 1, t, l->site->zone);
+        l->when.n = k < 0 ? 0 : k >= WHEN_TEXT - 1 ? WHEN_TEXT - 2 : (size_t)k;
+        l->when.s[l->when.n++] = ',';
         l->when_t = t;
         l->when_set = 1;
     }
-    return l->when;
+    return &l->when;
 }
 
 /* The levels' text, made again only when they change (bit for bit). */
-static const char *levels_text(sw_steplog *l, const sw_step_figures *f)
+static const text *levels_text(sw_steplog *l, const sw_step_figures *f)
 {
     if (!l->levels_set ||
         memcmp(&f->headwater_m, &l->levels_hw, sizeof l->levels_hw) != 0 ||
         memcmp(&f->tailwater_m, &l->levels_tw, sizeof l->levels_tw) != 0) {
-        *sw_report_levels_text(l->levels, f->headwater_m, f->tailwater_m) =
-            '\0';
+        l->levels.n = (size_t)(sw_report_levels_text(l->levels.s,
+                                                     f->headwater_m,
+                                                     f->tailwater_m) -
+                               l->levels.s);
         l->levels_hw = f->headwater_m;
         l->levels_tw = f->tailwater_m;
         l->levels_set = 1;
     }
-    return l->levels;
+    return &l->levels;
+}
+
+static char *put(char *w, const text *t)
+{
+    memcpy(w, t->s, t->n);
+    return w + t->n;
 }
 
 /* Format a batch's rows into the file (a failed critical-level search
@@ -87,13 +111,13 @@ static void format_batch(sw_steplog *l, const batch *b)
         sw_error ignored;
         int ok = sw_crit_cache_tailwater(l->crit[r->gate], r->f.headwater_m,
                                          &alarm, &open, &ignored) == SW_OK;
+        char *w = sw_outfile_room(l->file);
+        w = put(w, when_text(l, r->t));
+        w = put(w, &l->gate[r->gate]);
+        w = put(w, levels_text(l, &r->f));
         sw_outfile_commit(l->file,
-                          sw_report_step_text(sw_outfile_room(l->file),
-                                              when_text(l, r->t),
-                                              l->gate_csv[r->gate],
-                                              levels_text(l, &r->f), &r->f,
-                                              ok ? &alarm : NULL,
-                                              ok ? &open : NULL));
+                          sw_report_step_values(w, &r->f, ok ? &alarm : NULL,
+                                                ok ? &open : NULL));
     }
 }
 
@@ -194,15 +218,18 @@ static int alloc_parts(sw_steplog *l, sw_error *err)
         if ((l->slot[k] = malloc(sizeof *l->slot[k])) == NULL)
             return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
     l->crit = calloc(site->n_gates + 1, sizeof *l->crit);
-    l->gate_csv = calloc(site->n_gates + 1, sizeof *l->gate_csv);
-    if (l->crit == NULL || l->gate_csv == NULL)
+    l->gate = calloc(site->n_gates + 1, sizeof *l->gate);
+    if (l->crit == NULL || l->gate == NULL)
         return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
     for (size_t g = 0; g < site->n_gates; g++) {
         if ((rc = sw_crit_cache_alloc(&l->crit[g], &site->gates[g].gate,
                                       CRIT_SLOTS, err)) != SW_OK)
             return rc;
-        /* names are shorter than SW_SITE_NAME_MAX */
-        *sw_csv_field_put(l->gate_csv[g], site->gates[g].gate.name) = '\0';
+        /* names are shorter than SW_SITE_NAME_MAX: GATE_TEXT holds them */
+        text *t = &l->gate[g];
+        t->n = (size_t)(sw_csv_field_put(t->s, site->gates[g].gate.name) -
+                        t->s);
+        t->s[t->n++] = ',';
     }
     return SW_OK;
 }
@@ -241,7 +268,7 @@ void sw_steplog_free(sw_steplog *l)
     for (size_t g = 0; l->crit != NULL && g < l->site->n_gates; g++)
         sw_crit_cache_free(l->crit[g]);
     free(l->crit);
-    free(l->gate_csv);
+    free(l->gate);
     for (int k = 0; k < SLOTS; k++)
         free(l->slot[k]);
     pthread_mutex_destroy(&l->mu);

@@ -43,27 +43,21 @@ void sw_report_step_row(FILE *fp, const char *when, const char *gate,
                         const sw_gate_result *r, const sw_crit *alarm,
                         const sw_crit *open);
 
-/* The same row as text at w, which has room for SW_REPORT_STEP_MAX bytes
- * (no NUL is written); `gate_csv` is the gate's name already as a CSV
- * field (sw_csv_field_put) of at most 2 * SW_REPORT_GATE_MAX bytes, and
- * `levels` the text sw_report_levels_text() made of the levels (the
- * gates of a point mostly share them); `f` holds the result's figures
- * that the row shows.  Returns the end.  For
- * writing in place (sw_outfile_room). */
-#define SW_REPORT_GATE_MAX SW_SITE_NAME_MAX
-#define SW_REPORT_STEP_MAX 3072
+/* The same row in parts, for writing in place (sw_outfile_room):
+ * sw_report_levels_text() puts "headwater,tailwater" at w (room for
+ * SW_REPORT_LEVELS_MAX bytes; no NUL) and returns the end; the caller
+ * writes "time,gate," (the gate's name as a CSV field) and the levels, and
+ * sw_report_step_values() puts the rest, ",net_moment,...,tw_open\n"
+ * (room for SW_REPORT_VALUES_MAX bytes), from the figures `f`. */
+#define SW_REPORT_LEVELS_MAX 672
+#define SW_REPORT_VALUES_MAX 1792
 typedef struct sw_step_figures {
     double headwater_m, tailwater_m, net_moment_Nm, fs, sill_reaction_N;
     sw_state state;
 } sw_step_figures;
-char *sw_report_step_text(char *w, const char *when, const char *gate_csv,
-                          const char *levels, const sw_step_figures *f,
-                          const sw_crit *alarm, const sw_crit *open);
-
-/* "headwater,tailwater" of a step row at w (room for
- * SW_REPORT_LEVELS_MAX bytes; no NUL); returns the end. */
-#define SW_REPORT_LEVELS_MAX 672
 char *sw_report_levels_text(char *w, double hw, double tw);
+char *sw_report_step_values(char *w, const sw_step_figures *f,
+                            const sw_crit *alarm, const sw_crit *open);
 
 void sw_report_months_header(FILE *fp);
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
