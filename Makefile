@@ -24,9 +24,15 @@ ALL_CFLAGS = -std=c11 -D_POSIX_C_SOURCE=200809L $(WARN) $(WERROR_FLAG) \
              $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
 # Recursive (=) so that pkg-config runs after tools/check-deps.sh has
 # installed it on a new machine; the fallbacks are Debian's link lines.
-LDLIBS_ALL = $(shell pkg-config --libs $(PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson -lnetcdf) -pthread \
-             -lcsv -lm $(EXTRA_LDFLAGS)
-TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka)
+# libnetcdf is not linked: src/netcdfload.c loads it by its SONAME at
+# the first NetCDF file (it and its HDF5 and curl cost every process
+# 9 MiB); its headers are still compiled against.
+LINK_PKGS := gsl inih nettle jansson
+LDLIBS_ALL = $(shell pkg-config --libs $(LINK_PKGS) 2>/dev/null || echo -lgsl -lgslcblas -linih -lnettle -ljansson) -pthread \
+             -lcsv -lm -ldl $(EXTRA_LDFLAGS)
+NETCDF_SONAME = $(shell objdump -p "$$(pkg-config --variable=libdir netcdf 2>/dev/null)/libnetcdf.so" 2>/dev/null | awk '/SONAME/ { print $$2 }')
+TEST_LIBS  = $(shell pkg-config --libs cmocka 2>/dev/null || echo -lcmocka) \
+             $(shell pkg-config --libs netcdf 2>/dev/null || echo -lnetcdf)
 
 # The library: every src/*.c except the program's own files.
 CLI_SRC   := src/main.c $(wildcard src/cmd_*.c)
@@ -58,6 +64,10 @@ deps: $(DEPS_OK)
 $(BUILD)/obj/%.o: src/%.c | $(DEPS_OK)
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -MMD -MP -c $< -o $@
+
+# The netCDF library's file name, read from the library built against
+# (Debian 12: libnetcdf.so.19); without it, the development link name.
+$(BUILD)/obj/netcdfload.o: ALL_CFLAGS += $(if $(NETCDF_SONAME),-DSW_NETCDF_LIB=\"$(NETCDF_SONAME)\")
 
 $(LIB): $(LIB_OBJ)
 	@rm -f $@

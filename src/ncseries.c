@@ -10,6 +10,31 @@
 
 #include <netcdf.h>
 
+#include "netcdfload.h"
+
+/* The netCDF functions, called through the table loaded at first use
+ * (netcdfload.h): sw_nc_open() and sw_nc_members() load it first. */
+#define nc_open(...) sw_netcdf->nc_open(__VA_ARGS__)
+#define nc_close(...) sw_netcdf->nc_close(__VA_ARGS__)
+#define nc_strerror(...) sw_netcdf->nc_strerror(__VA_ARGS__)
+#define nc_free_string(...) sw_netcdf->nc_free_string(__VA_ARGS__)
+#define nc_get_att_double(...) sw_netcdf->nc_get_att_double(__VA_ARGS__)
+#define nc_get_att_string(...) sw_netcdf->nc_get_att_string(__VA_ARGS__)
+#define nc_get_att_text(...) sw_netcdf->nc_get_att_text(__VA_ARGS__)
+#define nc_get_var1_double(...) sw_netcdf->nc_get_var1_double(__VA_ARGS__)
+#define nc_get_var1_longlong(...) sw_netcdf->nc_get_var1_longlong(__VA_ARGS__)
+#define nc_get_var1_string(...) sw_netcdf->nc_get_var1_string(__VA_ARGS__)
+#define nc_get_vara_double(...) sw_netcdf->nc_get_vara_double(__VA_ARGS__)
+#define nc_get_vara_text(...) sw_netcdf->nc_get_vara_text(__VA_ARGS__)
+#define nc_inq_att(...) sw_netcdf->nc_inq_att(__VA_ARGS__)
+#define nc_inq_dimlen(...) sw_netcdf->nc_inq_dimlen(__VA_ARGS__)
+#define nc_inq_dimname(...) sw_netcdf->nc_inq_dimname(__VA_ARGS__)
+#define nc_inq_nvars(...) sw_netcdf->nc_inq_nvars(__VA_ARGS__)
+#define nc_inq_vardimid(...) sw_netcdf->nc_inq_vardimid(__VA_ARGS__)
+#define nc_inq_varid(...) sw_netcdf->nc_inq_varid(__VA_ARGS__)
+#define nc_inq_varndims(...) sw_netcdf->nc_inq_varndims(__VA_ARGS__)
+#define nc_inq_vartype(...) sw_netcdf->nc_inq_vartype(__VA_ARGS__)
+
 #define LEVEL_MAX_ABS 1e5 /* as for CSV level files (series.c) */
 #define LABEL_MAX 64
 #define BLOCK 512 /* time steps read at once per variable */
@@ -465,11 +490,14 @@ int sw_nc_open(sw_nc **out, const sw_reader_config *cfg,
                const sw_column_config *columns, size_t n_columns,
                sw_reader_stats *stats, sw_error *err)
 {
-    sw_nc *nc = calloc(1, sizeof *nc);
+    sw_nc *nc;
     int station_dim, rc;
     size_t station;
 
     *out = NULL;
+    if ((rc = sw_netcdf_load(cfg->path, err)) != SW_OK)
+        return rc;
+    nc = calloc(1, sizeof *nc);
     if (nc == NULL || (nc->path = malloc(strlen(cfg->path) + 1)) == NULL) {
         free(nc);
         return sw_error_set(err, SW_ENOMEM, cfg->path, 0, 0, "out of memory");
@@ -680,6 +708,8 @@ int sw_nc_members(const char *path, const char *variable,
 
     *labels = *columns = NULL;
     *n = 0;
+    if ((rc = sw_netcdf_load(path, err)) != SW_OK)
+        return rc;
     if ((st = nc_open(path, NC_NOWRITE, &ncid)) != NC_NOERR)
         return nc_fail(path, st, err, "cannot open");
     if (nc_inq_varid(ncid, variable, &varid) != NC_NOERR) {
