@@ -80,6 +80,11 @@ void sw_crit_cache_counts(const sw_crit_cache *c, long *searched, long *hits)
     *hits = c->hits;
 }
 
+const sw_gate *sw_crit_cache_gate(const sw_crit_cache *c)
+{
+    return c->gate;
+}
+
 void sw_crit_cache_free(sw_crit_cache *c)
 {
     if (c == NULL)

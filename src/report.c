@@ -22,6 +22,9 @@ long long sw_report_hours4(sw_time_ms ms)
 /* An instant's text (sw_time_format's longest is far below this). */
 #define INSTANT_MAX 64
 
+/* Names a row builds in place (quoted: twice as long, and two more). */
+#define NAME_INLINE 260
+
 /* A step row's longest parts (report.h). */
 _Static_assert(5 * FIXED_MAX + 16 <= SW_REPORT_VALUES_MAX,
                "a step row's values fit SW_REPORT_VALUES_MAX");
@@ -403,6 +406,38 @@ void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
     w = put_min_fs(w, &m->tally, zone);
     *w++ = '\n';
     write_row(fp, gate, line, w);
+}
+
+void sw_report_required_row(FILE *fp, sw_time_ms t, const sw_zone *zone,
+                            const char *gate, const char *member, double hw,
+                            const sw_crit *alarm, const sw_crit *open)
+{
+    char line[INSTANT_MAX + 3 * FIXED_MAX + 2 * NAME_INLINE + 16],
+        *w = line;
+
+    /* the whole row in one buffer and one write; names too long for it
+     * (never from a site file) go through stdio first */
+    w = put_instant(w, t, zone);
+    *w++ = ',';
+    if (sw_csv_field_max(gate) + sw_csv_field_max(member) > 2 * NAME_INLINE) {
+        fwrite(line, 1, (size_t)(w - line), fp);
+        sw_csv_put_field(fp, gate);
+        fputc(',', fp);
+        sw_csv_put_field(fp, member);
+        w = line;
+    } else {
+        w = sw_csv_field_put(w, gate);
+        *w++ = ',';
+        w = sw_csv_field_put(w, member);
+    }
+    *w++ = ',';
+    w = put_fixed(w, hw, 4);
+    *w++ = ',';
+    w = put_crit(w, alarm);
+    *w++ = ',';
+    w = put_crit(w, open);
+    *w++ = '\n';
+    fwrite(line, 1, (size_t)(w - line), fp);
 }
 
 void sw_report_flags_header(FILE *fp)

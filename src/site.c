@@ -1908,6 +1908,16 @@ void sw_site_series_reader(const sw_site *site, const sw_site_series *s,
         col->missing[k] = s->missing[k];
 }
 
+int sw_site_series_same_reader(const sw_site_series *a,
+                               const sw_site_series *b)
+{
+    return strcmp(a->path, b->path) == 0 &&
+           strcmp(a->time_column, b->time_column) == 0 &&
+           a->time_format == b->time_format && a->delimiter == b->delimiter &&
+           a->netcdf == b->netcdf && strcmp(a->station, b->station) == 0 &&
+           strcmp(a->member_dim, b->member_dim) == 0;
+}
+
 void sw_site_fini(sw_site *site)
 {
     if (site == NULL)

@@ -241,15 +241,6 @@ static int push_event(sw_stepper *st, const sw_event *ev, sw_error *err)
 
 /* ---- setup -------------------------------------------------------------- */
 
-static int same_file(const sw_site_series *a, const sw_site_series *b)
-{
-    return strcmp(a->path, b->path) == 0 &&
-           strcmp(a->time_column, b->time_column) == 0 &&
-           a->time_format == b->time_format && a->delimiter == b->delimiter &&
-           a->netcdf == b->netcdf && strcmp(a->station, b->station) == 0 &&
-           strcmp(a->member_dim, b->member_dim) == 0;
-}
-
 /* The site's series sorted by name (then place): each gate finds its
  * series in log n steps (a search through the list for every gate was
  * quadratic in the gates of an expanded ensemble). */
@@ -313,7 +304,7 @@ static int use_series(sw_stepper *st, const sw_site_series *def,
     }
     size_t r;
     for (r = 0; r < st->n_readers; r++)
-        if (same_file(st->readers[r].first, def))
+        if (sw_site_series_same_reader(st->readers[r].first, def))
             break;
     reader_state *rs = &st->readers[r];
     if (rs->n_cols == rs->cap_cols) {

@@ -34,6 +34,9 @@ int sw_crit_cache_tailwater(sw_crit_cache *cache, double hw_m,
 void sw_crit_cache_counts(const sw_crit_cache *cache, long *searched,
                           long *hits);
 
+/* The gate the cache serves. */
+const sw_gate *sw_crit_cache_gate(const sw_crit_cache *cache);
+
 /* Release; NULL is accepted. */
 void sw_crit_cache_free(sw_crit_cache *cache);
 

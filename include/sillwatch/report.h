@@ -63,6 +63,13 @@ void sw_report_months_header(FILE *fp);
 void sw_report_month_row(FILE *fp, const char *gate, const sw_month_row *m,
                          const sw_zone *zone);
 
+/* required.csv (screen, headwater-only gates): the time, the gate, the
+ * member, the headwater and the critical tailwaters (4 decimals; a crit
+ * that is not a level prints as an empty field). */
+void sw_report_required_row(FILE *fp, sw_time_ms t, const sw_zone *zone,
+                            const char *gate, const char *member, double hw,
+                            const sw_crit *alarm, const sw_crit *open);
+
 /* flags.csv: one row per flagged reading: series, time, value (m above
  * the site datum, 4 decimals), test, file, line. */
 void sw_report_flags_header(FILE *fp);

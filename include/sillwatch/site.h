@@ -138,6 +138,12 @@ int sw_site_load(sw_site *site, const char *path, sw_error *err);
 void sw_site_series_reader(const sw_site *site, const sw_site_series *s,
                            sw_reader_config *cfg, sw_column_config *col);
 
+/* Whether series a and b can share one reader (the same file read the
+ * same way: path, time column and format, delimiter, NetCDF station and
+ * member dimension), each through its own column. */
+int sw_site_series_same_reader(const sw_site_series *a,
+                               const sw_site_series *b);
+
 /* The gate of `sg` (a gate of a loaded site) with its leaf's keys set to
  * value[] (sw_gate_param order, as sg->value: NAN where a key is not
  * given, so that its default applies and follows the other keys, as on
