@@ -2,6 +2,7 @@
  * that appear together or not at all (outfile.h). */
 #define _GNU_SOURCE /* O_DIRECT, fopencookie; O_DIRECTORY, O_CLOEXEC, d_type */
 #include "sillwatch/outfile.h"
+#include "sillwatch/handoff.h"
 
 #include <dirent.h>
 #include <errno.h>
@@ -17,7 +18,6 @@
 #include <unistd.h>
 
 #include <nettle/sha2.h>
-#include <pthread.h>
 
 /* Every temporary name starts ".sillwatch.PID." (outfile.h). */
 #define TMP_PREFIX ".sillwatch."
@@ -82,17 +82,12 @@ static int make_tmp(char *buf, size_t n, const char *dir, const char *name)
 struct sw_outsink {
     int fd;
     int direct;                        /* O_DIRECT was tried: 1 on, -1 off */
-    unsigned char *chunk[SINK_SLOTS];  /* allocated as first needed */
+    unsigned char *chunk[SINK_SLOTS];
     unsigned char *cur;                /* the chunk being filled */
     size_t fill;                       /* bytes in it */
-    unsigned head, count;              /* full chunks waiting: a ring; the
-                                          one being filled follows them */
-    int threaded;                      /* the writer thread runs */
-    int stop;                          /* no more chunks will come */
-    int error;                         /* errno of the first failed write */
-    pthread_t thread;
-    pthread_mutex_t mu;
-    pthread_cond_t cv;
+    sw_handoff ring;                   /* full chunks to the writer thread */
+    int error;                         /* errno of the first failed write
+                                          (the writer's; read after it) */
     struct sha256_ctx sha;
     unsigned long long bytes;
     char spill[SW_OUTFILE_ROOM_MAX];   /* room across a chunk's end */
@@ -135,72 +130,20 @@ static void put_chunk(sw_outsink *s, const unsigned char *buf)
                         : -1;
     }
     e = s->error ? 0 : write_all(s, buf, SINK_CHUNK);
-    if (e != 0) {
-        pthread_mutex_lock(&s->mu);
+    if (e != 0)
         s->error = e;
-        pthread_mutex_unlock(&s->mu);
-    }
 }
 
-static void *sink_writer(void *arg)
+static void consume_chunk(void *sink, void *chunk)
 {
-    sw_outsink *s = arg;
-    pthread_mutex_lock(&s->mu);
-    for (;;) {
-        while (s->count == 0 && !s->stop)
-            pthread_cond_wait(&s->cv, &s->mu);
-        if (s->count == 0)
-            break;
-        unsigned char *buf = s->chunk[s->head];
-        pthread_mutex_unlock(&s->mu);
-        put_chunk(s, buf);
-        pthread_mutex_lock(&s->mu);
-        s->head = (s->head + 1) % SINK_SLOTS;
-        s->count--;
-        pthread_cond_broadcast(&s->cv);
-    }
-    pthread_mutex_unlock(&s->mu);
-    return NULL;
+    put_chunk(sink, chunk);
 }
 
-/* Start the writer thread (signals blocked in it: they are the main
- * thread's); 0 when it could not start (chunks are then written here). */
-static int start_writer(sw_outsink *s)
+/* The chunk being filled is full: hand it to the writer thread. */
+static void hand_over(sw_outsink *s)
 {
-    sigset_t all, old;
-    sigfillset(&all);
-    pthread_sigmask(SIG_BLOCK, &all, &old);
-    s->threaded = pthread_create(&s->thread, NULL, sink_writer, s) == 0;
-    pthread_sigmask(SIG_SETMASK, &old, NULL);
-    return s->threaded;
-}
-
-/* The chunk being filled is full: hand it over, and make sure the next
- * slot is free and allocated.  0, or -1 with errno. */
-static int hand_over(sw_outsink *s)
-{
-    unsigned next;
-    if (!s->threaded && !start_writer(s)) {
-        put_chunk(s, s->cur); /* no thread: write it here */
-        s->fill = 0;
-        return 0;
-    }
-    pthread_mutex_lock(&s->mu);
-    s->count++;
-    pthread_cond_broadcast(&s->cv);
-    while (s->count == SINK_SLOTS)
-        pthread_cond_wait(&s->cv, &s->mu);
-    next = (s->head + s->count) % SINK_SLOTS;
-    pthread_mutex_unlock(&s->mu);
+    s->cur = sw_handoff_pass(&s->ring);
     s->fill = 0;
-    if (s->chunk[next] == NULL &&
-        posix_memalign((void **)&s->chunk[next], SINK_ALIGN, SINK_CHUNK) != 0) {
-        s->chunk[next] = NULL;
-        errno = ENOMEM;
-        return -1;
-    }
-    s->cur = s->chunk[next];
-    return 0;
 }
 
 static ssize_t sink_write(void *cookie, const char *buf, size_t n)
@@ -214,8 +157,8 @@ static ssize_t sink_write(void *cookie, const char *buf, size_t n)
         memcpy(s->cur + s->fill, buf + done, take);
         s->fill += take;
         done += take;
-        if (s->fill == SINK_CHUNK && hand_over(s) != 0)
-            return -1;
+        if (s->fill == SINK_CHUNK)
+            hand_over(s);
     }
     s->bytes += n;
     return (ssize_t)n;
@@ -227,30 +170,16 @@ static int sink_close(void *cookie)
     return 0;
 }
 
-/* Wait for the writer thread to write every full chunk, and end it. */
-static void sink_join(sw_outsink *s)
-{
-    if (!s->threaded)
-        return;
-    pthread_mutex_lock(&s->mu);
-    s->stop = 1;
-    pthread_cond_broadcast(&s->cv);
-    pthread_mutex_unlock(&s->mu);
-    pthread_join(s->thread, NULL);
-    s->threaded = 0;
-}
-
 static void sink_free(sw_outsink *s)
 {
     if (s == NULL)
         return;
-    sink_join(s);
+    sw_handoff_end(&s->ring, 1); /* given up: chunks not begun are dropped */
+    sw_handoff_fini(&s->ring);
     if (s->fd >= 0)
         close(s->fd);
     for (int k = 0; k < SINK_SLOTS; k++)
         free(s->chunk[k]);
-    pthread_mutex_destroy(&s->mu);
-    pthread_cond_destroy(&s->cv);
     free(s);
 }
 
@@ -267,12 +196,19 @@ static sw_outsink *sink_new(int fd, FILE **fp)
         return NULL;
     }
     s->fd = fd;
-    pthread_mutex_init(&s->mu, NULL);
-    pthread_cond_init(&s->cv, NULL);
     sha256_init(&s->sha);
-    if (posix_memalign((void **)&s->chunk[0], SINK_ALIGN, SINK_CHUNK) != 0 ||
-        (*fp = fopencookie(s, "w", io)) == NULL) {
-        s->chunk[0] = NULL;
+    for (int k = 0; k < SINK_SLOTS; k++) /* untouched pages cost nothing */
+        if (posix_memalign((void **)&s->chunk[k], SINK_ALIGN, SINK_CHUNK) !=
+            0)
+            s->chunk[k] = NULL;
+    sw_handoff_init(&s->ring, (void *const *)s->chunk, SINK_SLOTS,
+                    consume_chunk, s);
+    for (int k = 0; k < SINK_SLOTS; k++)
+        if (s->chunk[k] == NULL) {
+            sink_free(s);
+            return NULL;
+        }
+    if ((*fp = fopencookie(s, "w", io)) == NULL) {
         sink_free(s);
         return NULL;
     }
@@ -286,7 +222,7 @@ static int sink_finish(sw_outsink *s, char hex[SW_SHA256_HEX])
     uint8_t digest[SHA256_DIGEST_SIZE];
     int e;
 
-    sink_join(s);
+    sw_handoff_end(&s->ring, 0); /* every full chunk written */
     e = s->error;
     if (e == 0 && s->fill > 0) {
         const unsigned char *tail = s->cur;
@@ -387,20 +323,14 @@ void sw_outfile_commit(sw_outfile *f, const char *end)
     sw_outsink *s = f->sink;
     size_t n;
     if (end >= s->spill && end <= s->spill + sizeof s->spill) {
-        n = (size_t)(end - s->spill);
-        if (sink_write(s, s->spill, n) >= 0)
-            return;
-    } else {
-        n = (size_t)(end - ((char *)s->cur + s->fill));
-        s->fill += n;
-        s->bytes += n;
-        if (s->fill < SINK_CHUNK || hand_over(s) == 0)
-            return;
+        sink_write(s, s->spill, (size_t)(end - s->spill));
+        return;
     }
-    pthread_mutex_lock(&s->mu); /* out of memory: sw_outfile_close says */
-    if (s->error == 0)
-        s->error = errno ? errno : ENOMEM;
-    pthread_mutex_unlock(&s->mu);
+    n = (size_t)(end - ((char *)s->cur + s->fill));
+    s->fill += n;
+    s->bytes += n;
+    if (s->fill == SINK_CHUNK)
+        hand_over(s);
 }
 
 int sw_outfile_check_target(const char *path, sw_error *err)

@@ -1,13 +1,12 @@
 /* sillwatch: the step log written on a thread of its own (steplog.h). */
 #include "sillwatch/steplog.h"
 
-#include <pthread.h>
-#include <signal.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "sillwatch/critcache.h"
 #include "sillwatch/csvout.h"
+#include "sillwatch/handoff.h"
 #include "sillwatch/report.h"
 
 /* Critical levels remembered per gate: a season visits a few thousand
@@ -40,14 +39,10 @@ typedef struct batch {
 struct sw_steplog {
     const sw_site *site;
     sw_outfile *file;
-    batch *slot[SLOTS];     /* full batches head.. (count of them), then
-                               the one being filled */
-    unsigned head, count;
-    batch *fill;            /* slot[(head + count) % SLOTS] */
-    int threaded, stop, drop;
-    pthread_t thread;
-    pthread_mutex_t mu;
-    pthread_cond_t cv;
+    batch *slot[SLOTS];
+    sw_handoff ring;        /* full batches to the log's thread */
+    batch *fill;            /* the batch being filled */
+    int ready;              /* the ring is set up */
     /* the formatting side's own (the log's thread, or the caller's) */
     sw_crit_cache **crit;   /* per gate */
     text *gate;             /* per gate: the name as a CSV field, "," */
@@ -121,42 +116,15 @@ static void format_batch(sw_steplog *l, const batch *b)
     }
 }
 
-static void *formatter(void *arg)
+static void consume_batch(void *log, void *b)
 {
-    sw_steplog *l = arg;
-    pthread_mutex_lock(&l->mu);
-    for (;;) {
-        while (l->count == 0 && !l->stop)
-            pthread_cond_wait(&l->cv, &l->mu);
-        if (l->count == 0 || l->drop)
-            break;
-        batch *b = l->slot[l->head];
-        pthread_mutex_unlock(&l->mu);
-        format_batch(l, b);
-        pthread_mutex_lock(&l->mu);
-        l->head = (l->head + 1) % SLOTS;
-        l->count--;
-        pthread_cond_broadcast(&l->cv);
-    }
-    pthread_mutex_unlock(&l->mu);
-    return NULL;
+    format_batch(log, b);
 }
 
-/* The batch being filled is full (or the log ends): hand it over. */
+/* The batch being filled is full: hand it over. */
 static void hand_over(sw_steplog *l)
 {
-    if (!l->threaded) {
-        format_batch(l, l->fill);
-        l->fill->n = 0;
-        return;
-    }
-    pthread_mutex_lock(&l->mu);
-    l->count++;
-    pthread_cond_broadcast(&l->cv);
-    while (l->count == SLOTS)
-        pthread_cond_wait(&l->cv, &l->mu);
-    l->fill = l->slot[(l->head + l->count) % SLOTS];
-    pthread_mutex_unlock(&l->mu);
+    l->fill = sw_handoff_pass(&l->ring);
     l->fill->n = 0;
 }
 
@@ -179,35 +147,11 @@ void sw_steplog_point(sw_steplog *l, const sw_stepper *st)
     }
 }
 
-/* End the thread; `drop`: without formatting what is still queued. */
-static void stop_thread(sw_steplog *l, int drop)
-{
-    if (!l->threaded)
-        return;
-    pthread_mutex_lock(&l->mu);
-    l->drop = drop;
-    l->stop = 1;
-    pthread_cond_broadcast(&l->cv);
-    pthread_mutex_unlock(&l->mu);
-    pthread_join(l->thread, NULL);
-    l->threaded = 0;
-}
-
 void sw_steplog_finish(sw_steplog *l)
 {
-    stop_thread(l, 0);  /* every full batch formatted */
-    format_batch(l, l->fill); /* and the last, here */
+    sw_handoff_end(&l->ring, 0); /* every full batch formatted */
+    format_batch(l, l->fill);   /* and the last, here */
     l->fill->n = 0;
-}
-
-/* Start the thread, signals blocked in it (they are the main thread's). */
-static void start_thread(sw_steplog *l)
-{
-    sigset_t all, old;
-    sigfillset(&all);
-    pthread_sigmask(SIG_BLOCK, &all, &old);
-    l->threaded = pthread_create(&l->thread, NULL, formatter, l) == 0;
-    pthread_sigmask(SIG_SETMASK, &old, NULL);
 }
 
 static int alloc_parts(sw_steplog *l, sw_error *err)
@@ -245,17 +189,17 @@ int sw_steplog_open(sw_steplog **out, const sw_site *site, sw_outfile *file,
         return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
     l->site = site;
     l->file = file;
-    pthread_mutex_init(&l->mu, NULL);
-    pthread_cond_init(&l->cv, NULL);
     if ((rc = alloc_parts(l, err)) != SW_OK) {
         sw_steplog_free(l);
         return rc;
     }
+    sw_handoff_init(&l->ring, (void *const *)l->slot, SLOTS, consume_batch,
+                    l);
+    l->ready = 1;
     l->fill = l->slot[0];
     l->fill->n = 0;
     sw_report_steps_header(file->fp);
     fflush(file->fp); /* then rows in place */
-    start_thread(l);
     *out = l;
     return SW_OK;
 }
@@ -264,14 +208,15 @@ void sw_steplog_free(sw_steplog *l)
 {
     if (l == NULL)
         return;
-    stop_thread(l, 1);
+    if (l->ready) { /* given up: batches not begun are dropped */
+        sw_handoff_end(&l->ring, 1);
+        sw_handoff_fini(&l->ring);
+    }
     for (size_t g = 0; l->crit != NULL && g < l->site->n_gates; g++)
         sw_crit_cache_free(l->crit[g]);
     free(l->crit);
     free(l->gate);
     for (int k = 0; k < SLOTS; k++)
         free(l->slot[k]);
-    pthread_mutex_destroy(&l->mu);
-    pthread_cond_destroy(&l->cv);
     free(l);
 }

@@ -21,10 +21,10 @@
  * more near it.
  */
 #include "sillwatch/stepper.h"
+#include "sillwatch/handoff.h"
 
 #include <math.h>
 #include <pthread.h>
-#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -448,14 +448,7 @@ static int start_read_ahead(reader_state *rs, sw_error *err)
     }
     /* the reading thread never takes SIGINT or SIGTERM: they go to the
      * calling thread, whose blocking calls (opening a FIFO) they end */
-    sigset_t block, old;
-    sigemptyset(&block);
-    sigaddset(&block, SIGINT);
-    sigaddset(&block, SIGTERM);
-    pthread_sigmask(SIG_BLOCK, &block, &old);
-    int created = pthread_create(&rs->thread, NULL, read_ahead, rs);
-    pthread_sigmask(SIG_SETMASK, &old, NULL);
-    if (created != 0) {
+    if (sw_thread_start(&rs->thread, read_ahead, rs) != 0) {
         pthread_cond_destroy(&rs->cv);
         pthread_mutex_destroy(&rs->mu);
         return sw_error_set(err, SW_EINTERNAL, NULL, 0, 0,
