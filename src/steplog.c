@@ -49,6 +49,7 @@ struct sw_steplog {
     sw_time_ms when_t;      /* the time of the last row ... */
     int when_set;
     text when;              /* ... as text, "," */
+    sw_time_text_memo when_memo;
     double levels_hw, levels_tw; /* the levels of the last row ... */
     int levels_set;
     text levels;            /* ... as text */
@@ -60,12 +61,14 @@ _Static_assert(GATE_TEXT + WHEN_TEXT + SW_REPORT_LEVELS_MAX +
                    SW_OUTFILE_ROOM_MAX,
                "a step row fits the room of an output file");
 
-/* The time's text and a comma, made again only when it changes. */
+/* The time's text and a comma, made again only when it changes (and
+ * then mostly only its time of day: sw_time_format_memo). */
 static const text *when_text(sw_steplog *l, sw_time_ms t)
 {
     if (!l->when_set || t != l->when_t) {
-        int k = sw_time_format(l->when.s, WHEN_TEXT - 1, t, l->site->zone);
-        l->when.n = k < 0 ? 0 : k >= WHEN_TEXT - 1 ? WHEN_TEXT - 2 : (size_t)k;
+        sw_time_format_memo(&l->when_memo, t, l->site->zone);
+        memcpy(l->when.s, l->when_memo.text, l->when_memo.len);
+        l->when.n = l->when_memo.len;
         l->when.s[l->when.n++] = ',';
         l->when_t = t;
         l->when_set = 1;

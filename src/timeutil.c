@@ -1368,6 +1368,38 @@ int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone)
     return format_at_offset(buf, n, t, sw_zone_offset_at(zone, t));
 }
 
+/* In format_at_offset's hand-written layout (years 0-9999, offsets below
+ * 100 h) the time of day stands at text[11..19): "YYYY-MM-DDTHH:MM:SS". */
+const char *sw_time_format_memo(sw_time_text_memo *m, sw_time_ms t,
+                                const sw_zone *zone)
+{
+    int32_t off = sw_zone_offset_at(zone, t);
+    sw_time_ms local = t + (sw_time_ms)off * SW_MS_PER_S;
+    int64_t day = floor_div(local, MS_PER_DAY);
+    int64_t ms_of_day = local - day * MS_PER_DAY;
+
+    if (m->valid && day == m->day && off == m->offset &&
+        ms_of_day % 1000 == 0) {
+        int sec = (int)(ms_of_day / 1000);
+        char *w = m->text + 11;
+        w = put2(w, sec / 3600);
+        *w++ = ':';
+        w = put2(w, sec / 60 % 60);
+        *w++ = ':';
+        put2(w, sec % 60);
+        return m->text;
+    }
+    int k = format_at_offset(m->text, sizeof m->text, t, off);
+    m->len = k < 0 ? 0 : (size_t)k < sizeof m->text ? (size_t)k
+                                                     : sizeof m->text - 1;
+    /* the layout above holds: a whole second, a year of four digits */
+    m->valid = ms_of_day % 1000 == 0 && m->len >= 19 && m->text[10] == 'T' &&
+               m->text[4] == '-';
+    m->day = day;
+    m->offset = off;
+    return m->text;
+}
+
 /* The instant of local midnight starting day `day`: the first instant
  * showing it, or the first instant after the gap that skips it. */
 static sw_time_ms midnight(const sw_zone *zone, int64_t day, int which)

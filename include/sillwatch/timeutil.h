@@ -109,6 +109,21 @@ void sw_civil_from_days(int64_t days, int64_t *y, int *m, int *d);
  * written (< n), as snprintf does. */
 int sw_time_format(char *buf, size_t n, sw_time_ms t, const sw_zone *zone);
 
+/* sw_time_format() for a run of instants that mostly share a day: the
+ * last text is kept, and an instant on the same local day at the same
+ * offset, whole seconds like the last, only has its time of day written
+ * again.  The same text as sw_time_format(), in m->text (m->len bytes).
+ * Start with the memo zeroed. */
+typedef struct sw_time_text_memo {
+    int valid;
+    int64_t day;      /* local days since 1970 of the last text */
+    int32_t offset;   /* its UTC offset, seconds */
+    size_t len;
+    char text[64];
+} sw_time_text_memo;
+const char *sw_time_format_memo(sw_time_text_memo *m, sw_time_ms t,
+                                const sw_zone *zone);
+
 /* The instant at which the calendar month containing `t` (in `zone`)
  * begins, and the one at which the next month begins; and the month as
  * year*100+month (202503).  For zones with daylight saving, month starts

@@ -1400,6 +1400,47 @@ static void test_tzif_month_after_its_midnight(void **state)
     sw_zone_free(z);
 }
 
+/* sw_time_format_memo gives sw_time_format's text, instant by instant,
+ * along runs that cross midnights, daylight-saving changes (Europe/Berlin,
+ * America/St_Johns: a half-hour offset), whole and fractional seconds,
+ * historical offsets with seconds, and years below 1000 and beyond 9999
+ * (reference: sw_time_format itself, checked against the tz database
+ * elsewhere in this file). */
+static void test_format_memo_same_as_plain(void **state)
+{
+    const char *zones[] = {"UTC", "Europe/Berlin", "America/St_Johns",
+                           "+05:45"};
+    /* starts: 2024-03-30 (Berlin's spring change that night), 1890 (local
+     * mean time, offsets with seconds), year 0999, year 10000 */
+    const sw_time_ms starts[] = {1711756800000LL, -2524521600000LL,
+                                 -30641760000000LL, 253402214400000LL};
+    unsigned long seed = 99;
+    (void)state;
+    for (size_t z = 0; z < sizeof zones / sizeof zones[0]; z++) {
+        sw_zone *zone = zone_ok(zones[z]);
+        for (size_t k = 0; k < sizeof starts / sizeof starts[0]; k++) {
+            sw_time_text_memo m;
+            sw_time_ms t = starts[k];
+            memset(&m, 0, sizeof m);
+            for (int i = 0; i < 3000; i++) {
+                char want[64];
+                int n = sw_time_format(want, sizeof want, t, zone);
+                const char *got = sw_time_format_memo(&m, t, zone);
+                assert_string_equal(got, want);
+                assert_int_equal(m.len, (size_t)n);
+                seed = seed * 6364136223846793005ULL + 1442695040888963407ULL;
+                /* mostly 15 min, now and then a fraction or a jump */
+                switch ((seed >> 33) % 8) {
+                case 0: t += (sw_time_ms)((seed >> 40) % 1000); break;
+                case 1: t += 3600000LL * 23; break;
+                default: t += 900000; break;
+                }
+            }
+        }
+        sw_zone_free(zone);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -1431,6 +1472,7 @@ int main(void)
         cmocka_unit_test(test_durations),
         cmocka_unit_test(test_duration_errors),
         cmocka_unit_test(test_stamp_memo_same_as_plain),
+        cmocka_unit_test(test_format_memo_same_as_plain),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
