@@ -19,6 +19,7 @@
 #include "sillwatch/outfile.h"
 #include "sillwatch/report.h"
 #include "sillwatch/required.h"
+#include "sillwatch/screening.h"
 #include "sillwatch/samplerun.h"
 #include "sillwatch/series.h"
 #include "sillwatch/site.h"
@@ -183,50 +184,6 @@ static int parse_args(int argc, char **argv, screen_opts *o)
                                &o->site_path);
 }
 
-static void put_time(FILE *fp, sw_time_ms t, const sw_zone *zone)
-{
-    char buf[64];
-    sw_time_format(buf, sizeof buf, t, zone);
-    fputs(buf, fp);
-}
-
-static void put_hours(FILE *fp, sw_time_ms ms)
-{
-    long long h4 = sw_report_hours4(ms < 0 ? -ms : ms);
-    fprintf(fp, "%s%lld.%04lld", ms < 0 ? "-" : "", h4 / 10000, h4 % 10000);
-}
-
-/* A number with `decimals` decimals, or inf / -inf. */
-static void put_number(FILE *fp, double v, int decimals)
-{
-    if (isinf(v))
-        fputs(v > 0 ? "inf" : "-inf", fp);
-    else
-        fprintf(fp, "%.*f", decimals, v);
-}
-
-/* One gate's verdict over its members, for screen.csv and the table. */
-typedef struct verdict {
-    size_t gate;
-    sw_sample_screen s;                 /* members, first times */
-    sw_time_ms low_median, open_median; /* hours as ms */
-} verdict;
-
-static sw_time_ms median_ms(double *v, size_t n)
-{
-    return n == 0 ? 0 : (sw_time_ms)llround(sw_quantile(v, n, 0.5));
-}
-
-static int cmp_verdict(const void *a, const void *b)
-{
-    const verdict *x = a, *y = b;
-    if (x->s.low_seen != y->s.low_seen)
-        return y->s.low_seen - x->s.low_seen;
-    if (x->s.low_seen && x->s.low_first != y->s.low_first)
-        return x->s.low_first < y->s.low_first ? -1 : 1;
-    return (x->gate > y->gate) - (x->gate < y->gate);
-}
-
 /* Warn of a last line left out because its file grew while it was read
  * (see README, "Level files"). */
 static void warn_partial(const char *path, const sw_reader_stats *rs,
@@ -239,116 +196,11 @@ static void warn_partial(const char *path, const sw_reader_stats *rs,
                 path, rs->partial_line);
 }
 
-/* Replay the expanded site: forecast.csv per step; verdicts at the end. */
-static int screen_members(const sw_site *site, const sw_ensemble *ens,
-                          sw_outfile *out, verdict *vd, sw_time_ms *t0,
-                          int quiet, sw_error *err)
+/* A series' file read to its end: its partial-line warning. */
+static void member_file(void *ctx, const sw_site_series *sr,
+                        const sw_reader_stats *stats)
 {
-    sw_stepper *st = NULL;
-    sw_stepper_options opt = {0, 1, 0};
-    size_t n = ens->site.n_gates;
-    double *fs = malloc((n ? n : 1) * sizeof *fs);
-    double *sr = malloc((n ? n : 1) * sizeof *sr);
-    int rc, done = 0;
-    FILE *fp = out[OUT_FORECAST].fp;
-
-    if (fs == NULL || sr == NULL) {
-        rc = sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
-        goto cleanup;
-    }
-    if ((rc = sw_stepper_alloc(&st, &ens->site, &opt, err)) != SW_OK)
-        goto cleanup;
-    fputs("time,gate,members,fraction_low,fraction_open,fs_p10,fs_p50,"
-          "fs_p90,sill_reaction_p10,sill_reaction_p50,sill_reaction_p90\n",
-          fp);
-    for (int last = 0; !last;) {
-        if ((rc = sw_stepper_advance(st, &done, err)) != SW_OK ||
-            (rc = sw_cancel_check(err)) != SW_OK)
-            goto cleanup;
-        if (done) {
-            if ((rc = sw_stepper_finish(st, err)) != SW_OK)
-                goto cleanup;
-            last = 1;
-        }
-        const sw_stepper_flag *fl;
-        size_t n_fl = sw_stepper_flags(st, &fl);
-        for (size_t i = 0; i < n_fl; i++) {
-            const sw_site_series *ss = sw_stepper_series(st, fl[i].series);
-            sw_report_flag_row(out[OUT_FLAGS].fp, ss->name, ss->path,
-                               &fl[i].reading, site->zone);
-        }
-        if (!sw_stepper_passed(st))
-            continue; /* flags only */
-        for (size_t g = 0; g < ens->n_orig; g++) {
-            size_t k = 0, low = 0, open = 0;
-            if (ens->n_members[g] == 0)
-                continue;
-            for (size_t e = 0; e < n; e++) {
-                const sw_step_gate *sg = sw_stepper_gate_at(st, e);
-                if (ens->orig[e] != g || !sg->known)
-                    continue;
-                fs[k] = sg->result.fs;
-                sr[k] = sg->result.sill_reaction_N;
-                low += sg->result.state == SW_STATE_LOW;
-                open += sg->result.state == SW_STATE_OPEN;
-                k++;
-            }
-            if (k == 0)
-                continue;
-            put_time(fp, sw_stepper_time(st), site->zone);
-            fputc(',', fp);
-            sw_csv_put_field(fp, site->gates[g].gate.name);
-            fprintf(fp, ",%zu,%.4f,%.4f", k,
-                    (double)low / (double)k, (double)open / (double)k);
-            /* one selection per quantity for all three percentiles */
-            const double p[3] = {0.1, 0.5, 0.9};
-            double q_fs[3], q_sr[3];
-            sw_quantiles(fs, k, p, 3, q_fs);
-            sw_quantiles(sr, k, p, 3, q_sr);
-            for (int i = 0; i < 3; i++) {
-                fputc(',', fp);
-                put_number(fp, q_fs[i], 4);
-            }
-            for (int i = 0; i < 3; i++) {
-                fputc(',', fp);
-                put_number(fp, q_sr[i], 2);
-            }
-            fputc('\n', fp);
-        }
-    }
-
-    sw_time_ms end;
-    if (!sw_stepper_has_data(st)) {
-        rc = sw_stepper_no_data_error(st, err);
-        goto cleanup;
-    }
-    sw_stepper_span(st, t0, &end);
-    for (size_t g = 0; g < ens->n_orig; g++) {
-        verdict *v = &vd[g];
-        size_t k = 0;
-        memset(v, 0, sizeof *v);
-        v->gate = g;
-        for (size_t e = 0; e < n; e++) {
-            const sw_tally *t = sw_stepper_tally(st, e);
-            if (ens->orig[e] != g)
-                continue;
-            sw_sample_screen_add(&v->s, t);
-            fs[k] = (double)(t->low + t->open);
-            sr[k] = (double)t->open;
-            k++;
-        }
-        v->low_median = median_ms(fs, k);
-        v->open_median = median_ms(sr, k);
-    }
-cleanup:
-    for (size_t i = 0; st != NULL && rc == SW_OK && i < sw_stepper_n_series(st);
-         i++)
-        warn_partial(sw_stepper_series(st, i)->path,
-                     sw_stepper_reader_stats(st, i), quiet);
-    sw_stepper_free(st);
-    free(fs);
-    free(sr);
-    return rc;
+    warn_partial(sr->path, stats, *(const int *)ctx);
 }
 
 /* What the terminal lines of the headwater-only series need. */
@@ -393,14 +245,14 @@ static int screen_required(const sw_site *site, const sw_ensemble *ens,
 }
 
 /* screen.json: the rows of screen.csv, numbers as numbers (jsonout.h). */
-static int write_json(FILE *fp, const sw_site *site, const verdict *vd,
+static int write_json(FILE *fp, const sw_site *site, const sw_screen_verdict *vd,
                       size_t n_v, sw_time_ms issued, sw_error *err)
 {
     int bad = 0, rc;
     json_t *doc = json_object(), *rows = json_array();
 
     for (size_t i = 0; i < n_v && rows != NULL; i++) {
-        const verdict *v = &vd[i];
+        const sw_screen_verdict *v = &vd[i];
         json_t *r = json_object();
         const sw_gate *g = &site->gates[v->gate].gate;
         sw_json_set(r, "gate", json_string(g->name), &bad);
@@ -537,7 +389,7 @@ static int screen_site(const screen_opts *op, const char *site_path,
     sw_ensemble ens;
     sw_outfile out[N_OUT];
     sw_error err;
-    verdict *vd = NULL;
+    sw_screen_verdict *vd = NULL;
     sw_uncert u;
     sw_samplescreen ss;
     sw_time_ms t0 = 0, issued = 0;
@@ -605,48 +457,18 @@ static int screen_site(const screen_opts *op, const char *site_path,
     if ((rc = screen_required(&site, &ens, out, o.quiet, &err)) != SW_OK)
         goto fail;
     if (ens.site.n_gates > 0 &&
-        (rc = screen_members(&site, &ens, out, vd, &t0, o.quiet, &err)) !=
-            SW_OK)
+        (rc = sw_screen_members(&site, &ens, out[OUT_FORECAST].fp,
+                                out[OUT_FLAGS].fp, vd, &t0, member_file,
+                                &o.quiet, &err)) != SW_OK)
         goto fail;
     if (!have_issued)
         issued = t0;
 
-    FILE *sc = out[OUT_SCREEN].fp;
-    fputs("gate,members,low_first_time,low_lead_hours,low_members,"
-          "low_median_hours,open_first_time,open_lead_hours,open_members,"
-          "open_median_hours\n", sc);
-    size_t n_v = 0;
-    for (size_t g = 0; g < site.n_gates; g++)
-        if (ens.n_members[g] > 0)
-            vd[n_v++] = vd[g];
-    qsort(vd, n_v, sizeof *vd, cmp_verdict);
-    for (size_t i = 0; i < n_v; i++) {
-        const verdict *v = &vd[i];
-        sw_csv_put_field(sc, site.gates[v->gate].gate.name);
-        fprintf(sc, ",%zu,", v->s.members);
-        if (v->s.low_seen) {
-            put_time(sc, v->s.low_first, site.zone);
-            fputc(',', sc);
-            put_hours(sc, v->s.low_first - issued);
-        } else {
-            fputc(',', sc);
-        }
-        fprintf(sc, ",%zu,", v->s.low_members);
-        put_hours(sc, v->low_median);
-        fputc(',', sc);
-        if (v->s.open_seen) {
-            put_time(sc, v->s.open_first, site.zone);
-            fputc(',', sc);
-            put_hours(sc, v->s.open_first - issued);
-        } else {
-            fputc(',', sc);
-        }
-        fprintf(sc, ",%zu,", v->s.open_members);
-        put_hours(sc, v->open_median);
-        fputc('\n', sc);
-        if (v->s.low_seen)
+    size_t n_v = sw_screen_order(&ens, vd, site.n_gates);
+    sw_screen_csv(out[OUT_SCREEN].fp, &site, vd, n_v, issued);
+    for (size_t i = 0; i < n_v; i++)
+        if (vd[i].s.low_seen)
             exit_code = SW_EXIT_BELOW;
-    }
 
     if (o.json && (rc = write_json(out[OUT_JSON].fp, &site, vd, n_v, issued,
                                    &err)) != SW_OK)
@@ -685,7 +507,7 @@ static int screen_site(const screen_opts *op, const char *site_path,
                "members", "first below margin", "lead h", "members",
                "median h", "first open", "lead h", "members", "median h");
         for (size_t i = 0; i < n_v; i++) {
-            const verdict *v = &vd[i];
+            const sw_screen_verdict *v = &vd[i];
             char a[64] = "-", b[64] = "-", la[24] = "-", lb[24] = "-";
             if (v->s.low_seen) {
                 sw_time_format(a, sizeof a, v->s.low_first, site.zone);
