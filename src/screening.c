@@ -171,6 +171,19 @@ size_t sw_screen_order(const sw_ensemble *ens, sw_screen_verdict *vd,
     return n;
 }
 
+/* "first time,lead hours", or "," where it never came. */
+static void put_first(FILE *sc, int seen, sw_time_ms first,
+                      sw_time_ms issued, const sw_zone *zone)
+{
+    if (seen) {
+        put_time(sc, first, zone);
+        fputc(',', sc);
+        put_hours(sc, first - issued);
+    } else {
+        fputc(',', sc);
+    }
+}
+
 void sw_screen_csv(FILE *sc, const sw_site *site,
                    const sw_screen_verdict *vd, size_t n, sw_time_ms issued)
 {
@@ -181,23 +194,11 @@ void sw_screen_csv(FILE *sc, const sw_site *site,
         const sw_screen_verdict *v = &vd[i];
         sw_csv_put_field(sc, site->gates[v->gate].gate.name);
         fprintf(sc, ",%zu,", v->s.members);
-        if (v->s.low_seen) {
-            put_time(sc, v->s.low_first, site->zone);
-            fputc(',', sc);
-            put_hours(sc, v->s.low_first - issued);
-        } else {
-            fputc(',', sc);
-        }
+        put_first(sc, v->s.low_seen, v->s.low_first, issued, site->zone);
         fprintf(sc, ",%zu,", v->s.low_members);
         put_hours(sc, v->low_median);
         fputc(',', sc);
-        if (v->s.open_seen) {
-            put_time(sc, v->s.open_first, site->zone);
-            fputc(',', sc);
-            put_hours(sc, v->s.open_first - issued);
-        } else {
-            fputc(',', sc);
-        }
+        put_first(sc, v->s.open_seen, v->s.open_first, issued, site->zone);
         fprintf(sc, ",%zu,", v->s.open_members);
         put_hours(sc, v->open_median);
         fputc('\n', sc);
