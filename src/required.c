@@ -41,19 +41,17 @@ static int required_step(FILE *fp, const sw_site *site, sw_crit_cache *cache,
 /* The name of headwater-only series s in flags.csv (NAME, or
  * NAME#MEMBER as the replay names members), or NULL when its flags are
  * written already: by the replay (a gate with a tailwater uses it too) or
- * for an earlier headwater-only gate on the same series. */
+ * for an earlier headwater-only gate on the same series (`repeat`). */
 static const char *flag_name(const sw_site *site, const sw_ensemble *ens,
-                             size_t s, char *buf, size_t n)
+                             size_t s, int repeat, char *buf, size_t n)
 {
     const char *h = site->gates[ens->hw_series_gate[s]].headwater;
     for (size_t g = 0; g < site->n_gates; g++)
         if (site->gates[g].tailwater[0] != '\0' &&
             strcmp(site->gates[g].headwater, h) == 0)
             return NULL;
-    for (size_t k = 0; k < s; k++)
-        if (strcmp(site->gates[ens->hw_series_gate[k]].headwater, h) == 0 &&
-            strcmp(ens->hw_series[k].name, ens->hw_series[s].name) == 0)
-            return NULL;
+    if (repeat)
+        return NULL;
     if (ens->hw_series[s].name[0] == '\0')
         snprintf(buf, n, "%s", h);
     else
@@ -92,6 +90,8 @@ typedef struct hw_files {
     sw_reader **reader;       /* [n_groups]: NULL until read */
     sw_colstore **store;      /* [n_groups] */
     sw_crit_cache **crit;     /* [site gates]: as first needed */
+    unsigned char *repeat;    /* [n_hw_series]: an earlier series has the
+                                 same headwater and member */
 } hw_files;
 
 static void hw_files_free(hw_files *hf, const sw_site *site)
@@ -109,6 +109,44 @@ static void hw_files_free(hw_files *hf, const sw_site *site)
     free(hf->reader);
     free(hf->store);
     free(hf->crit);
+    free(hf->repeat);
+}
+
+/* A series' headwater and member, for finding repeats. */
+typedef struct pair {
+    const char *headwater, *member;
+    size_t s;
+} pair;
+
+static int cmp_pair(const void *x, const void *y)
+{
+    const pair *a = x, *b = y;
+    int c = strcmp(a->headwater, b->headwater);
+    if (c == 0)
+        c = strcmp(a->member, b->member);
+    return c != 0 ? c : (a->s > b->s) - (a->s < b->s);
+}
+
+/* Mark each series whose headwater and member an earlier one has: sorted
+ * once (a search through the earlier series for each was quadratic in
+ * members). */
+static int mark_repeats(hw_files *hf, const sw_site *site,
+                        const sw_ensemble *ens, sw_error *err)
+{
+    size_t n = ens->n_hw_series;
+    pair *p = malloc((n ? n : 1) * sizeof *p);
+    if (p == NULL)
+        return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
+    for (size_t s = 0; s < n; s++)
+        p[s] = (pair){site->gates[ens->hw_series_gate[s]].headwater,
+                      ens->hw_series[s].name, s};
+    qsort(p, n, sizeof *p, cmp_pair);
+    for (size_t i = 1; i < n; i++)
+        hf->repeat[p[i].s] =
+            strcmp(p[i].headwater, p[i - 1].headwater) == 0 &&
+            strcmp(p[i].member, p[i - 1].member) == 0;
+    free(p);
+    return SW_OK;
 }
 
 /* Sort the series into groups (a few files: a search per series). */
@@ -124,9 +162,10 @@ static int hw_files_plan(hw_files *hf, const sw_site *site,
     hf->reader = calloc(n, sizeof *hf->reader);
     hf->store = calloc(n, sizeof *hf->store);
     hf->crit = calloc(site->n_gates + 1, sizeof *hf->crit);
+    hf->repeat = calloc(n, sizeof *hf->repeat);
     if (hf->group == NULL || hf->column == NULL || hf->first == NULL ||
         hf->width == NULL || hf->reader == NULL || hf->store == NULL ||
-        hf->crit == NULL)
+        hf->crit == NULL || hf->repeat == NULL)
         return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
     for (size_t s = 0; s < ens->n_hw_series; s++) {
         size_t k = 0;
@@ -139,7 +178,7 @@ static int hw_files_plan(hw_files *hf, const sw_site *site,
         hf->group[s] = k;
         hf->column[s] = hf->width[k]++;
     }
-    return SW_OK;
+    return mark_repeats(hf, site, ens, err);
 }
 
 /* Read group k's file once, every column of its series. */
@@ -180,7 +219,8 @@ static int required_series(const sw_required_out *out, const sw_site *site,
     sw_qc_reading judged;
     sw_colstore_cursor cur;
     char fbuf[2 * SW_SITE_NAME_MAX + 2];
-    const char *fname = flag_name(site, ens, s, fbuf, sizeof fbuf);
+    const char *fname = flag_name(site, ens, s, hf->repeat[s], fbuf,
+                                  sizeof fbuf);
     int has = 1, rc;
 
     if (hf->crit[gi] == NULL &&
