@@ -76,10 +76,6 @@ static int required_verdict(const sw_required_out *out, const sw_site *site,
                          err);
 }
 
-/* Critical levels remembered per headwater-only gate (exact headwater:
- * the very results of a search, critcache.h). */
-#define CRIT_SLOTS 4096
-
 /* The headwater-only series' files, each read once into a column store
  * (colstore.h) when its first series comes: the series that can share a
  * reader (sw_site_series_same_reader) form a group, one column each. */
@@ -224,7 +220,8 @@ static int required_series(const sw_required_out *out, const sw_site *site,
     int has = 1, rc;
 
     if (hf->crit[gi] == NULL &&
-        (rc = sw_crit_cache_alloc(&hf->crit[gi], g, CRIT_SLOTS, err)) != SW_OK)
+        (rc = sw_crit_cache_alloc(&hf->crit[gi], g, SW_CRIT_CACHE_SLOTS,
+                                  err)) != SW_OK)
         return rc;
     qcc.max_gap_ms = site->max_gap_ms;
     if (sw_qc_active(&qcc) && (rc = sw_qc_alloc(&qc, &qcc, err)) != SW_OK)

@@ -9,10 +9,6 @@
 #include "sillwatch/handoff.h"
 #include "sillwatch/report.h"
 
-/* Critical levels remembered per gate: a season visits a few thousand
- * distinct headwaters (a power of two). */
-#define CRIT_SLOTS 4096
-
 /* Rows a batch holds, and batches in the ring (about 512 KiB in all). */
 #define BATCH_ROWS 1024
 #define SLOTS 8
@@ -170,7 +166,7 @@ static int alloc_parts(sw_steplog *l, sw_error *err)
         return sw_error_set(err, SW_ENOMEM, NULL, 0, 0, "out of memory");
     for (size_t g = 0; g < site->n_gates; g++) {
         if ((rc = sw_crit_cache_alloc(&l->crit[g], &site->gates[g].gate,
-                                      CRIT_SLOTS, err)) != SW_OK)
+                                      SW_CRIT_CACHE_SLOTS, err)) != SW_OK)
             return rc;
         /* names are shorter than SW_SITE_NAME_MAX: GATE_TEXT holds them */
         text *t = &l->gate[g];

@@ -19,6 +19,10 @@
 
 typedef struct sw_crit_cache sw_crit_cache; /* opaque */
 
+/* The slots the step log and screen's headwater-only gates take: a
+ * season visits a few thousand distinct headwaters; a power of two. */
+#define SW_CRIT_CACHE_SLOTS 4096
+
 /* A cache of `slots` entries (rounded up to a power of two, at least 2)
  * for `gate`, which must outlive it and not change.  Errors: SW_ENOMEM. */
 int sw_crit_cache_alloc(sw_crit_cache **cache, const sw_gate *gate,
